@@ -1,1 +1,21 @@
+//! exobound: a Monte Carlo engine for surface-bounded exospheres.
+//!
+//! Why this exists: the engine owns particles, the surface grid, time,
+//! transport, tallies and outputs; every source, loss, surface interaction
+//! and reservoir process is a sandboxed WebAssembly module reached only
+//! through [`runtime`]. The command-line tool is a thin layer over this
+//! library, and the tests call the library directly.
 
+pub mod modbuild;
+pub mod runtime;
+
+/// Directory where the build placed the standard process modules
+/// (`target/modules/<name>.wasm`), as known when this crate was compiled.
+pub fn standard_module_dir() -> std::path::PathBuf {
+    std::path::PathBuf::from(env!("EXOBOUND_MODULE_DIR"))
+}
+
+/// Path of the standard module `name` (e.g. `photoionization`).
+pub fn standard_module(name: &str) -> std::path::PathBuf {
+    standard_module_dir().join(format!("{name}.wasm"))
+}
