@@ -19,3 +19,5 @@ pub fn standard_module_dir() -> std::path::PathBuf {
 pub fn standard_module(name: &str) -> std::path::PathBuf {
     standard_module_dir().join(format!("{name}.wasm"))
 }
+pub mod inspect;
+pub mod scaffold;

@@ -143,3 +143,16 @@ pub fn build(manifest: &Path, packages: &[String], target_dir: &Path) -> Result<
     }
     Ok(())
 }
+
+/// Build the module crate in `dir` to wasm and return the `.wasm` path.
+/// The target directory is `$CARGO_TARGET_DIR` if set, else `dir/target`.
+pub fn build_crate(dir: &Path) -> Result<PathBuf, BuildError> {
+    let manifest = dir.join("Cargo.toml");
+    let lib = lib_name(&manifest)?;
+    let target_dir = std::env::var_os("CARGO_TARGET_DIR")
+        .map(PathBuf::from)
+        .unwrap_or_else(|| dir.join("target"));
+    build(&manifest, &[], &target_dir)?;
+    let artifact = artifact_path(&target_dir, &lib);
+    if artifact.is_file() { Ok(artifact) } else { Err(BuildError::NoArtifact(artifact)) }
+}

@@ -30,6 +30,9 @@ pub enum ParamValue {
 impl core::fmt::Display for ParamValue {
     fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
         match self {
+            ParamValue::Number(x) if *x != 0.0 && (x.abs() < 1e-3 || x.abs() >= 1e6) => {
+                write!(f, "{x:e}")
+            }
             ParamValue::Number(x) => write!(f, "{x}"),
             ParamValue::Text(s) => write!(f, "\"{s}\""),
         }

@@ -1,0 +1,124 @@
+//! Command-line parsing and error reporting for the `exobound` binary.
+//!
+//! Why this exists: clap and anyhow stay here, out of the library. Each
+//! subcommand maps to one library call; errors are printed with their
+//! cause chain and mapped to exit codes (0 success, 1 failure, 2 usage).
+
+use std::ffi::OsString;
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use anyhow::{Context, Result, bail};
+use clap::{Parser, Subcommand};
+use exobound::{inspect, modbuild, scaffold};
+use exobound_sdk::Role;
+
+/// Monte Carlo model of a surface-bounded exosphere and its surface reservoir.
+#[derive(Parser)]
+#[command(name = "exobound", version, about)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Work with process modules: inspect, scaffold and build them.
+    Module {
+        #[command(subcommand)]
+        action: ModuleAction,
+    },
+}
+
+#[derive(Subcommand)]
+enum ModuleAction {
+    /// Show a module's manifest, ABI version and SHA-256 digest, without running it.
+    Inspect {
+        /// The `.wasm` file.
+        file: PathBuf,
+        /// Print a JSON object instead of text.
+        #[arg(long)]
+        json: bool,
+    },
+    /// Write a new module crate with one simple law, a manifest, a reference point and a test.
+    New {
+        /// Module name: lowercase letters, digits and '-'.
+        name: String,
+        /// Role: source, loss, surface-interaction or reservoir-process.
+        #[arg(long)]
+        role: String,
+        /// Directory to create (default: ./NAME).
+        #[arg(long)]
+        dir: Option<PathBuf>,
+        /// exobound-sdk sources for the crate's path dependency (default: the SDK this
+        /// binary was built with, or $EXOBOUND_SDK_DIR).
+        #[arg(long)]
+        sdk: Option<PathBuf>,
+    },
+    /// Build a module crate to a `.wasm` file (release, wasm32) and print its path.
+    Build {
+        /// The crate directory (default: the current directory).
+        dir: Option<PathBuf>,
+    },
+}
+
+/// Parse `args`, run the command, and map the outcome to an exit code.
+pub fn run(args: impl IntoIterator<Item = OsString>) -> ExitCode {
+    let cli = match Cli::try_parse_from(args) {
+        Ok(c) => c,
+        Err(e) => {
+            let _ = e.print();
+            return if e.use_stderr() { ExitCode::from(2) } else { ExitCode::SUCCESS };
+        }
+    };
+    match dispatch(cli) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("error: {e:#}");
+            ExitCode::from(1)
+        }
+    }
+}
+
+fn dispatch(cli: Cli) -> Result<()> {
+    match cli.command {
+        Command::Module { action } => match action {
+            ModuleAction::Inspect { file, json } => {
+                let report = inspect::inspect(&file)?;
+                if json {
+                    println!("{}", serde_json::to_string_pretty(&report)?);
+                } else {
+                    print!("{}", inspect::render_text(&report));
+                }
+                Ok(())
+            }
+            ModuleAction::New { name, role, dir, sdk } => {
+                let Some(role) = Role::parse(&role) else {
+                    bail!(
+                        "unknown role `{role}`; use source, loss, surface-interaction or \
+                         reservoir-process"
+                    );
+                };
+                let dir = dir.unwrap_or_else(|| PathBuf::from(&name));
+                let sdk = sdk.unwrap_or_else(scaffold::default_sdk_dir);
+                let sdk = std::fs::canonicalize(&sdk).with_context(|| {
+                    format!("the SDK directory {} does not exist; pass --sdk", sdk.display())
+                })?;
+                scaffold::new_module(&name, role, &dir, &sdk)?;
+                println!("wrote module crate `{name}` ({}) in {}", role.as_str(), dir.display());
+                println!("next: cd {} && cargo test && exobound module build", dir.display());
+                Ok(())
+            }
+            ModuleAction::Build { dir } => {
+                let dir = dir.unwrap_or_else(|| PathBuf::from("."));
+                let wasm = modbuild::build_crate(&dir)
+                    .map_err(anyhow::Error::msg)
+                    .with_context(|| format!("building the module crate in {}", dir.display()))?;
+                // Refuse to hand out a file the runtime would refuse.
+                inspect::inspect(&wasm)?;
+                println!("{}", wasm.display());
+                Ok(())
+            }
+        },
+    }
+}
