@@ -10,8 +10,8 @@ use std::path::Path;
 use exobound_sdk::{ManifestInfo, ParamValue};
 use serde::Serialize;
 
-use crate::runtime::module::{self, ModuleHeader};
 use crate::runtime::HostError;
+use crate::runtime::module::{self, ModuleHeader};
 
 /// Largest manifest accepted when inspecting, bytes (the runtime's default).
 pub const MAX_MANIFEST: usize = 64 << 10;

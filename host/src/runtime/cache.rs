@@ -77,10 +77,12 @@ pub fn compile_cached(
         return Module::from_binary(engine, bytes).map_err(compile_err);
     };
     let path = artifact_path(dir, sha256, engine);
-    if path.is_file() {
+    // Read the artifact into memory rather than mapping the file: a mapped
+    // file truncated by another process would crash this one (SIGBUS).
+    if let Ok(artifact) = std::fs::read(&path) {
         // SAFETY: the artifact was written by this cache (see the module
         // caution); wasmtime verifies that it matches this engine.
-        if let Ok(m) = unsafe { Module::deserialize_file(engine, &path) } {
+        if let Ok(m) = unsafe { Module::deserialize(engine, &artifact) } {
             return Ok(m);
         }
     }

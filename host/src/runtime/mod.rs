@@ -22,6 +22,7 @@ pub mod cache;
 pub mod error;
 pub mod instance;
 pub mod module;
+pub mod reference;
 pub mod validate;
 pub mod watchdog;
 

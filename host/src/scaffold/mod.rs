@@ -81,7 +81,12 @@ fn template(role: Role) -> &'static str {
 
 /// Write a module crate named `name` for `role` into `dir` (created; must be
 /// absent or empty), depending on the SDK at `sdk`. Returns the files written.
-pub fn new_module(name: &str, role: Role, dir: &Path, sdk: &Path) -> Result<Vec<PathBuf>, ScaffoldError> {
+pub fn new_module(
+    name: &str,
+    role: Role,
+    dir: &Path,
+    sdk: &Path,
+) -> Result<Vec<PathBuf>, ScaffoldError> {
     if !valid_name(name) {
         return Err(ScaffoldError::BadName(name.to_string()));
     }
@@ -102,7 +107,8 @@ pub fn new_module(name: &str, role: Role, dir: &Path, sdk: &Path) -> Result<Vec<
     let mut written = Vec::new();
     for (path, text) in files {
         if let Some(parent) = path.parent() {
-            std::fs::create_dir_all(parent).map_err(|e| ScaffoldError::Io(parent.to_path_buf(), e))?;
+            std::fs::create_dir_all(parent)
+                .map_err(|e| ScaffoldError::Io(parent.to_path_buf(), e))?;
         }
         std::fs::write(&path, text).map_err(|e| ScaffoldError::Io(path.clone(), e))?;
         written.push(path);

@@ -1,0 +1,332 @@
+//! photoionization: loss of neutral atoms in flight by solar EUV photons.
+//!
+//! Why this exists: for Na and K around the Moon and Mercury,
+//! photoionization is the main loss of atoms that do not return to the
+//! surface; a photoion is picked up by the solar wind or the magnetosphere
+//! and leaves the neutral exosphere. The rate is a solar-flux-weighted
+//! integral of the ionization cross-section, so it scales with the photon
+//! flux, i.e. with the inverse square of the heliocentric distance, and it
+//! acts only while the atom is in sunlight:
+//!
+//! ```text
+//! beta = beta_1AU / r_AU^2 * f_sun      [s^-1]
+//! ```
+//!
+//! with beta_1AU the rate at 1 AU (s^-1), r_AU the heliocentric distance in
+//! AU and f_sun the fraction of the interval the atom spends in sunlight.
+//! The default beta_1AU = 5.92e-6 s^-1 (lifetime 1.69e5 s) is the quiet-Sun
+//! value for Na of Huebner et al. (1992) and Huebner & Mukherjee (2015),
+//! from memory; for K a value of about 2-3e-5 s^-1 is quoted (same sources,
+//! low confidence). The module is a rate law only: the host turns the rate
+//! into a survival probability or a weight over its time step and books the
+//! removed atoms under the ledger column `photoionized`.
+//!
+//! What the law leaves out, so that a user can judge it:
+//! - solar activity: Huebner et al. tabulate separate quiet- and
+//!   active-Sun rates (for Na, ionized from 241 nm down, mostly by
+//!   near-UV photons, the two differ modestly); set `rate_1au` for the
+//!   epoch modelled;
+//! - Mercury's orbital eccentricity is carried by the host through
+//!   `helio_distance`, which the law reads per particle;
+//! - electron-impact ionization and charge exchange, which are separate
+//!   loss modules;
+//! - the shadow is treated as sharp: `sunlit_fraction` is the host's
+//!   geometric average over the step, with no penumbra.
+
+use exobound_sdk::{
+    Check, ErrorCode, InFlight, Input, Loss, Manifest, Origin, ParamKind, ParamSpec, Params,
+    Process, ProcessError, ReferencePoint, Role,
+};
+
+/// Heliocentric distance of Mercury at perihelion, AU (check-values §1, F: fact sheets).
+const MERCURY_PERIHELION_AU: f64 = 0.307_50;
+
+/// Heliocentric distance of Mercury at aphelion, AU (check-values §1, F: fact sheets).
+const MERCURY_APHELION_AU: f64 = 0.466_70;
+
+/// Default Na photoionization rate at 1 AU, quiet Sun, s^-1
+/// (from memory: Huebner et al. 1992; Huebner & Mukherjee 2015).
+const NA_RATE_1AU: f64 = 5.92e-6;
+
+/// Photoionization by solar photons, scaled as r^-2 and gated by sunlight.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Photoionization {
+    /// Photoionization rate of an unshadowed atom at 1 AU, s^-1.
+    pub rate_1au: f64,
+}
+
+impl Photoionization {
+    /// Loss rate, s^-1, of one atom at heliocentric distance `helio_distance`
+    /// (AU, > 0) that spends the fraction `sunlit_fraction` (in [0, 1]) of the
+    /// interval in sunlight.
+    ///
+    /// The ionizing photons (below 241 nm for Na) come from a source of
+    /// negligible size at these distances, so their flux, and the rate,
+    /// scale exactly as r^-2.
+    #[inline]
+    pub fn rate(&self, helio_distance: f64, sunlit_fraction: f64) -> f64 {
+        self.rate_1au / (helio_distance * helio_distance) * sunlit_fraction
+    }
+
+    /// Photoionization lifetime of an unshadowed atom, 1 / beta, s, at
+    /// heliocentric distance `helio_distance` in AU.
+    #[inline]
+    pub fn lifetime(&self, helio_distance: f64) -> f64 {
+        1.0 / self.rate(helio_distance, 1.0)
+    }
+}
+
+impl Process for Photoionization {
+    const MANIFEST: Manifest = Manifest {
+        name: "photoionization",
+        version: "1.0.0",
+        description: "Photoionization of atoms in flight by solar photons: \
+                      beta = beta_1AU / r_AU^2 times the fraction of the interval spent \
+                      in sunlight.",
+        roles: &[Role::Loss],
+        authors: &["exobound developers"],
+        institution: "exobound project",
+        licence: "Apache-2.0",
+        law_source: "Huebner, W. F., Keady, J. J. & Lyon, S. P. (1992), Astrophys. Space Sci. \
+                     195, 1; Huebner, W. F. & Mukherjee, J. (2015), Planet. Space Sci. 106, 11 \
+                     (rates at 1 AU, from memory); r^-2 scaling of the solar photon flux",
+        draws_on: None,
+        ledger_label: "photoionized",
+        inputs: &[Input::HelioDistance, Input::Sunlight],
+        parameters: &[ParamSpec {
+            name: "rate_1au",
+            unit: "s^-1",
+            description: "Photoionization rate of an unshadowed atom at 1 AU; 5.92e-6 for Na \
+                          at the quiet Sun, about 2-3e-5 for K",
+            kind: ParamKind::Number { default: Some(NA_RATE_1AU), min: 0.0, max: 1.0e-2 },
+            origin: Origin::FromMemory("Huebner et al. 1992; Huebner & Mukherjee 2015"),
+        }],
+        reference_points: &[
+            ReferencePoint {
+                description: "Na at 1 AU, fully sunlit, quiet Sun",
+                check: Check::LossRate,
+                parameters: &[],
+                input: &[("helio_distance", 1.0), ("sunlit_fraction", 1.0)],
+                expected: NA_RATE_1AU,
+                tolerance: 1.0e-9,
+                source: "check-values §2 (M: Huebner et al. 1992; Huebner & Mukherjee 2015)",
+            },
+            ReferencePoint {
+                description: "Na at Mercury perihelion (0.3075 AU), fully sunlit",
+                check: Check::LossRate,
+                parameters: &[],
+                input: &[("helio_distance", MERCURY_PERIHELION_AU), ("sunlit_fraction", 1.0)],
+                // 5.92e-6 / 0.3075^2 (check-values §2: rate(r) = rate(1 AU)/r^2, exact).
+                expected: 6.260_823_583_845_6e-5,
+                tolerance: 1.0e-9,
+                source: "check-values §1 (q = 0.30750 AU, F) and §2 (r^-2 law, exact; \
+                         M: Huebner et al. 1992)",
+            },
+            ReferencePoint {
+                description: "Na at Mercury aphelion (0.4667 AU), sunlit half the interval",
+                check: Check::LossRate,
+                parameters: &[],
+                input: &[("helio_distance", MERCURY_APHELION_AU), ("sunlit_fraction", 0.5)],
+                // 0.5 * 5.92e-6 / 0.4667^2 (check-values §2, r^-2 law, exact).
+                expected: 1.358_989_525_175_03e-5,
+                tolerance: 1.0e-9,
+                source: "check-values §1 (Q = 0.46670 AU, F) and §2 (r^-2 law, exact; \
+                         M: Huebner et al. 1992)",
+            },
+        ],
+    };
+
+    fn new(params: &Params) -> Result<Self, ProcessError> {
+        // `rate_1au` has passed the schema range [0, 1e-2] s^-1; 0 is allowed
+        // on purpose, to switch photoionization off in a validation run.
+        Ok(Photoionization { rate_1au: params.number("rate_1au")? })
+    }
+}
+
+impl Loss for Photoionization {
+    fn loss_rate(&mut self, particles: &[InFlight], rates: &mut [f64]) -> Result<(), ProcessError> {
+        if particles.len() != rates.len() {
+            return Err(ProcessError::new(
+                ErrorCode::InvalidInput,
+                format!("{} particles but {} rate slots", particles.len(), rates.len()),
+            ));
+        }
+        for (p, rate) in particles.iter().zip(rates.iter_mut()) {
+            if !(p.helio_distance.is_finite() && p.helio_distance > 0.0) {
+                return Err(ProcessError::outside_validity(format!(
+                    "particle {}: heliocentric distance {} AU; the r^-2 photon-flux law needs \
+                     a finite distance above 0 AU",
+                    p.key.particle, p.helio_distance
+                )));
+            }
+            // A fraction outside [0, 1] (or NaN) means the host's shadow
+            // geometry is broken; refuse it rather than produce a negative
+            // or inflated loss.
+            if !(0.0..=1.0).contains(&p.sunlit_fraction) {
+                return Err(ProcessError::new(
+                    ErrorCode::InvalidInput,
+                    format!(
+                        "particle {}: sunlit fraction {}; it must lie in [0, 1]",
+                        p.key.particle, p.sunlit_fraction
+                    ),
+                ));
+            }
+            // A rate, not a decision: the host integrates exp(-beta dt) or
+            // draws the event itself, so this law uses no random numbers.
+            *rate = self.rate(p.helio_distance, p.sunlit_fraction);
+        }
+        Ok(())
+    }
+}
+
+exobound_sdk::export_process!(Photoionization: Loss);
+
+#[cfg(test)]
+mod tests {
+    use std::collections::BTreeMap;
+
+    use exobound_sdk::{NamedFields, ParamValue, RngKey, Value};
+
+    use super::*;
+
+    /// The law built from `given` through the same decode/validate path as
+    /// the guest's `init`, so that defaults come from the manifest.
+    fn law_with(given: &[(&str, ParamValue)]) -> Photoionization {
+        let map: BTreeMap<String, ParamValue> =
+            given.iter().map(|(k, v)| (k.to_string(), v.clone())).collect();
+        let schema = Photoionization::MANIFEST.to_info().parameters;
+        let params = Params::decode(&Params::encode(&map), &schema).expect("valid parameters");
+        Photoionization::new(&params).expect("law builds")
+    }
+
+    /// An atom (particle 99) 100 km up at `helio_distance` AU, sunlit for
+    /// `sunlit_fraction` of the interval.
+    fn atom(helio_distance: f64, sunlit_fraction: f64) -> InFlight {
+        InFlight {
+            key: RngKey { seed: 1, particle: 99, event: 0, stream: 2 },
+            altitude: 1.0e5,
+            helio_distance,
+            sunlit_fraction,
+            ..InFlight::default()
+        }
+    }
+
+    /// The loss rate of one atom, s^-1, through the batch interface.
+    fn one(law: &mut Photoionization, p: InFlight) -> Result<f64, ProcessError> {
+        let mut out = [f64::NAN];
+        law.loss_rate(&[p], &mut out).map(|()| out[0])
+    }
+
+    #[test]
+    fn default_is_the_na_quiet_sun_rate() {
+        let law = law_with(&[]);
+        // check-values §2: Na photoionization 5.92e-6 s^-1 at 1 AU, quiet Sun
+        // (M: Huebner et al. 1992; Huebner & Mukherjee 2015; from memory).
+        assert_eq!(law.rate_1au, 5.92e-6);
+        // check-values §2: lifetime 1.69e5 s (same source, from memory).
+        assert!((law.lifetime(1.0) - 1.69e5).abs() < 0.005e5, "{}", law.lifetime(1.0));
+        let info = Photoionization::MANIFEST.to_info();
+        assert_eq!(info.ledger_label, "photoionized");
+        assert!(info.parameters[0].default_origin.starts_with("from memory: Huebner"));
+    }
+
+    #[test]
+    fn rate_scales_as_inverse_square_of_distance() {
+        let mut law = law_with(&[]);
+        // check-values §2: rate(1 AU), 5.92e-6 s^-1 (M: Huebner et al. 1992).
+        assert_eq!(one(&mut law, atom(1.0, 1.0)).unwrap(), 5.92e-6);
+        // check-values §1: Mercury q = 0.30750 AU (F); §2: rate(r) = rate(1 AU)/r^2 (exact).
+        let q = one(&mut law, atom(0.3075, 1.0)).unwrap();
+        assert!((q - 5.92e-6 / (0.3075 * 0.3075)).abs() <= 1e-15 * q, "{q}");
+        // r^-2 law (check-values §2, exact): perihelion/aphelion ratio (Q/q)^2 = 2.3035 (C).
+        let big_q = one(&mut law, atom(0.4667, 1.0)).unwrap();
+        assert!((q / big_q - (0.4667f64 / 0.3075).powi(2)).abs() < 1e-12);
+        assert!((q / big_q - 2.3035).abs() < 1e-4, "{}", q / big_q);
+    }
+
+    #[test]
+    fn shadow_switches_the_loss_off() {
+        let mut law = law_with(&[]);
+        // Photoionization needs solar photons: no loss in the body's shadow
+        // (law, check-values §2) and a linear interval average across the terminator.
+        assert_eq!(one(&mut law, atom(1.0, 0.0)).unwrap(), 0.0);
+        assert_eq!(one(&mut law, atom(0.3075, 0.0)).unwrap(), 0.0);
+        let half = one(&mut law, atom(1.0, 0.5)).unwrap();
+        assert_eq!(half, 0.5 * 5.92e-6);
+    }
+
+    #[test]
+    fn potassium_rate_is_a_parameter() {
+        // check-values §2: K about 2-3e-5 s^-1 at 1 AU (M: Huebner et al. 1992, low
+        // confidence); 2.5e-5 at Mercury perihelion gives 2.5e-5/0.3075^2 (r^-2 law).
+        let mut law = law_with(&[("rate_1au", ParamValue::Number(2.5e-5))]);
+        let r = one(&mut law, atom(0.3075, 1.0)).unwrap();
+        assert!((r - 2.5e-5 / 0.3075f64.powi(2)).abs() <= 1e-15 * r);
+    }
+
+    /// Runs every manifest reference point the way the host's `module check`
+    /// would: parameters through the schema, the input record by field name.
+    /// A wrong `expected`, an unknown field or a parameter outside the schema
+    /// fails here before the module ships.
+    #[test]
+    fn manifest_reference_points_hold() {
+        for point in Photoionization::MANIFEST.reference_points {
+            assert_eq!(point.check, Check::LossRate);
+            let given: Vec<(&str, ParamValue)> = point
+                .parameters
+                .iter()
+                .map(|(k, v)| match v {
+                    Value::Number(x) => (*k, ParamValue::Number(*x)),
+                    Value::Text(s) => (*k, ParamValue::Text(s.to_string())),
+                })
+                .collect();
+            let mut law = law_with(&given);
+            let mut p = InFlight::default();
+            for (k, v) in point.input {
+                assert!(p.set_field(k, *v), "unknown field {k}");
+            }
+            let got = one(&mut law, p).unwrap();
+            // Values and sources are stated in each point (check-values §1, §2).
+            assert!(
+                (got - point.expected).abs() <= point.tolerance * point.expected.abs(),
+                "{}: got {got:e}, expected {:e}",
+                point.description,
+                point.expected
+            );
+        }
+    }
+
+    #[test]
+    fn refuses_nonsense_inputs_and_parameters() {
+        let mut law = law_with(&[]);
+        let err = one(&mut law, atom(0.0, 1.0)).unwrap_err();
+        assert_eq!(err.code, ErrorCode::OutsideValidity);
+        assert!(err.message.contains("particle 99") && err.message.contains("0 AU"), "{err}");
+        assert_eq!(
+            one(&mut law, atom(f64::INFINITY, 1.0)).unwrap_err().code,
+            ErrorCode::OutsideValidity
+        );
+        assert_eq!(one(&mut law, atom(1.0, 1.5)).unwrap_err().code, ErrorCode::InvalidInput);
+        assert_eq!(one(&mut law, atom(1.0, f64::NAN)).unwrap_err().code, ErrorCode::InvalidInput);
+        let map: BTreeMap<String, ParamValue> =
+            [("rate_1au".to_string(), ParamValue::Number(1.0))].into_iter().collect();
+        let err =
+            Params::validate(&map, &Photoionization::MANIFEST.to_info().parameters).unwrap_err();
+        assert_eq!(err.code, ErrorCode::InvalidParameter);
+        assert!(err.message.contains("rate_1au") && err.message.contains("s^-1"), "{err}");
+    }
+
+    /// The law is a pure function of each record, so permuting a batch
+    /// permutes the results and nothing else.
+    #[test]
+    fn batch_results_do_not_depend_on_order() {
+        let mut law = law_with(&[]);
+        let a = atom(0.39, 0.25);
+        let b = atom(0.31, 1.0);
+        let mut ab = [0.0; 2];
+        let mut ba = [0.0; 2];
+        law.loss_rate(&[a, b], &mut ab).unwrap();
+        law.loss_rate(&[b, a], &mut ba).unwrap();
+        assert_eq!(ab, [ba[1], ba[0]]);
+    }
+}

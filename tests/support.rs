@@ -1,0 +1,177 @@
+//! Shared helpers: temporary directories, a test runtime, WAT fixtures.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+use std::sync::atomic::{AtomicUsize, Ordering};
+use std::time::Duration;
+
+use exobound::runtime::{LoadedModule, Runtime, RuntimeConfig};
+use exobound_sdk::{InFlight, ManifestInfo, ParamValue};
+
+/// A directory under the system temp dir, removed when dropped.
+pub struct TempDir(PathBuf);
+
+impl TempDir {
+    /// A fresh, empty directory whose name contains `label`.
+    pub fn new(label: &str) -> TempDir {
+        static N: AtomicUsize = AtomicUsize::new(0);
+        let p = std::env::temp_dir().join(format!(
+            "exobound-test-{}-{}-{label}",
+            std::process::id(),
+            N.fetch_add(1, Ordering::Relaxed)
+        ));
+        let _ = std::fs::remove_dir_all(&p);
+        std::fs::create_dir_all(&p).expect("create temp dir");
+        TempDir(p)
+    }
+
+    /// Its path.
+    pub fn path(&self) -> &Path {
+        &self.0
+    }
+}
+
+impl Drop for TempDir {
+    fn drop(&mut self) {
+        let _ = std::fs::remove_dir_all(&self.0);
+    }
+}
+
+/// The wall-time budget per call used by the sandbox tests.
+pub const TEST_BUDGET: Duration = Duration::from_millis(250);
+
+/// A runtime with a short call budget and no disk cache.
+pub fn runtime() -> Runtime {
+    Runtime::new(RuntimeConfig {
+        call_budget: TEST_BUDGET,
+        cache_dir: None,
+        ..RuntimeConfig::default()
+    })
+    .expect("runtime")
+}
+
+/// Parameters from (name, value) pairs.
+pub fn params(pairs: &[(&str, ParamValue)]) -> BTreeMap<String, ParamValue> {
+    pairs.iter().map(|(k, v)| (k.to_string(), v.clone())).collect()
+}
+
+/// A text parameter value.
+pub fn text(s: &str) -> ParamValue {
+    ParamValue::Text(s.to_string())
+}
+
+/// Load a standard module built by the host's build script.
+pub fn standard(rt: &Runtime, name: &str) -> Arc<LoadedModule> {
+    rt.load(&exobound::standard_module(name)).unwrap_or_else(|e| panic!("load {name}: {e}"))
+}
+
+/// Load the hostile Rust fixture.
+pub fn hostile(rt: &Runtime) -> Arc<LoadedModule> {
+    let path = exobound_tests::fixture_dir().join("hostile_law.wasm");
+    rt.load(&path).unwrap_or_else(|e| panic!("load hostile fixture: {e}"))
+}
+
+/// Sunlit particles at 1 AU, for loss calls.
+pub fn particles(n: usize) -> Vec<InFlight> {
+    (0..n)
+        .map(|i| InFlight {
+            altitude: 1.0e5 + i as f64,
+            helio_distance: 1.0,
+            sunlit_fraction: 1.0,
+            speed: 1000.0,
+            ..Default::default()
+        })
+        .collect()
+}
+
+/// Assert that `rt` still serves a good call: the standard photoionization
+/// module returns its 1 AU rate (5.92e-6 s^-1, its manifest default).
+pub fn assert_host_still_works(rt: &Runtime) {
+    let m = standard(rt, "photoionization");
+    let mut inst = rt.instantiate(&m, &BTreeMap::new()).unwrap().unwrap();
+    let ps = particles(64);
+    let mut rates = vec![0.0; 64];
+    inst.loss_rate(&ps, &mut rates).unwrap().unwrap();
+    assert!(rates.iter().all(|&r| r == 5.92e-6), "{rates:?}");
+}
+
+/// A manifest for WAT fixtures with the given roles, as MessagePack.
+pub fn manifest_bytes(name: &str, roles: &[&str]) -> Vec<u8> {
+    let info = ManifestInfo {
+        name: name.to_string(),
+        version: "0.0.1".to_string(),
+        description: "hand-written WAT test fixture".to_string(),
+        roles: roles.iter().map(|r| r.to_string()).collect(),
+        authors: vec!["exobound developers".to_string()],
+        institution: "exobound project".to_string(),
+        licence: "Apache-2.0".to_string(),
+        law_source: "none: a test fixture".to_string(),
+        draws_on: roles.contains(&"source").then(|| "bulk".to_string()),
+        ledger_label: String::new(),
+        inputs: vec![],
+        parameters: vec![],
+        reference_points: vec![],
+    };
+    rmp_serde::to_vec_named(&info).expect("encode manifest")
+}
+
+/// WAT string literal content for arbitrary bytes.
+pub fn wat_bytes(b: &[u8]) -> String {
+    b.iter().map(|x| format!("\\{x:02x}")).collect()
+}
+
+/// A hand-written WAT module: a bump allocator, no-op init and last_error,
+/// plus `body` (the role exports), with the given sections and imports.
+pub fn wat(abi: Option<&str>, manifest: Option<&[u8]>, imports: &str, body: &str) -> Vec<u8> {
+    let mut sections = String::new();
+    if let Some(a) = abi {
+        sections += &format!("(@custom \"exobound:abi\" \"{a}\")\n");
+    }
+    if let Some(m) = manifest {
+        sections += &format!("(@custom \"exobound:manifest\" \"{}\")\n", wat_bytes(m));
+    }
+    let text = format!(
+        r#"(module
+  {imports}
+  (memory (export "memory") 2)
+  (global $heap (mut i32) (i32.const 1024))
+  (func (export "exobound_alloc") (param $size i32) (param $align i32) (result i32)
+    (local $p i32)
+    (local.set $p (i32.and
+      (i32.add (global.get $heap) (i32.sub (local.get $align) (i32.const 1)))
+      (i32.sub (i32.const 0) (local.get $align))))
+    (global.set $heap (i32.add (local.get $p) (local.get $size)))
+    (block $ok
+      (loop $grow
+        (br_if $ok (i32.le_u (global.get $heap) (i32.mul (memory.size) (i32.const 65536))))
+        (if (i32.eq (memory.grow (i32.const 1)) (i32.const -1)) (then (return (i32.const 0))))
+        (br $grow)))
+    (local.get $p))
+  (func (export "exobound_init") (param i32 i32) (result i32) (i32.const 0))
+  (data (i32.const 16) "the law refuses: input outside validity")
+  (func (export "exobound_last_error") (param $buf i32) (param $cap i32) (result i32)
+    (memory.copy (local.get $buf) (i32.const 16) (i32.const 39))
+    (i32.const 39))
+  {body}
+  {sections}
+)"#
+    );
+    wat::parse_str(&text).unwrap_or_else(|e| panic!("fixture WAT does not assemble: {e}\n{text}"))
+}
+
+/// A loss export whose body writes 1e-6 s^-1 into every output and then
+/// runs `tail`, which must leave the i32 result on the stack.
+pub fn loss_export(tail: &str) -> String {
+    format!(
+        r#"(func (export "exobound_loss_rate") (param $in i32) (param $n i32) (param $out i32) (result i32)
+    (local $i i32)
+    (block $done
+      (loop $fill
+        (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
+        (f64.store (i32.add (local.get $out) (i32.mul (local.get $i) (i32.const 8))) (f64.const 1e-6))
+        (local.set $i (i32.add (local.get $i) (i32.const 1)))
+        (br $fill)))
+    {tail})"#
+    )
+}

@@ -1,0 +1,13 @@
+//! The integration tests of exobound: one test binary, one module per area.
+//!
+//! Fixture modules are built from source: the hostile Rust fixture by this
+//! crate's build script, the hostile WAT fixtures by `support::wat`.
+
+mod support;
+
+mod abi_equivalence;
+mod cache;
+mod parameters;
+mod sandbox;
+mod scaffold;
+mod standard_modules;
