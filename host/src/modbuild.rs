@@ -117,6 +117,11 @@ pub fn build(manifest: &Path, packages: &[String], target_dir: &Path) -> Result<
     for p in packages {
         cmd.arg("-p").arg(p);
     }
+    // Modules ship as single files: optimise across crates (SDK, libm, law).
+    cmd.env("CARGO_PROFILE_RELEASE_LTO", "fat")
+        .env("CARGO_PROFILE_RELEASE_CODEGEN_UNITS", "1")
+        .env("CARGO_PROFILE_RELEASE_OPT_LEVEL", "3")
+        .env("CARGO_PROFILE_RELEASE_PANIC", "abort");
     for var in [
         "CARGO_ENCODED_RUSTFLAGS",
         "RUSTFLAGS",

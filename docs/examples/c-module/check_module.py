@@ -14,7 +14,8 @@ instantiates anything, as docs/abi.md describes:
 - no imports at all;
 - the exports `memory`, `exobound_alloc`, `exobound_free`, `exobound_init`,
   `exobound_last_error` and the batch exports of every declared role, each
-  with its ABI v1 signature.
+  with its ABI v1 signature (the host itself still loads a module without
+  `exobound_free`; ABI v1 requires it).
 
 It cannot run the module; the engine's `vet` does that.
 
@@ -217,6 +218,17 @@ def check_manifest(m, problems):
     roles = m.get("roles") or []
     if "source" in roles and m.get("draws_on") is None:
         problems.append("manifest: a source must say draws_on: adsorbed or bulk")
+    if "source" not in roles and m.get("draws_on") is not None:
+        problems.append("manifest: draws_on is set but the module is no source")
+    name = m.get("name")
+    if is_str(name) and not (name and all(c.isascii() and (c.isalnum() or c in "-_") for c in name)):
+        problems.append("manifest: name %r must be non-empty ASCII letters, digits, '-' or '_'" % name)
+    version = m.get("version")
+    if is_str(version) and not (len(version.split(".")) == 3 and all(p.isdigit() for p in version.split("."))):
+        problems.append("manifest: version %r is not major.minor.patch" % version)
+    names = [p.get("name") for p in m.get("parameters") or [] if isinstance(p, dict)]
+    for n in set(x for x in names if names.count(x) > 1):
+        problems.append("manifest: parameter %r is declared twice" % n)
     for i, p in enumerate(m.get("parameters") or []):
         where = "manifest: parameters[%d]" % i
         if not isinstance(p, dict) or set(p) != {"name", "unit", "description", "default", "min", "max", "choices", "default_origin"}:
@@ -323,7 +335,8 @@ def main(argv):
     for names in ROLE_EXPORTS.values():
         for name in names:
             if name in exports and name not in declared and manifest is not None:
-                problems.append("%s is exported but its role is not in the manifest's roles" % name)
+                print("note: %s is exported but its role is not in the manifest's roles; "
+                      "the host will never call it" % name)
 
     if problems:
         print("FAILED:")

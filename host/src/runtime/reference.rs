@@ -21,7 +21,7 @@ use super::error::{DomainError, HostError, ModuleError};
 use super::{LoadedModule, Runtime};
 
 /// Records averaged by a stochastic reference check, dimensionless.
-pub const STOCHASTIC_DRAWS: u64 = 40_000;
+pub const STOCHASTIC_DRAWS: u64 = 100_000;
 /// Run seed of the stochastic reference checks.
 pub const REFERENCE_SEED: u64 = 0x00E0_B0D5;
 
