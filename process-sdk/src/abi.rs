@@ -91,6 +91,9 @@ pub unsafe fn init<T: Process>(slot: &Slot<T>, ptr: *const u8, len: usize) -> i3
     }
 }
 
+/// A law's batch method, as a plain function pointer.
+pub type BatchFn<T, I, O> = fn(&mut T, &[I], &mut [O]) -> Result<(), ProcessError>;
+
 /// One batch call: `n` input records at `input`, `n` output records at `output`.
 /// Returns `n` on success, or a negative domain error code.
 ///
@@ -101,12 +104,12 @@ pub unsafe fn batch<T, I: Record, O: Record>(
     input: *const I,
     n: usize,
     output: *mut O,
-    law: fn(&mut T, &[I], &mut [O]) -> Result<(), ProcessError>,
+    law: BatchFn<T, I, O>,
 ) -> i32 {
     if n > i32::MAX as usize {
         return set_error(&ProcessError::new(ErrorCode::InvalidInput, "batch too large"));
     }
-    let aligned = |p: usize, a: usize| p % a == 0;
+    let aligned = |p: usize, a: usize| p.is_multiple_of(a);
     if n > 0
         && (input.is_null()
             || output.is_null()

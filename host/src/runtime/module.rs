@@ -260,7 +260,7 @@ pub fn check_manifest(label: &str, m: &ManifestInfo) -> Result<Vec<Role>, HostEr
             return Err(bad(format!("parameter `{}` is declared twice", p.name)));
         }
         if let (Some(lo), Some(hi)) = (p.min, p.max)
-            && !(lo <= hi)
+            && (lo.is_nan() || hi.is_nan() || lo > hi)
         {
             return Err(bad(format!("parameter `{}` has min {lo} above max {hi}", p.name)));
         }
