@@ -148,6 +148,7 @@ pub fn wat(abi: Option<&str>, manifest: Option<&[u8]>, imports: &str, body: &str
         (if (i32.eq (memory.grow (i32.const 1)) (i32.const -1)) (then (return (i32.const 0))))
         (br $grow)))
     (local.get $p))
+  (func (export "exobound_free") (param i32 i32 i32))
   (func (export "exobound_init") (param i32 i32) (result i32) (i32.const 0))
   (data (i32.const 16) "the law refuses: input outside validity")
   (func (export "exobound_last_error") (param $buf i32) (param $cap i32) (result i32)

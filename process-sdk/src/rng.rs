@@ -113,12 +113,13 @@ impl Rng {
     }
 
     /// A uniform deviate on the open interval (0, 1), dimensionless, with
-    /// 53 random bits; never exactly 0 or 1, so `ln(u)` is always finite.
+    /// 52 random bits: (k + 1/2) 2^-52 for k uniform in [0, 2^52), so never
+    /// exactly 0 or 1 and both `ln(u)` and `ln(1 - u)` are always finite.
     #[inline]
     pub fn uniform(&mut self) -> f64 {
-        // The shifted value is below 2^53, so the signed conversion is exact
-        // (and a single instruction on both x86-64 and wasm32).
-        (((self.next_u64() >> 11) as i64) as f64 + 0.5) * (1.0 / 9_007_199_254_740_992.0)
+        // k + 1/2 < 2^52 is exactly representable (a 53-bit mantissa), and
+        // the signed conversion is one instruction on x86-64 and wasm32.
+        (((self.next_u64() >> 12) as i64) as f64 + 0.5) * (1.0 / 4_503_599_627_370_496.0)
     }
 }
 
@@ -169,6 +170,14 @@ mod tests {
             let c: Vec<u64> = (0..16).map(|_| r.next_u64()).collect();
             assert_ne!(a, c);
         }
+    }
+
+    #[test]
+    fn uniform_extremes_stay_inside_the_open_interval() {
+        // The largest and smallest 52-bit values map strictly inside (0, 1).
+        let top = ((((1u64 << 52) - 1) as i64) as f64 + 0.5) * (1.0 / 4_503_599_627_370_496.0);
+        let bottom = 0.5 * (1.0 / 4_503_599_627_370_496.0);
+        assert!(top < 1.0 && bottom > 0.0);
     }
 
     #[test]

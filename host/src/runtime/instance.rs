@@ -61,7 +61,7 @@ type Batch = TypedFunc<(u32, u32, u32), i32>;
 struct Exports {
     memory: Memory,
     alloc: TypedFunc<(u32, u32), u32>,
-    free: Option<TypedFunc<(u32, u32, u32), ()>>,
+    free: TypedFunc<(u32, u32, u32), ()>,
     init: TypedFunc<(u32, u32), i32>,
     last_error: TypedFunc<(u32, u32), u32>,
     release_rate: Option<Batch>,
@@ -112,11 +112,17 @@ impl ProcessInstance {
         let cfg = runtime.config();
         let engine = runtime.engine().clone();
         let ticks = runtime.ticks_for_budget();
-        let (store, exports) =
-            match instantiate(&engine, &module, cfg.memory_limit, ticks, cfg.fuel)? {
-                Ok(v) => v,
-                Err(d) => return Ok(Err(d)),
-            };
+        let (store, exports) = match instantiate(
+            &engine,
+            &module,
+            cfg.memory_limit,
+            ticks,
+            cfg.fuel,
+            cfg.call_budget,
+        )? {
+            Ok(v) => v,
+            Err(d) => return Ok(Err(d)),
+        };
         let mut inst = ProcessInstance {
             module,
             engine,
@@ -257,9 +263,8 @@ impl ProcessInstance {
             site: site(),
             detail: format!("a buffer of {bytes} bytes does not fit a 32-bit address space"),
         })?;
-        if buf.ptr != 0
-            && let Some(free) = self.exports.free.clone()
-        {
+        if buf.ptr != 0 {
+            let free = self.exports.free.clone();
             self.arm();
             if let Err(e) = free.call(&mut self.store, (buf.ptr, buf.cap, BUFFER_ALIGN)) {
                 return Err(self.classify(e, site()));
@@ -357,16 +362,22 @@ impl ProcessInstance {
     /// Rebuild the instance after a host-side failure.
     fn rebuild(&mut self) -> Result<(), HostError> {
         let module = self.module.clone();
-        let (store, exports) =
-            match instantiate(&self.engine, &module, self.memory_limit, self.ticks, self.fuel)? {
-                Ok(v) => v,
-                Err(d) => {
-                    return Err(HostError::Compile {
-                        module: module.name().to_string(),
-                        detail: format!("re-initialisation after a failure was refused: {d}"),
-                    });
-                }
-            };
+        let (store, exports) = match instantiate(
+            &self.engine,
+            &module,
+            self.memory_limit,
+            self.ticks,
+            self.fuel,
+            self.budget,
+        )? {
+            Ok(v) => v,
+            Err(d) => {
+                return Err(HostError::Compile {
+                    module: module.name().to_string(),
+                    detail: format!("re-initialisation after a failure was refused: {d}"),
+                });
+            }
+        };
         self.store = store;
         self.exports = exports;
         self.input = Buffer::default();
@@ -470,6 +481,7 @@ fn instantiate(
     memory_limit: usize,
     ticks: u64,
     fuel: Option<u64>,
+    budget: std::time::Duration,
 ) -> Result<Result<(Store<MemoryGuard>, Exports), DomainError>, HostError> {
     let name = module.name().to_string();
     let mut store = Store::new(engine, MemoryGuard { limit: memory_limit, refused: false });
@@ -501,7 +513,9 @@ fn instantiate(
     let alloc = instance
         .get_typed_func::<(u32, u32), u32>(&mut store, "exobound_alloc")
         .map_err(|_| missing("exobound_alloc", core))?;
-    let free = instance.get_typed_func::<(u32, u32, u32), ()>(&mut store, "exobound_free").ok();
+    let free = instance
+        .get_typed_func::<(u32, u32, u32), ()>(&mut store, "exobound_free")
+        .map_err(|_| missing("exobound_free", core))?;
     let init = instance
         .get_typed_func::<(u32, u32), i32>(&mut store, "exobound_init")
         .map_err(|_| missing("exobound_init", core))?;

@@ -22,8 +22,8 @@ pub const SUPPORTED_ABI_MAJOR: u32 = 1;
 pub const SUPPORTED_ABI: &str = "1.x (built with exobound-sdk ABI 1.0.0)";
 
 /// Exports every module must have, whatever its roles.
-pub const CORE_EXPORTS: [&str; 4] =
-    ["memory", "exobound_alloc", "exobound_init", "exobound_last_error"];
+pub const CORE_EXPORTS: [&str; 5] =
+    ["memory", "exobound_alloc", "exobound_free", "exobound_init", "exobound_last_error"];
 
 /// The batch exports that implement `role`.
 pub fn role_exports(role: Role) -> &'static [&'static str] {

@@ -45,6 +45,9 @@ pub fn upward_velocity(v: &Velocity, max_speed: f64) -> Option<String> {
 
 /// A landing outcome: a known code, and an upward, bounded velocity for a bounce.
 pub fn outcome(o: &Outcome, max_speed: f64) -> Option<String> {
+    if o.reserved != 0 {
+        return Some(format!("the reserved field is {}, but ABI v1 requires 0", o.reserved));
+    }
     match OutcomeKind::from_code(o.kind) {
         None => Some(format!(
             "the outcome code is {}, but ABI v1 knows only 0 (stick), 1 (bounce) and 2 (lost)",
