@@ -179,7 +179,8 @@ fn endless_start_function_is_stopped() {
     let body =
         format!("{}\n(func $spin (loop $l (br $l)))\n(start $spin)", loss_export("(local.get $n)"));
     let e = wat_error(wat(Some("1.0.0"), Some(&m), "", &body));
-    assert!(matches!(e, HostError::Timeout { .. }), "{e}");
+    assert!(matches!(e, HostError::Timeout { budget: TEST_BUDGET, .. }), "{e}");
+    assert!(e.to_string().contains("instantiation") && e.to_string().contains("0.250 s"), "{e}");
 }
 
 #[test]

@@ -495,9 +495,8 @@ fn instantiate(
                 return Err(HostError::MemoryLimit { site, limit: memory_limit });
             }
             return Err(match e.downcast_ref::<Trap>() {
-                Some(Trap::Interrupt) => {
-                    HostError::Timeout { site, budget: std::time::Duration::from_secs(0) }
-                }
+                Some(Trap::Interrupt) => HostError::Timeout { site, budget },
+                Some(Trap::OutOfFuel) => HostError::OutOfFuel { site, fuel: fuel.unwrap_or(0) },
                 _ => HostError::Compile { module: name, detail: format!("{e:#}") },
             });
         }
