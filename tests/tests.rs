@@ -7,6 +7,7 @@ mod support;
 
 mod abi_equivalence;
 mod cache;
+mod engine;
 mod parameters;
 mod sandbox;
 mod scaffold;

@@ -6,8 +6,17 @@
 //! through [`runtime`]. The command-line tool is a thin layer over this
 //! library, and the tests call the library directly.
 
+pub mod body;
+pub mod engine;
+pub mod environment;
 pub mod modbuild;
+pub mod particles;
 pub mod runtime;
+pub mod species;
+pub mod surface;
+pub mod tally;
+pub mod transport;
+pub mod vec3;
 
 /// Directory where the build placed the standard process modules
 /// (`target/modules/<name>.wasm`), as known when this crate was compiled.

@@ -18,6 +18,7 @@
 //! a module is not subtly wrong within the bounds; that is what reference
 //! points, `vet` and review are for.
 
+pub mod backend;
 pub mod cache;
 pub mod error;
 pub mod instance;

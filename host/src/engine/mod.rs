@@ -1,0 +1,522 @@
+//! The step loop: environment, surface state, reservoir processes,
+//! release, flight, landing, tallies.
+//!
+//! Why this exists: this is the engine every process module plugs into.
+//! It owns particles, the surface, time, transport and tallies, and it
+//! hard-codes no process physics: every release rate, launch velocity,
+//! loss rate, landing outcome and reservoir exchange comes from a module
+//! through [`ProcessCalls`]. Particles fly in fixed-size chunks handed to
+//! threads by rayon; every chunk's results are reduced in chunk order, and
+//! every random number is keyed by (run seed, particle id, event, stream),
+//! so a run is bit-identical at any thread count.
+
+mod flight;
+mod release;
+
+use std::sync::Mutex;
+
+use exobound_sdk::{CellState, Role, flags};
+use serde::Serialize;
+
+use crate::body::Body;
+use crate::environment::SunGeometry;
+use crate::particles::ParticleBank;
+use crate::runtime::backend::{ModuleHandle, ProcessCalls};
+use crate::runtime::{DomainError, HostError, ModuleError};
+use crate::species::Species;
+use crate::surface::{Grid, Reservoir, TemperatureLaw};
+use crate::tally::{DensityTally, Ledger, LedgerRow};
+use crate::transport::frames;
+
+/// Why a run could not go on.
+#[derive(Debug)]
+pub enum EngineError {
+    /// A module failed or refused.
+    Module(ModuleError),
+    /// The configuration is unusable; the message names the setting.
+    Config(String),
+}
+
+impl std::fmt::Display for EngineError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            EngineError::Module(e) => write!(f, "{e}"),
+            EngineError::Config(m) => write!(f, "invalid run configuration: {m}"),
+        }
+    }
+}
+
+impl std::error::Error for EngineError {}
+
+impl From<ModuleError> for EngineError {
+    fn from(e: ModuleError) -> Self {
+        EngineError::Module(e)
+    }
+}
+
+impl From<HostError> for EngineError {
+    fn from(e: HostError) -> Self {
+        EngineError::Module(ModuleError::Host(e))
+    }
+}
+
+impl From<DomainError> for EngineError {
+    fn from(e: DomainError) -> Self {
+        EngineError::Module(ModuleError::Domain(e))
+    }
+}
+
+/// Unwrap a batch call's two levels into an engine error.
+pub(crate) fn call(r: Result<Result<(), DomainError>, HostError>) -> Result<(), EngineError> {
+    Ok(r??)
+}
+
+/// The process modules of a run, by role.
+#[derive(Clone, Debug)]
+pub struct Processes {
+    /// Sources, in the order their particles are released.
+    pub sources: Vec<ModuleHandle>,
+    /// Losses in flight; each gets its own ledger column.
+    pub losses: Vec<ModuleHandle>,
+    /// The surface interaction deciding every landing.
+    pub surface: ModuleHandle,
+    /// Reservoir processes, applied before the sources each step.
+    pub reservoir: Vec<ModuleHandle>,
+}
+
+/// The physical setting of a run.
+#[derive(Clone, Debug)]
+pub struct Model {
+    /// The airless body.
+    pub body: Body,
+    /// The species.
+    pub species: Species,
+    /// Surface grid.
+    pub grid: Grid,
+    /// Surface temperature law.
+    pub temperature: TemperatureLaw,
+    /// Where the Sun is.
+    pub sun: SunGeometry,
+    /// Adsorbed pool and bulk abundance per cell.
+    pub reservoir: Reservoir,
+    /// Solar-wind ion flux reaching the surface, ions cm^-2 s^-1.
+    pub solar_wind_flux: f64,
+    /// Meteoroid flux relative to nominal, dimensionless.
+    pub meteoroid_factor: f64,
+}
+
+/// Numerical settings of a run.
+#[derive(Clone, Debug)]
+pub struct RunConfig {
+    /// Time step, s.
+    pub dt: f64,
+    /// Run seed.
+    pub seed: u64,
+    /// Particles in flight the weights adapt towards, dimensionless.
+    pub target_in_flight: usize,
+    /// Particles per chunk handed to one thread (fixed, so results do not
+    /// depend on the thread count).
+    pub chunk_size: usize,
+    /// Worker threads.
+    pub threads: usize,
+    /// Outer boundary: a particle reaching this radius has escaped, m.
+    pub boundary_radius: f64,
+    /// Book a particle as escaped as soon as its path is unbound and does
+    /// not meet the surface (Jeans' definition of escape); if false it flies
+    /// on, losses acting, until it reaches `boundary_radius`.
+    pub escape_when_unbound: bool,
+    /// Integrate with radiation pressure (else closed-form Kepler hops).
+    pub radiation_pressure: bool,
+    /// Relative tolerance of the radiation-pressure integrator.
+    pub integrator_tolerance: f64,
+    /// Altitude bin edges of the density tally, m.
+    pub alt_edges: Vec<f64>,
+    /// Local-time bins of the tallies over 24 h.
+    pub n_local_time: usize,
+    /// Latitude bins of the tallies.
+    pub n_latitude: usize,
+}
+
+impl RunConfig {
+    /// Settings for `body`: 20 radii boundary, 4096-particle chunks,
+    /// 100 km altitude bins to 2000 km, 24 x 18 local-time x latitude bins.
+    pub fn for_body(body: &Body) -> RunConfig {
+        RunConfig {
+            dt: 300.0,
+            seed: 1,
+            target_in_flight: 100_000,
+            chunk_size: 4096,
+            threads: 1,
+            boundary_radius: 20.0 * body.radius,
+            escape_when_unbound: true,
+            radiation_pressure: false,
+            integrator_tolerance: 1e-9,
+            alt_edges: (0..=20).map(|k| k as f64 * 1.0e5).collect(),
+            n_local_time: 24,
+            n_latitude: 18,
+        }
+    }
+}
+
+/// Per-cell maps accumulated over the current averaging window, atoms.
+#[derive(Clone, Debug, Default, PartialEq, Serialize)]
+pub struct SurfaceMaps {
+    /// Atoms released from each cell.
+    pub released: Vec<f64>,
+    /// Atoms that stuck in each cell.
+    pub stuck: Vec<f64>,
+    /// Atoms lost in flight above each cell.
+    pub lost_above: Vec<f64>,
+}
+
+/// Instances one worker needs for flight: the surface interaction and the losses.
+pub(crate) struct WorkerSet {
+    pub surface: Box<dyn ProcessCalls>,
+    pub losses: Vec<Box<dyn ProcessCalls>>,
+}
+
+/// A running simulation.
+pub struct Simulation {
+    model: Model,
+    processes: Processes,
+    config: RunConfig,
+    bank: ParticleBank,
+    time: f64,
+    step: u64,
+    next_id: u64,
+    ledger: Ledger,
+    tally: DensityTally,
+    maps: SurfaceMaps,
+    sunlit_content: Vec<f64>,
+    sources: Vec<Box<dyn ProcessCalls>>,
+    reservoir: Vec<Box<dyn ProcessCalls>>,
+    workers: Mutex<Vec<WorkerSet>>,
+    pool: rayon::ThreadPool,
+    new_per_step: Vec<f64>,
+    removal_fraction: f64,
+    cells: Vec<CellState>,
+}
+
+impl Simulation {
+    /// A simulation at time 0 with no particles in flight.
+    pub fn new(
+        model: Model,
+        processes: Processes,
+        config: RunConfig,
+    ) -> Result<Simulation, EngineError> {
+        check(&model, &processes, &config)?;
+        let tally = DensityTally::new(
+            config.alt_edges.clone(),
+            config.n_local_time,
+            config.n_latitude,
+            model.body.radius,
+        )
+        .ok_or_else(|| {
+            EngineError::Config(
+                "alt_edges must increase from >= 0 m; bin counts must be > 0".into(),
+            )
+        })?;
+        let pool =
+            rayon::ThreadPoolBuilder::new().num_threads(config.threads.max(1)).build().map_err(
+                |e| EngineError::Config(format!("cannot start {} threads: {e}", config.threads)),
+            )?;
+        let sources =
+            processes.sources.iter().map(|m| m.instantiate()).collect::<Result<Vec<_>, _>>()?;
+        let reservoir =
+            processes.reservoir.iter().map(|m| m.instantiate()).collect::<Result<Vec<_>, _>>()?;
+        let n_cells = model.grid.len();
+        let ledger = Ledger {
+            loss_labels: processes.losses.iter().map(|m| m.ledger_label().to_string()).collect(),
+            removal_labels: processes
+                .reservoir
+                .iter()
+                .map(|m| m.ledger_label().to_string())
+                .collect(),
+            initial_stock: model.reservoir.total(),
+            rows: Vec::new(),
+        };
+        let n_sources = processes.sources.len().max(1) as f64;
+        let new_per_step = vec![
+            (config.target_in_flight as f64 / (20.0 * n_sources)).max(1.0);
+            processes.sources.len()
+        ];
+        Ok(Simulation {
+            maps: SurfaceMaps {
+                released: vec![0.0; n_cells],
+                stuck: vec![0.0; n_cells],
+                lost_above: vec![0.0; n_cells],
+            },
+            cells: vec![CellState::default(); n_cells],
+            model,
+            processes,
+            config,
+            bank: ParticleBank::new(),
+            time: 0.0,
+            step: 0,
+            next_id: 0,
+            ledger,
+            tally,
+            sunlit_content: Vec::new(),
+            sources,
+            reservoir,
+            workers: Mutex::new(Vec::new()),
+            pool,
+            new_per_step,
+            removal_fraction: 0.0,
+        })
+    }
+
+    /// Simulated time, s.
+    pub fn time(&self) -> f64 {
+        self.time
+    }
+
+    /// Steps done.
+    pub fn steps(&self) -> u64 {
+        self.step
+    }
+
+    /// The mass ledger so far.
+    pub fn ledger(&self) -> &Ledger {
+        &self.ledger
+    }
+
+    /// The density and column tally of the current averaging window.
+    pub fn tally(&self) -> &DensityTally {
+        &self.tally
+    }
+
+    /// Per-cell maps of the current averaging window.
+    pub fn maps(&self) -> &SurfaceMaps {
+        &self.maps
+    }
+
+    /// The particles in flight.
+    pub fn particles(&self) -> &ParticleBank {
+        &self.bank
+    }
+
+    /// The physical setting, including the current reservoir.
+    pub fn model(&self) -> &Model {
+        &self.model
+    }
+
+    /// Atoms in flight and in sunlight at the end of each step, atoms.
+    pub fn sunlit_content(&self) -> &[f64] {
+        &self.sunlit_content
+    }
+
+    /// Start a new averaging window for the tallies and maps.
+    pub fn reset_tallies(&mut self) {
+        self.tally.reset();
+        for m in [&mut self.maps.released, &mut self.maps.stuck, &mut self.maps.lost_above] {
+            m.iter_mut().for_each(|x| *x = 0.0);
+        }
+    }
+
+    /// Run `n` steps.
+    pub fn run(&mut self, n: u64) -> Result<(), EngineError> {
+        for _ in 0..n {
+            self.step()?;
+        }
+        Ok(())
+    }
+
+    /// Advance one step of `dt`.
+    pub fn step(&mut self) -> Result<&LedgerRow, EngineError> {
+        let dt = self.config.dt;
+        let t_mid = self.time + 0.5 * dt;
+        let stock_before = self.bank.total_weight() + self.model.reservoir.total();
+        let present = self.bank.len();
+        let mut row = LedgerRow {
+            step: self.step,
+            time: self.time + dt,
+            losses: vec![0.0; self.processes.losses.len()],
+            removed: vec![0.0; self.processes.reservoir.len()],
+            ..Default::default()
+        };
+        // 1-2. Environment and surface state at mid-step.
+        self.fill_cells(t_mid);
+        // 3. Reservoir processes.
+        self.exchange(&mut row)?;
+        self.bank.set_remaining(dt);
+        // 4. Sources: release and launch.
+        self.release(&mut row)?;
+        // 5-6. Flight with losses, and landing.
+        self.fly(&mut row)?;
+        self.time += dt;
+        self.step += 1;
+        // 7. Tallies and the ledger row.
+        self.tally_snapshot();
+        row.in_flight = self.bank.total_weight();
+        row.adsorbed = self.model.reservoir.total();
+        row.particles = self.bank.len() as u64;
+        row.close(stock_before);
+        self.adapt_budget(present, row.launched);
+        self.ledger.rows.push(row);
+        Ok(self.ledger.rows.last().expect("just pushed"))
+    }
+
+    /// Heliocentric distance at time `t`, AU.
+    fn helio_distance(&self, t: f64) -> f64 {
+        self.model.body.orbit.distance_au(t)
+    }
+
+    /// Fill `self.cells` with the surface state at time `t`.
+    fn fill_cells(&mut self, t: f64) {
+        let r_au = self.helio_distance(t);
+        let (grid, body, sun) = (&self.model.grid, &self.model.body, &self.model.sun);
+        for (c, cell) in self.cells.iter_mut().enumerate() {
+            let (lat, lon) = grid.centre(c);
+            let cos_sza = sun.cos_sza(body, lat, lon, t);
+            *cell = CellState {
+                cell: c as u32,
+                flags: if cos_sza > 0.0 { flags::SUNLIT } else { 0 },
+                latitude: lat,
+                longitude: lon,
+                local_time: sun.local_time_hours(body, lon, t),
+                cos_sza,
+                temperature: self.model.temperature.at(cos_sza, r_au),
+                adsorbed: self.model.reservoir.density_cm2(grid, c),
+                bulk_abundance: self.model.reservoir.bulk_abundance[c],
+                helio_distance: r_au,
+                solar_wind_flux: self.model.solar_wind_flux,
+                meteoroid_factor: self.model.meteoroid_factor,
+                time: t,
+            };
+        }
+    }
+
+    /// Refresh the adsorbed densities of `self.cells` after the pool changed.
+    fn refresh_adsorbed(&mut self) {
+        for (c, cell) in self.cells.iter_mut().enumerate() {
+            cell.adsorbed = self.model.reservoir.density_cm2(&self.model.grid, c);
+        }
+    }
+
+    /// Reservoir processes: supply from the bulk into the pool, or removal.
+    fn exchange(&mut self, row: &mut LedgerRow) -> Result<(), EngineError> {
+        let dt = self.config.dt;
+        let mut rates = vec![0.0; self.cells.len()];
+        for k in 0..self.reservoir.len() {
+            call(self.reservoir[k].exchange(&self.cells, &mut rates))?;
+            for (c, &rate) in rates.iter().enumerate() {
+                let atoms = rate * self.model.grid.area_cm2(c) * dt;
+                let pool = &mut self.model.reservoir.adsorbed[c];
+                if atoms >= 0.0 {
+                    row.supplied_from_bulk += atoms;
+                    *pool += atoms;
+                } else {
+                    let removed = (-atoms).min(*pool);
+                    *pool -= removed;
+                    row.removed[k] += removed;
+                }
+            }
+            self.refresh_adsorbed();
+        }
+        Ok(())
+    }
+
+    /// Adapt the atoms per particle so the number in flight nears the target.
+    ///
+    /// In a steady state the particles launched per step equal those
+    /// removed per step, N q, where q is the fraction of the particles in
+    /// flight during a step that leave it. So the launches per step aim at
+    /// target x q, with q smoothed over about ten steps so that the weights
+    /// change slowly (particles of very different weights make noisy
+    /// tallies), times a mild correction (target / N)^(1/2), kept within
+    /// [0.7, 1.4], that steers the count itself. Before anything has left
+    /// flight, the launches grow by 25% per step.
+    fn adapt_budget(&mut self, present: usize, launched: u64) {
+        let target = self.config.target_in_flight.max(1) as f64;
+        let now = self.bank.len();
+        let during = present as f64 + launched as f64;
+        if during > 0.0 {
+            let q = (during - now as f64).max(0.0) / during;
+            self.removal_fraction =
+                if self.removal_fraction > 0.0 { 0.9 * self.removal_fraction + 0.1 * q } else { q };
+        }
+        let current: f64 = self.new_per_step.iter().sum();
+        if current <= 0.0 {
+            return;
+        }
+        let total = if self.removal_fraction > 0.0 {
+            let steer = (target / now.max(1) as f64).sqrt().clamp(0.7, 1.4);
+            target * self.removal_fraction * steer
+        } else {
+            current * 1.25
+        };
+        let scale = total.clamp(1.0, target) / current;
+        for n in &mut self.new_per_step {
+            *n = (*n * scale).max(1.0);
+        }
+    }
+
+    /// Snapshot the particles in flight into the density and column tally.
+    fn tally_snapshot(&mut self) {
+        let t = self.time;
+        let body = &self.model.body;
+        let radius = body.radius;
+        let sun_dir = self.model.sun.sun_direction_bci(body, t);
+        let mut sunlit = 0.0;
+        for (r, &w) in self.bank.positions().iter().zip(self.bank.weights()) {
+            let (lat, lon_bci) = frames::lat_lon(*r);
+            let lon = frames::inertial_to_fixed_longitude(lon_bci, body.sidereal_rate(), t);
+            let lt = self.model.sun.local_time_hours(body, lon, t);
+            let column = self.tally.column_of(lt, lat);
+            let bin = self.tally.bin_of(crate::vec3::norm(*r) - radius, column);
+            self.tally.add(bin, column, w);
+            if crate::transport::shadow::is_sunlit(*r, sun_dir, radius) {
+                sunlit += w;
+            }
+        }
+        self.tally.end_snapshot();
+        self.sunlit_content.push(sunlit);
+    }
+}
+
+fn check(model: &Model, p: &Processes, c: &RunConfig) -> Result<(), EngineError> {
+    let bad = |m: String| Err(EngineError::Config(m));
+    if !(c.dt > 0.0 && c.dt.is_finite()) {
+        return bad(format!("dt = {} s must be positive", c.dt));
+    }
+    if !(c.boundary_radius > model.body.radius) {
+        return bad(format!(
+            "boundary_radius = {} m must exceed the body radius {} m",
+            c.boundary_radius, model.body.radius
+        ));
+    }
+    if c.chunk_size == 0 {
+        return bad("chunk_size must be at least 1".into());
+    }
+    if model.reservoir.adsorbed.len() != model.grid.len()
+        || model.reservoir.bulk_abundance.len() != model.grid.len()
+    {
+        return bad("the reservoir maps must have one value per grid cell".into());
+    }
+    let role = |m: &ModuleHandle, r: Role, what: &str| {
+        if m.has_role(r) {
+            Ok(())
+        } else {
+            Err(EngineError::Config(format!(
+                "module `{}` is used as a {what} but does not declare the role `{}`",
+                m.name(),
+                r.as_str()
+            )))
+        }
+    };
+    for m in &p.sources {
+        role(m, Role::Source, "source")?;
+    }
+    for m in &p.losses {
+        role(m, Role::Loss, "loss")?;
+    }
+    role(&p.surface, Role::SurfaceInteraction, "surface interaction")?;
+    for m in &p.reservoir {
+        role(m, Role::ReservoirProcess, "reservoir process")?;
+    }
+    if p.sources.len() > u16::MAX as usize {
+        return bad("too many sources".into());
+    }
+    Ok(())
+}

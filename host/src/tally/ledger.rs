@@ -1,0 +1,111 @@
+//! The mass ledger: every atom supplied, moved and lost, step by step.
+//!
+//! Why this exists: a Monte Carlo exosphere that silently loses or creates
+//! atoms is worthless. Each step books
+//!
+//!   supplied from the bulk = change in (in flight + adsorbed)
+//!                            + each loss in flight (photoionized, ...)
+//!                            + escaped + buried + each removal from the pool,
+//!
+//! and the closure error, which the tests hold to round-off.
+
+use serde::Serialize;
+
+/// One step of the ledger. Flows are atoms during the step; stocks are
+/// atoms at its end.
+#[derive(Clone, Debug, Default, PartialEq, Serialize)]
+pub struct LedgerRow {
+    /// Step number, from 0.
+    pub step: u64,
+    /// Simulated time at the end of the step, s.
+    pub time: f64,
+    /// Atoms supplied from the bulk (bulk sources and reservoir supply), atoms.
+    pub supplied_from_bulk: f64,
+    /// Atoms released into flight by all sources, atoms.
+    pub released: f64,
+    /// Super-particles launched by all sources, dimensionless.
+    pub launched: u64,
+    /// Of `released`, atoms taken from the adsorbed pool, atoms.
+    pub released_from_adsorbed: f64,
+    /// Atoms that reached the surface, atoms.
+    pub landed: f64,
+    /// Atoms that stuck to the surface, atoms.
+    pub stuck: f64,
+    /// Atoms re-emitted at landing, atoms.
+    pub bounced: f64,
+    /// Atoms that left through the outer boundary, atoms.
+    pub escaped: f64,
+    /// Atoms lost at the surface (buried, cold-trapped), atoms.
+    pub buried: f64,
+    /// Atoms removed in flight, one entry per loss module, atoms.
+    pub losses: Vec<f64>,
+    /// Atoms removed from the adsorbed pool, one entry per reservoir module, atoms.
+    pub removed: Vec<f64>,
+    /// Atoms in flight at the end of the step, atoms.
+    pub in_flight: f64,
+    /// Atoms adsorbed on the surface at the end of the step, atoms.
+    pub adsorbed: f64,
+    /// Particles in flight at the end of the step, dimensionless.
+    pub particles: u64,
+    /// Closure error of this step relative to the atoms involved, dimensionless.
+    pub closure_error: f64,
+}
+
+/// The ledger of a run.
+#[derive(Clone, Debug, Default, PartialEq, Serialize)]
+pub struct Ledger {
+    /// Names of the loss columns (ledger labels of the loss modules).
+    pub loss_labels: Vec<String>,
+    /// Names of the reservoir-removal columns.
+    pub removal_labels: Vec<String>,
+    /// Atoms in flight plus adsorbed at the start, atoms.
+    pub initial_stock: f64,
+    /// One row per step.
+    pub rows: Vec<LedgerRow>,
+}
+
+impl LedgerRow {
+    /// Atoms that left the system during the step, atoms.
+    pub fn outflow(&self) -> f64 {
+        self.escaped
+            + self.buried
+            + self.losses.iter().sum::<f64>()
+            + self.removed.iter().sum::<f64>()
+    }
+
+    /// Set `closure_error` from the stocks before the step, atoms.
+    pub fn close(&mut self, stock_before: f64) {
+        let stock_after = self.in_flight + self.adsorbed;
+        let imbalance = self.supplied_from_bulk - (stock_after - stock_before) - self.outflow();
+        let scale = self
+            .supplied_from_bulk
+            .abs()
+            .max(stock_before.abs())
+            .max(stock_after.abs())
+            .max(f64::MIN_POSITIVE);
+        self.closure_error = imbalance / scale;
+    }
+}
+
+impl Ledger {
+    /// Total of a flow over all rows.
+    pub fn total(&self, flow: impl Fn(&LedgerRow) -> f64) -> f64 {
+        self.rows.iter().map(flow).sum()
+    }
+
+    /// Closure of the whole run relative to the atoms involved, dimensionless.
+    pub fn cumulative_closure(&self) -> f64 {
+        let Some(last) = self.rows.last() else { return 0.0 };
+        let supplied = self.total(|r| r.supplied_from_bulk);
+        let out = self.total(LedgerRow::outflow);
+        let stock = last.in_flight + last.adsorbed;
+        let imbalance = supplied - (stock - self.initial_stock) - out;
+        imbalance
+            / supplied.abs().max(self.initial_stock.abs()).max(stock.abs()).max(f64::MIN_POSITIVE)
+    }
+
+    /// Largest |closure error| of any step.
+    pub fn worst_step_closure(&self) -> f64 {
+        self.rows.iter().map(|r| r.closure_error.abs()).fold(0.0, f64::max)
+    }
+}

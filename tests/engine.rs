@@ -1,0 +1,423 @@
+//! The engine against closed forms from the literature: Jeans escape, the
+//! Chamberlain exosphere, photoionization balance; and its own promises:
+//! the mass ledger closes, and threads do not change results.
+
+use std::collections::BTreeMap;
+use std::sync::Arc;
+
+use exobound::body::Body;
+use exobound::engine::{Model, Processes, RunConfig, Simulation};
+use exobound::environment::SunGeometry;
+use exobound::runtime::backend::ModuleHandle;
+use exobound::runtime::{Runtime, RuntimeConfig};
+use exobound::species::Species;
+use exobound::surface::{Grid, Reservoir, TemperatureLaw};
+use exobound_sdk::ParamValue;
+use exobound_sdk::math;
+
+use crate::support::*;
+
+fn runtime() -> Arc<Runtime> {
+    Arc::new(Runtime::new(RuntimeConfig { cache_dir: None, ..RuntimeConfig::default() }).unwrap())
+}
+
+fn module(rt: &Arc<Runtime>, name: &str, p: &[(&str, ParamValue)]) -> ModuleHandle {
+    let m = rt.load(&exobound::standard_module(name)).unwrap_or_else(|e| panic!("{name}: {e}"));
+    ModuleHandle::wasm(rt.clone(), m, params(p)).unwrap_or_else(|e| panic!("{name}: {e}"))
+}
+
+fn num(x: f64) -> ParamValue {
+    ParamValue::Number(x)
+}
+
+/// The Moon without rotation or orbital motion: the closed forms assume a
+/// non-rotating body under a fixed Sun.
+fn still_moon() -> Body {
+    let mut b = Body::moon();
+    b.sidereal_rotation = f64::INFINITY;
+    b.solar_day = f64::INFINITY;
+    b
+}
+
+fn model(body: Body, temperature: TemperatureLaw, adsorbed_cm2: f64) -> Model {
+    let grid = Grid::new(18, 36, body.radius).unwrap();
+    let reservoir = Reservoir::uniform(&grid, adsorbed_cm2);
+    Model {
+        body,
+        species: Species::sodium(),
+        grid,
+        temperature,
+        sun: SunGeometry { subsolar_latitude: 0.0, subsolar_longitude_at_start: 0.0 },
+        reservoir,
+        solar_wind_flux: 0.0,
+        meteoroid_factor: 1.0,
+    }
+}
+
+fn perfect_sticking(rt: &Arc<Runtime>) -> ModuleHandle {
+    module(
+        rt,
+        "surface-accommodation",
+        &[("sticking_model", text("constant")), ("sticking", num(1.0))],
+    )
+}
+
+fn full_reemission(rt: &Arc<Runtime>, t: f64) -> ModuleHandle {
+    module(
+        rt,
+        "surface-accommodation",
+        &[
+            ("sticking_model", text("constant")),
+            ("sticking", num(0.0)),
+            ("accommodation", num(1.0)),
+            ("reemit_temperature", num(t)),
+        ],
+    )
+}
+
+/// Jeans flux fraction above escape speed, (1 + lambda) exp(-lambda)
+/// (Jeans' escape law; Chamberlain & Hunten 1987; check-values §3).
+fn jeans_flux_fraction(lambda: f64) -> f64 {
+    (1.0 + lambda) * math::exp(-lambda)
+}
+
+fn jeans_case(t: f64, expected_table: f64) {
+    let rt = runtime();
+    let body = still_moon();
+    let lambda = body.jeans_parameter(Species::sodium().mass, t, body.radius);
+    // check-values §3: the closed form reproduces the tabulated flux fraction.
+    assert!((jeans_flux_fraction(lambda) / expected_table - 1.0).abs() < 1e-6);
+    let mut config = RunConfig::for_body(&body);
+    config.dt = 3000.0;
+    config.target_in_flight = 40_000;
+    config.boundary_radius = 1.0e4 * body.radius;
+    config.threads = 2;
+    // A thermal source at a fixed temperature: impact vapour with a uniform
+    // pattern, launching a Maxwellian flux at `t`; every returning atom sticks.
+    let processes = Processes {
+        sources: vec![module(&rt, "impact-vapor", &[("vapor_temperature", num(t))])],
+        losses: vec![],
+        surface: perfect_sticking(&rt),
+        reservoir: vec![],
+    };
+    let mut sim =
+        Simulation::new(model(body, TemperatureLaw::uniform(300.0), 0.0), processes, config)
+            .unwrap();
+    sim.run(16).unwrap();
+    let ledger = sim.ledger();
+    let released = ledger.total(|r| r.released);
+    let escaped = ledger.total(|r| r.escaped);
+    let p = jeans_flux_fraction(lambda);
+    let got = escaped / released;
+    // Binomial standard error of a weighted fraction, with the effective
+    // number of draws (sum w)^2 / sum w^2 (Kish's effective sample size);
+    // all particles of one step share the weight released / launched.
+    let sum_w2: f64 = ledger
+        .rows
+        .iter()
+        .filter(|r| r.launched > 0)
+        .map(|r| r.released * r.released / r.launched as f64)
+        .sum();
+    let n_eff = released * released / sum_w2;
+    let sigma = (p * (1.0 - p) / n_eff).sqrt();
+    assert!(n_eff > 1.0e5, "too few effective launches: {n_eff}");
+    assert!(
+        (got - p).abs() < 3.0 * sigma,
+        "T = {t} K: escaped fraction {got}, Jeans {p}, sigma {sigma}"
+    );
+    assert!(ledger.worst_step_closure() < 1e-12);
+}
+
+#[test]
+fn jeans_escape_na_moon_1200k() {
+    // check-values §3: Na, Moon, 1200 K, flux fraction 1.125384e-2 (C).
+    jeans_case(1200.0, 1.125384e-2);
+}
+
+#[test]
+fn jeans_escape_na_moon_3000k() {
+    // check-values §3: Na, Moon, 3000 K, flux fraction 2.672113e-1 (C).
+    jeans_case(3000.0, 2.672113e-1);
+}
+
+/// P(3/2, x), the regularized lower incomplete gamma function, from
+/// erf: P(3/2, x) = erf(sqrt x) - 2 sqrt(x/pi) exp(-x) (Abramowitz & Stegun 6.5.16-17).
+fn p32(x: f64) -> f64 {
+    if x <= 0.0 {
+        return 0.0;
+    }
+    (1.0 - math::erfc(x.sqrt())) - 2.0 * (x / std::f64::consts::PI).sqrt() * (-x).exp()
+}
+
+/// n(r)/n(R) of a ballistic + escaping Chamberlain exosphere with the
+/// exobase at the surface (Chamberlain 1963; check-values §4).
+fn chamberlain(lambda_c: f64, r_over_rc: f64) -> f64 {
+    let lambda = lambda_c / r_over_rc;
+    let psi = lambda * lambda / (lambda + lambda_c);
+    let f = (lambda_c * lambda_c - lambda * lambda).sqrt() / lambda_c * (-psi).exp();
+    let bal = p32(lambda) - f * p32(lambda - psi);
+    let esc = 0.5 * (1.0 - p32(lambda) - f * (1.0 - p32(lambda - psi)));
+    let zeta_c = p32(lambda_c) + 0.5 * (1.0 - p32(lambda_c));
+    (-(lambda_c - lambda)).exp() * (bal + esc) / zeta_c
+}
+
+#[test]
+fn chamberlain_closed_form_matches_the_table() {
+    // check-values §4, Na Moon 1200 K (lambda_c 6.502248): 100 km 0.690347,
+    // 500 km 0.217101, 1000 km 0.0779993, 2000 km 0.0200217 (M, verified C).
+    let r = 1737.4;
+    for (h, want) in
+        [(100.0, 0.690347), (500.0, 0.217101), (1000.0, 0.0779993), (2000.0, 0.0200217)]
+    {
+        let got = chamberlain(6.502248, (r + h) / r);
+        assert!((got / want - 1.0).abs() < 1e-5, "{h} km: {got} vs {want}");
+    }
+}
+
+#[test]
+fn density_profile_follows_chamberlain() {
+    let rt = runtime();
+    let body = still_moon();
+    let t = 1200.0;
+    let r_km = body.radius / 1e3;
+    let lambda_c = body.jeans_parameter(Species::sodium().mass, t, body.radius);
+    let mut config = RunConfig::for_body(&body);
+    config.dt = 600.0;
+    config.target_in_flight = 30_000;
+    config.threads = 2;
+    // Escaping atoms are part of the Chamberlain density (zeta_esc), so they
+    // fly out to a distant boundary instead of being removed at launch.
+    config.escape_when_unbound = false;
+    config.boundary_radius = 50.0 * body.radius;
+    let km = 1.0e3;
+    config.alt_edges = [0.0, 10.0, 95.0, 105.0, 495.0, 505.0, 995.0, 1005.0, 1995.0, 2005.0]
+        .iter()
+        .map(|h| h * km)
+        .collect();
+    config.n_local_time = 1;
+    config.n_latitude = 1;
+    let processes = Processes {
+        sources: vec![module(&rt, "impact-vapor", &[("vapor_temperature", num(t))])],
+        losses: vec![],
+        surface: full_reemission(&rt, t),
+        reservoir: vec![],
+    };
+    let mut sim =
+        Simulation::new(model(body, TemperatureLaw::uniform(t), 0.0), processes, config).unwrap();
+    // Spin up: several residence times (about 90 hops of ~1200 s each).
+    sim.run(900).unwrap();
+    // Ten batches of snapshots, for a batch-means error estimate.
+    let bins = [(2usize, 100.0), (4, 500.0), (6, 1000.0), (8, 2000.0)];
+    let mut ratios = vec![Vec::new(); bins.len()];
+    for _ in 0..10 {
+        sim.reset_tallies();
+        sim.run(60).unwrap();
+        let n = sim.tally().density_cm3();
+        for (k, (b, _)) in bins.iter().enumerate() {
+            ratios[k].push(n[*b] / n[0]);
+        }
+    }
+    // Expected: the closed form averaged over each 10 km bin (Simpson's rule),
+    // relative to its average over the lowest bin [0, 10 km].
+    let bin_mean = |lo: f64, hi: f64| {
+        let m = 40;
+        let h = (hi - lo) / m as f64;
+        let f = |x: f64| chamberlain(lambda_c, (r_km + x) / r_km) * (r_km + x).powi(2);
+        let s: f64 = (0..=m)
+            .map(|i| {
+                let w = if i == 0 || i == m {
+                    1.0
+                } else if i % 2 == 1 {
+                    4.0
+                } else {
+                    2.0
+                };
+                w * f(lo + i as f64 * h)
+            })
+            .sum();
+        let vol: f64 = ((r_km + hi).powi(3) - (r_km + lo).powi(3)) / 3.0;
+        s * h / 3.0 / vol
+    };
+    let n0 = bin_mean(0.0, 10.0);
+    for (k, (_, h)) in bins.iter().enumerate() {
+        let want = bin_mean(h - 5.0, h + 5.0) / n0;
+        let xs = &ratios[k];
+        let mean = xs.iter().sum::<f64>() / xs.len() as f64;
+        let var = xs.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (xs.len() - 1) as f64;
+        let sigma = (var / xs.len() as f64).sqrt();
+        // Chamberlain (1963): within 3 sigma and at most 3% (check-values §4).
+        assert!(
+            (mean - want).abs() < 3.0 * sigma.max(1e-4 * want) && (mean / want - 1.0).abs() < 0.03,
+            "{h} km: n/n0 = {mean} +- {sigma}, Chamberlain {want}"
+        );
+    }
+    assert!(sim.ledger().worst_step_closure() < 1e-12);
+}
+
+#[test]
+fn photoionization_balances_the_source_in_steady_state() {
+    // With photoionization (rate beta in sunlight) the only loss besides a
+    // negligible escape, the content obeys dN/dt = S - beta N_sun - E, so in
+    // steady state the sunlit content is N_sun = (S - E) / beta: the source
+    // rate times the mean photoionization lifetime 1/beta (derived here from
+    // the balance; beta = beta_1AU / r^2 with r = 1 AU).
+    let rt = runtime();
+    let body = still_moon();
+    let t = 600.0;
+    let beta = 1.0e-4;
+    let mut config = RunConfig::for_body(&body);
+    config.dt = 300.0;
+    config.target_in_flight = 30_000;
+    config.threads = 2;
+    let processes = Processes {
+        sources: vec![module(&rt, "impact-vapor", &[("vapor_temperature", num(t))])],
+        losses: vec![module(&rt, "photoionization", &[("rate_1au", num(beta))])],
+        surface: full_reemission(&rt, t),
+        reservoir: vec![],
+    };
+    let mut sim =
+        Simulation::new(model(body, TemperatureLaw::uniform(t), 0.0), processes, config).unwrap();
+    sim.run(500).unwrap();
+    let window: usize = 150;
+    sim.run(window as u64).unwrap();
+    let rows = &sim.ledger().rows[sim.ledger().rows.len() - window..];
+    let dt = 300.0;
+    let source = rows.iter().map(|r| r.released).sum::<f64>() / (window as f64 * dt);
+    let escape = rows.iter().map(|r| r.escaped).sum::<f64>() / (window as f64 * dt);
+    let lit = sim.sunlit_content();
+    for r in sim.ledger().rows.iter().step_by(25) {
+        eprintln!(
+            "step {} released {:e} launched {} in_flight {:e} particles {} loss {:e} sunlit {:e}",
+            r.step,
+            r.released,
+            r.launched,
+            r.in_flight,
+            r.particles,
+            r.losses[0],
+            lit[r.step as usize]
+        );
+    }
+    let n_sun = lit[lit.len() - window..].iter().sum::<f64>() / window as f64;
+    let want = (source - escape) / beta;
+    let ionized = rows.iter().map(|r| r.losses[0]).sum::<f64>() / (window as f64 * dt);
+    let n_first = rows[0].in_flight;
+    let n_last = rows[window - 1].in_flight;
+    eprintln!(
+        "S {source:e} E {escape:e} L {ionized:e} N_sun {n_sun:e} want {want:e} L/(beta Nsun) {} N {n_first:e} -> {n_last:e}",
+        ionized / (beta * n_sun)
+    );
+    assert!((n_sun / want - 1.0).abs() < 0.03, "N_sun {n_sun:e} vs (S - E)/beta {want:e}");
+    // The loss booked per step equals beta times the sunlit content (same balance, per step).
+    assert!(
+        (ionized / (beta * n_sun) - 1.0).abs() < 0.03,
+        "loss {ionized:e} vs beta N_sun {:e}",
+        beta * n_sun
+    );
+    assert!(sim.ledger().worst_step_closure() < 1e-12);
+}
+
+/// A Moon run with every role active: two sources (adsorbed pool and bulk),
+/// a loss, partial sticking, and a reservoir process.
+fn full_run(threads: usize, steps: u64) -> Simulation {
+    let rt = runtime();
+    let body = Body::moon();
+    let mut config = RunConfig::for_body(&body);
+    config.dt = 600.0;
+    config.target_in_flight = 20_000;
+    config.threads = threads;
+    config.chunk_size = 512;
+    config.seed = 20_261_201;
+    let processes = Processes {
+        sources: vec![
+            module(&rt, "thermal-desorption", &[("binding_energy", num(1.1))]),
+            module(&rt, "impact-vapor", &[("vapor_temperature", num(3000.0))]),
+        ],
+        losses: vec![module(&rt, "photoionization", &[])],
+        surface: module(
+            &rt,
+            "surface-accommodation",
+            &[("sticking", num(0.4)), ("accommodation", num(0.6))],
+        ),
+        reservoir: vec![module(&rt, "regolith-diffusion", &[])],
+    };
+    let temperature = TemperatureLaw { night: 100.0, subsolar: 390.0, reference_distance: 1.0 };
+    let mut sim = Simulation::new(model(body, temperature, 1.0e9), processes, config).unwrap();
+    sim.run(steps).unwrap();
+    sim
+}
+
+#[test]
+fn ledger_closes_every_step_with_every_role_active() {
+    let sim = full_run(2, 60);
+    let ledger = sim.ledger();
+    for row in &ledger.rows {
+        // The mass ledger closes to round-off (project standard: <= 1e-12 relative).
+        assert!(
+            row.closure_error.abs() <= 1e-12,
+            "step {}: closure {}",
+            row.step,
+            row.closure_error
+        );
+    }
+    assert!(ledger.cumulative_closure().abs() <= 1e-12);
+    // Every flow was exercised.
+    let last = ledger.rows.last().unwrap();
+    for (what, v) in [
+        ("released", ledger.total(|r| r.released)),
+        ("from bulk", ledger.total(|r| r.supplied_from_bulk)),
+        ("from pool", ledger.total(|r| r.released_from_adsorbed)),
+        ("stuck", ledger.total(|r| r.stuck)),
+        ("bounced", ledger.total(|r| r.bounced)),
+        ("escaped", ledger.total(|r| r.escaped)),
+        ("photoionized", ledger.total(|r| r.losses[0])),
+        ("in flight", last.in_flight),
+    ] {
+        assert!(v > 0.0, "{what} is {v}");
+    }
+    assert_eq!(ledger.loss_labels, vec!["photoionized".to_string()]);
+}
+
+#[test]
+fn threads_give_bit_identical_results() {
+    let a = full_run(1, 25);
+    let b = full_run(2, 25);
+    assert_eq!(a.ledger(), b.ledger());
+    let bits = |v: Vec<f64>| v.into_iter().map(f64::to_bits).collect::<Vec<_>>();
+    assert_eq!(bits(a.tally().density_cm3()), bits(b.tally().density_cm3()));
+    assert_eq!(
+        bits(a.model().reservoir.adsorbed.clone()),
+        bits(b.model().reservoir.adsorbed.clone())
+    );
+    assert_eq!(a.particles(), b.particles());
+    assert!(a.particles().len() > 1000);
+}
+
+#[test]
+fn bad_configuration_is_refused_with_the_setting_named() {
+    let rt = runtime();
+    let body = Body::moon();
+    let mut config = RunConfig::for_body(&body);
+    config.dt = -1.0;
+    let processes = Processes {
+        sources: vec![module(&rt, "thermal-desorption", &[])],
+        losses: vec![],
+        surface: perfect_sticking(&rt),
+        reservoir: vec![],
+    };
+    let temperature = TemperatureLaw::uniform(300.0);
+    let e = Simulation::new(model(body.clone(), temperature, 1e9), processes.clone(), config)
+        .err()
+        .unwrap();
+    assert!(e.to_string().contains("dt"), "{e}");
+    // A module in the wrong role.
+    let wrong = Processes { losses: vec![perfect_sticking(&rt)], ..processes };
+    let e =
+        Simulation::new(model(body.clone(), temperature, 1e9), wrong, RunConfig::for_body(&body))
+            .err()
+            .unwrap();
+    assert!(
+        e.to_string().contains("surface-accommodation") && e.to_string().contains("loss"),
+        "{e}"
+    );
+    let _ = BTreeMap::<String, ParamValue>::new();
+}
