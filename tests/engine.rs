@@ -251,7 +251,8 @@ fn density_profile_follows_chamberlain() {
             "{h} km: n/n0 = {mean} +- {sigma}, Chamberlain {want}"
         );
     }
-    assert!(sim.ledger().worst_step_closure() < 1e-12);
+    let worst = sim.ledger().worst_step_closure();
+    assert!(worst < 1e-12, "worst step closure {worst:e}");
 }
 
 #[test]

@@ -128,9 +128,9 @@ impl ParticleBank {
         self.remaining.iter_mut().for_each(|r| *r = dt);
     }
 
-    /// Total atoms in flight, atoms (summed in bank order).
+    /// Total atoms in flight, atoms (compensated sum in bank order).
     pub fn total_weight(&self) -> f64 {
-        self.weight.iter().sum()
+        crate::tally::ledger::compensated_sum(&self.weight)
     }
 
     /// Views of consecutive chunks of `size` particles (the last may be shorter).

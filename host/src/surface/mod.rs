@@ -33,7 +33,7 @@ impl Reservoir {
 
     /// Total adsorbed atoms on the body, atoms.
     pub fn total(&self) -> f64 {
-        self.adsorbed.iter().sum()
+        crate::tally::ledger::compensated_sum(&self.adsorbed)
     }
 
     /// Adsorbed surface density of `cell`, atoms cm^-2.

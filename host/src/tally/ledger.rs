@@ -109,3 +109,33 @@ impl Ledger {
         self.rows.iter().map(|r| r.closure_error.abs()).fold(0.0, f64::max)
     }
 }
+
+/// Sum of `xs` by Neumaier's compensated summation (Neumaier 1974), so that
+/// stocks of many particles of very different weights sum to within a few
+/// ulp: the ledger's closure is judged at 1e-12 relative.
+pub fn compensated_sum<'a>(xs: impl IntoIterator<Item = &'a f64>) -> f64 {
+    let (mut sum, mut carry) = (0.0f64, 0.0f64);
+    for &x in xs {
+        let t = sum + x;
+        if sum.abs() >= x.abs() {
+            carry += (sum - t) + x;
+        } else {
+            carry += (x - t) + sum;
+        }
+        sum = t;
+    }
+    sum + carry
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn compensated_sum_is_exact_where_plain_sum_is_not() {
+        // 1 + 1e100 + 1 - 1e100 = 2 (Neumaier's example).
+        let xs = [1.0, 1e100, 1.0, -1e100];
+        assert_eq!(compensated_sum(&xs), 2.0);
+        assert_ne!(xs.iter().sum::<f64>(), 2.0);
+    }
+}
