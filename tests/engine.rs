@@ -376,6 +376,12 @@ fn ledger_closes_every_step_with_every_role_active() {
         assert!(v > 0.0, "{what} is {v}");
     }
     assert_eq!(ledger.loss_labels, vec!["photoionized".to_string()]);
+    // The reservoir by local time holds the same atoms as the map by cell:
+    // one bin over 24 h times the sphere's area 4 pi R^2 is the total.
+    let r_cm = sim.model().body.radius * 100.0;
+    let whole = sim.adsorbed_by_local_time(1)[0] * 4.0 * std::f64::consts::PI * r_cm * r_cm;
+    assert!((whole / sim.model().reservoir.total() - 1.0).abs() < 1e-12);
+    assert_eq!(sim.adsorbed_by_local_time(24).len(), 24);
 }
 
 #[test]

@@ -6,7 +6,13 @@ use exobound::runtime::reference::run_reference_points;
 
 use crate::support::*;
 
-const STANDARD: [&str; 3] = ["photoionization", "surface-accommodation", "thermal-desorption"];
+const STANDARD: [&str; 5] = [
+    "impact-vapor",
+    "photoionization",
+    "regolith-diffusion",
+    "surface-accommodation",
+    "thermal-desorption",
+];
 
 #[test]
 fn inspect_json_has_the_promised_fields() {

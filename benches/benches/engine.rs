@@ -1,8 +1,8 @@
 //! Engine benches: closed-form hops, and one full step with wasm modules
 //! against the same modules linked natively, at 1 and 2 threads.
 //!
-//! `engine/hop/native`: Kepler hops (orbit from state, time to the surface,
-//! landing state) per second on one core. `engine/step/{wasm,native}/T`: one
+//! `engine/hop/native`: Kepler hops (orbit from state, then the landing time
+//! and state in one solve, as the step loop does) per second on one core. `engine/step/{wasm,native}/T`: one
 //! step of a Moon scenario with about 1e5 particles in flight, T threads.
 
 use std::collections::BTreeMap;
@@ -41,9 +41,8 @@ fn hop(c: &mut Criterion) {
             let mut sum = 0.0;
             for (r, v) in &states {
                 let o = Orbit::from_state(body.gm, *r, *v);
-                if let Some(t) = o.time_to_radius(body.radius, Direction::Descending) {
-                    let (r1, _) = o.propagate(t);
-                    sum += r1[0] + t;
+                if let Some(c) = o.crossing(body.radius, Direction::Descending) {
+                    sum += c.r[0] + c.t;
                 }
             }
             sum

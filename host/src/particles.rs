@@ -21,6 +21,9 @@ pub const BYTES_PER_PARTICLE: usize = std::mem::size_of::<u64>()
     + 2 * std::mem::size_of::<Vec3>()
     + std::mem::size_of::<bool>();
 
+// The engine's budget: at most 200 bytes of state per particle in flight.
+const _: () = assert!(BYTES_PER_PARTICLE <= 200);
+
 /// The super-particles in flight, as columns.
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct ParticleBank {
@@ -226,6 +229,5 @@ mod tests {
         b.compact();
         assert_eq!(b.ids(), &[1, 2, 4, 5, 7, 8]);
         assert_eq!(b.total_weight(), 2.0 + 3.0 + 5.0 + 6.0 + 8.0 + 9.0);
-        assert!(BYTES_PER_PARTICLE <= 200);
     }
 }

@@ -301,6 +301,22 @@ impl Simulation {
         &self.model
     }
 
+    /// Mean adsorbed surface density in `n_lt` local-time bins over 24 h,
+    /// atoms cm^-2, at the current time (the reservoir in the solar-fixed frame).
+    pub fn adsorbed_by_local_time(&self, n_lt: usize) -> Vec<f64> {
+        let n_lt = n_lt.max(1);
+        let (mut atoms, mut area) = (vec![0.0; n_lt], vec![0.0; n_lt]);
+        let grid = &self.model.grid;
+        for c in 0..grid.len() {
+            let (_, lon) = grid.centre(c);
+            let lt = self.model.sun.local_time_hours(&self.model.body, lon, self.time);
+            let k = ((lt / 24.0 * n_lt as f64) as usize).min(n_lt - 1);
+            atoms[k] += self.model.reservoir.adsorbed[c];
+            area[k] += grid.area_cm2(c);
+        }
+        atoms.iter().zip(&area).map(|(a, s)| if *s > 0.0 { a / s } else { 0.0 }).collect()
+    }
+
     /// Atoms in flight and in sunlight at the end of each step, atoms.
     pub fn sunlit_content(&self) -> &[f64] {
         &self.sunlit_content

@@ -31,8 +31,8 @@ pub struct DensityTally {
 }
 
 impl DensityTally {
-    /// A tally with altitude bin edges `alt_edges` (m, increasing, from
-    /// >= 0), `n_lt` local-time bins over 24 h and `n_lat` latitude bins,
+    /// A tally with altitude bin edges `alt_edges` (m, increasing, the
+    /// first not negative), `n_lt` local-time bins over 24 h and `n_lat` latitude bins,
     /// above a sphere of radius `radius` (m). `None` if the edges are not
     /// increasing or a count is zero.
     pub fn new(
