@@ -470,19 +470,33 @@ impl Simulation {
 
     /// Snapshot the particles in flight into the density and column tally.
     fn tally_snapshot(&mut self) {
+        use rayon::prelude::*;
         let t = self.time;
         let body = &self.model.body;
         let radius = body.radius;
         let sun_dir = self.model.sun.sun_direction_bci(body, t);
+        let (tally, sun) = (&self.tally, &self.model.sun);
+        // Locate every particle in parallel (the trigonometry is the cost),
+        // then add the weights serially in bank order, so the sums do not
+        // depend on the thread count.
+        let located: Vec<(Option<usize>, usize, bool)> = self.pool.install(|| {
+            self.bank
+                .positions()
+                .par_iter()
+                .with_min_len(self.config.chunk_size)
+                .map(|r| {
+                    let (lat, lon_bci) = frames::lat_lon(*r);
+                    let lon = frames::inertial_to_fixed_longitude(lon_bci, body.sidereal_rate(), t);
+                    let column = tally.column_of(sun.local_time_hours(body, lon, t), lat);
+                    let bin = tally.bin_of(crate::vec3::norm(*r) - radius, column);
+                    (bin, column, crate::transport::shadow::is_sunlit(*r, sun_dir, radius))
+                })
+                .collect()
+        });
         let mut sunlit = 0.0;
-        for (r, &w) in self.bank.positions().iter().zip(self.bank.weights()) {
-            let (lat, lon_bci) = frames::lat_lon(*r);
-            let lon = frames::inertial_to_fixed_longitude(lon_bci, body.sidereal_rate(), t);
-            let lt = self.model.sun.local_time_hours(body, lon, t);
-            let column = self.tally.column_of(lt, lat);
-            let bin = self.tally.bin_of(crate::vec3::norm(*r) - radius, column);
+        for (&(bin, column, lit), &w) in located.iter().zip(self.bank.weights()) {
             self.tally.add(bin, column, w);
-            if crate::transport::shadow::is_sunlit(*r, sun_dir, radius) {
+            if lit {
                 sunlit += w;
             }
         }
