@@ -286,27 +286,9 @@ fn photoionization_balances_the_source_in_steady_state() {
     let source = rows.iter().map(|r| r.released).sum::<f64>() / (window as f64 * dt);
     let escape = rows.iter().map(|r| r.escaped).sum::<f64>() / (window as f64 * dt);
     let lit = sim.sunlit_content();
-    for r in sim.ledger().rows.iter().step_by(25) {
-        eprintln!(
-            "step {} released {:e} launched {} in_flight {:e} particles {} loss {:e} sunlit {:e}",
-            r.step,
-            r.released,
-            r.launched,
-            r.in_flight,
-            r.particles,
-            r.losses[0],
-            lit[r.step as usize]
-        );
-    }
     let n_sun = lit[lit.len() - window..].iter().sum::<f64>() / window as f64;
     let want = (source - escape) / beta;
     let ionized = rows.iter().map(|r| r.losses[0]).sum::<f64>() / (window as f64 * dt);
-    let n_first = rows[0].in_flight;
-    let n_last = rows[window - 1].in_flight;
-    eprintln!(
-        "S {source:e} E {escape:e} L {ionized:e} N_sun {n_sun:e} want {want:e} L/(beta Nsun) {} N {n_first:e} -> {n_last:e}",
-        ionized / (beta * n_sun)
-    );
     assert!((n_sun / want - 1.0).abs() < 0.03, "N_sun {n_sun:e} vs (S - E)/beta {want:e}");
     // The loss booked per step equals beta times the sunlit content (same balance, per step).
     assert!(
