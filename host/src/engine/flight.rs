@@ -189,7 +189,7 @@ impl StepContext<'_> {
         let mut ends: Vec<SegmentEnd> = Vec::with_capacity(n);
         let mut seg_time: Vec<f64> = Vec::with_capacity(n);
         let mut records: Vec<InFlight> = Vec::with_capacity(n);
-        let mut rates: Vec<f64> = Vec::with_capacity(n);
+        let mut rates: Vec<f64> = Vec::with_capacity(n * n_losses);
         let mut total_rate: Vec<f64> = Vec::with_capacity(n);
         let mut impacts: Vec<Impact> = Vec::new();
         let mut landed_idx: Vec<usize> = Vec::new();
@@ -301,15 +301,15 @@ impl StepContext<'_> {
             if n_losses > 0 {
                 total_rate.clear();
                 total_rate.resize(records.len(), 0.0);
-                let mut per_module: Vec<Vec<f64>> = Vec::with_capacity(n_losses);
-                for loss in set.losses.iter_mut() {
-                    rates.clear();
-                    rates.resize(records.len(), 0.0);
-                    call(loss.loss_rate(&records, &mut rates))?;
-                    for (t, r) in total_rate.iter_mut().zip(&rates) {
+                // One row of rates per loss module, in one buffer reused by every round.
+                let m_len = records.len();
+                rates.clear();
+                rates.resize(n_losses * m_len, 0.0);
+                for (loss, row) in set.losses.iter_mut().zip(rates.chunks_mut(m_len.max(1))) {
+                    call(loss.loss_rate(&records, &mut row[..m_len]))?;
+                    for (t, r) in total_rate.iter_mut().zip(row.iter()) {
                         *t += r;
                     }
-                    per_module.push(rates.clone());
                 }
                 for (k, &i) in active.iter().enumerate() {
                     let beta = total_rate[k];
@@ -329,8 +329,8 @@ impl StepContext<'_> {
                     let pick = rng.uniform() * beta;
                     let mut acc = 0.0;
                     let mut module = n_losses - 1;
-                    for (m, rates) in per_module.iter().enumerate() {
-                        acc += rates[k];
+                    for m in 0..n_losses {
+                        acc += rates[m * m_len + k];
                         if pick < acc {
                             module = m;
                             break;
