@@ -6,9 +6,10 @@ use exobound::runtime::reference::run_reference_points;
 
 use crate::support::*;
 
-const STANDARD: [&str; 5] = [
+const STANDARD: [&str; 6] = [
     "impact-vapor",
     "photoionization",
+    "photon-desorption",
     "regolith-diffusion",
     "surface-accommodation",
     "thermal-desorption",
