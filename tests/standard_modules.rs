@@ -6,8 +6,9 @@ use exobound::runtime::reference::run_reference_points;
 
 use crate::support::*;
 
-const STANDARD: [&str; 6] = [
+const STANDARD: [&str; 7] = [
     "impact-vapor",
+    "ion-sputter",
     "photoionization",
     "photon-desorption",
     "regolith-diffusion",
