@@ -6,7 +6,8 @@ use exobound::runtime::reference::run_reference_points;
 
 use crate::support::*;
 
-const STANDARD: [&str; 7] = [
+const STANDARD: [&str; 8] = [
+    "adsorbate-sputter",
     "impact-vapor",
     "ion-sputter",
     "photoionization",
