@@ -21,11 +21,16 @@
 //! into a survival probability or a weight over its time step and books the
 //! removed atoms under the ledger column `photoionized`.
 //!
+//! Solar activity. Huebner et al. tabulate separate quiet- and active-Sun
+//! rates; for Na, ionized from 241 nm down mostly by near-UV photons, the
+//! two differ modestly. `solar_activity` picks `rate_1au` (quiet Sun) or
+//! `rate_1au_active` (active Sun), whose default 7.26e-6 s^-1 for Na is
+//! recalled from the same table with low confidence (not in check-values);
+//! give both for another species or epoch.
+//!
 //! What the law leaves out, so that a user can judge it:
-//! - solar activity: Huebner et al. tabulate separate quiet- and
-//!   active-Sun rates (for Na, ionized from 241 nm down, mostly by
-//!   near-UV photons, the two differ modestly); set `rate_1au` for the
-//!   epoch modelled;
+//! - any solar activity between the two tabulated states, and the
+//!   short-term (flare) variability of the EUV flux;
 //! - Mercury's orbital eccentricity is carried by the host through
 //!   `helio_distance`, which the law reads per particle;
 //! - electron-impact ionization and charge exchange, which are separate
@@ -35,7 +40,7 @@
 
 use exobound_sdk::{
     Check, ErrorCode, InFlight, Input, Loss, Manifest, Origin, ParamKind, ParamSpec, Params,
-    Process, ProcessError, ReferencePoint, Role,
+    Process, ProcessError, ReferencePoint, Role, Value,
 };
 
 /// Heliocentric distance of Mercury at perihelion, AU (check-values §1, F: fact sheets).
@@ -48,11 +53,27 @@ const MERCURY_APHELION_AU: f64 = 0.466_70;
 /// (from memory: Huebner et al. 1992; Huebner & Mukherjee 2015).
 const NA_RATE_1AU: f64 = 5.92e-6;
 
+/// Default Na photoionization rate at 1 AU, active Sun, s^-1 (from memory,
+/// low confidence: Huebner et al. 1992; not checked against the table).
+const NA_RATE_1AU_ACTIVE: f64 = 7.26e-6;
+
+/// Which tabulated state of the Sun the rate is for.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum SolarActivity {
+    /// Quiet Sun (solar minimum).
+    Quiet,
+    /// Active Sun (solar maximum).
+    Active,
+}
+
 /// Photoionization by solar photons, scaled as r^-2 and gated by sunlight.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Photoionization {
-    /// Photoionization rate of an unshadowed atom at 1 AU, s^-1.
+    /// Photoionization rate of an unshadowed atom at 1 AU for the chosen
+    /// solar activity, s^-1.
     pub rate_1au: f64,
+    /// The solar activity the rate is for.
+    pub activity: SolarActivity,
 }
 
 impl Photoionization {
@@ -82,7 +103,7 @@ impl Process for Photoionization {
         version: "1.0.0",
         description: "Photoionization of atoms in flight by solar photons: \
                       beta = beta_1AU / r_AU^2 times the fraction of the interval spent \
-                      in sunlight.",
+                      in sunlight, with beta_1AU for a quiet or an active Sun.",
         roles: &[Role::Loss],
         authors: &["exobound developers"],
         institution: "exobound project",
@@ -93,14 +114,39 @@ impl Process for Photoionization {
         draws_on: None,
         ledger_label: "photoionized",
         inputs: &[Input::HelioDistance, Input::Sunlight],
-        parameters: &[ParamSpec {
-            name: "rate_1au",
-            unit: "s^-1",
-            description: "Photoionization rate of an unshadowed atom at 1 AU; 5.92e-6 for Na \
-                          at the quiet Sun, about 2-3e-5 for K",
-            kind: ParamKind::Number { default: Some(NA_RATE_1AU), min: 0.0, max: 1.0e-2 },
-            origin: Origin::FromMemory("Huebner et al. 1992; Huebner & Mukherjee 2015"),
-        }],
+        parameters: &[
+            ParamSpec {
+                name: "rate_1au",
+                unit: "s^-1",
+                description: "Photoionization rate of an unshadowed atom at 1 AU for the quiet \
+                              Sun; 5.92e-6 for Na, about 2-3e-5 for K",
+                kind: ParamKind::Number { default: Some(NA_RATE_1AU), min: 0.0, max: 1.0e-2 },
+                origin: Origin::FromMemory("Huebner et al. 1992; Huebner & Mukherjee 2015"),
+            },
+            ParamSpec {
+                name: "solar_activity",
+                unit: "",
+                description: "Which rate applies: `quiet` uses rate_1au, `active` uses \
+                              rate_1au_active",
+                kind: ParamKind::Choice { default: Some("quiet"), options: &["quiet", "active"] },
+                origin: Origin::CommonPractice,
+            },
+            ParamSpec {
+                name: "rate_1au_active",
+                unit: "s^-1",
+                description: "Photoionization rate of an unshadowed atom at 1 AU for the active \
+                              Sun; the default is for Na",
+                kind: ParamKind::Number {
+                    default: Some(NA_RATE_1AU_ACTIVE),
+                    min: 0.0,
+                    max: 1.0e-2,
+                },
+                origin: Origin::FromMemory(
+                    "Huebner et al. 1992, active-Sun Na rate; low confidence, not checked \
+                     against the table",
+                ),
+            },
+        ],
         reference_points: &[
             ReferencePoint {
                 description: "Na at 1 AU, fully sunlit, quiet Sun",
@@ -133,13 +179,34 @@ impl Process for Photoionization {
                 source: "check-values §1 (Q = 0.46670 AU, F) and §2 (r^-2 law, exact; \
                          M: Huebner et al. 1992)",
             },
+            ReferencePoint {
+                description: "Na at Mercury perihelion (0.3075 AU), fully sunlit, active Sun",
+                check: Check::LossRate,
+                parameters: &[("solar_activity", Value::Text("active"))],
+                input: &[("helio_distance", MERCURY_PERIHELION_AU), ("sunlit_fraction", 1.0)],
+                // 7.26e-6 / 0.3075^2 (r^-2 law, exact; mpmath).
+                expected: 7.677_969_462_621_456e-5,
+                tolerance: 1.0e-9,
+                source: "from memory, low confidence: Huebner et al. 1992 active-Sun Na rate \
+                         7.26e-6 s^-1 (not in check-values); check-values §1 (q, F) and §2 \
+                         (r^-2 law, exact)",
+            },
         ],
     };
 
     fn new(params: &Params) -> Result<Self, ProcessError> {
-        // `rate_1au` has passed the schema range [0, 1e-2] s^-1; 0 is allowed
-        // on purpose, to switch photoionization off in a validation run.
-        Ok(Photoionization { rate_1au: params.number("rate_1au")? })
+        // Both rates have passed the schema range [0, 1e-2] s^-1; 0 is
+        // allowed on purpose, to switch photoionization off in a validation run.
+        let (activity, rate_1au) = match params.choice("solar_activity")? {
+            "quiet" => (SolarActivity::Quiet, params.number("rate_1au")?),
+            "active" => (SolarActivity::Active, params.number("rate_1au_active")?),
+            other => {
+                return Err(ProcessError::parameter(format!(
+                    "solar_activity \"{other}\" is not implemented; use quiet or active"
+                )));
+            }
+        };
+        Ok(Photoionization { rate_1au, activity })
     }
 }
 
@@ -185,7 +252,7 @@ exobound_sdk::export_process!(Photoionization: Loss);
 mod tests {
     use std::collections::BTreeMap;
 
-    use exobound_sdk::{NamedFields, ParamValue, RngKey, Value};
+    use exobound_sdk::{NamedFields, ParamValue, RngKey};
 
     use super::*;
 
@@ -253,6 +320,36 @@ mod tests {
         assert_eq!(one(&mut law, atom(0.3075, 0.0)).unwrap(), 0.0);
         let half = one(&mut law, atom(1.0, 0.5)).unwrap();
         assert_eq!(half, 0.5 * 5.92e-6);
+    }
+
+    #[test]
+    fn active_sun_rate_is_chosen_and_scaled() {
+        // Active Sun, Na: 7.26e-6 s^-1 at 1 AU (from memory, low confidence: Huebner et
+        // al. 1992; not in check-values), scaled by the r^-2 law (check-values §2, exact).
+        let mut law = law_with(&[("solar_activity", ParamValue::Text("active".into()))]);
+        assert_eq!(law.activity, SolarActivity::Active);
+        assert_eq!(one(&mut law, atom(1.0, 1.0)).unwrap(), 7.26e-6);
+        let q = one(&mut law, atom(0.3075, 1.0)).unwrap();
+        assert!((q - 7.26e-6 / (0.3075 * 0.3075)).abs() <= 1e-15 * q, "{q}");
+        // Still zero in shadow (the law).
+        assert_eq!(one(&mut law, atom(0.3075, 0.0)).unwrap(), 0.0);
+        // The quiet rate is ignored when the Sun is active, and the reverse.
+        let mut both = law_with(&[
+            ("solar_activity", ParamValue::Text("active".into())),
+            ("rate_1au", ParamValue::Number(1.0e-5)),
+            ("rate_1au_active", ParamValue::Number(3.0e-5)),
+        ]);
+        assert_eq!(one(&mut both, atom(1.0, 1.0)).unwrap(), 3.0e-5);
+        let quiet = law_with(&[("rate_1au_active", ParamValue::Number(3.0e-5))]);
+        assert_eq!(quiet.activity, SolarActivity::Quiet);
+        assert_eq!(quiet.rate_1au, 5.92e-6);
+        let info = Photoionization::MANIFEST.to_info();
+        assert!(info.parameters[2].default_origin.starts_with("from memory: Huebner"));
+        // An unknown state is refused by the schema, naming the options.
+        let map: BTreeMap<String, ParamValue> =
+            [("solar_activity".to_string(), ParamValue::Text("flare".into()))].into();
+        let err = Params::validate(&map, &info.parameters).unwrap_err();
+        assert!(err.message.contains("solar_activity") && err.message.contains("active"));
     }
 
     #[test]
