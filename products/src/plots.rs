@@ -1,0 +1,701 @@
+//! The run's PNG figures: gridded maps (column density over local time and latitude, reservoir
+//! over longitude and latitude, source and loss maps) and line plots (profiles with marked
+//! points, reference curves, ledgers over time). The host fills a plain description; the layout
+//! (left-aligned title, key panel on the right, colour bar with its unit) is decided here.
+
+use std::path::Path;
+
+use crate::colour::colour;
+use crate::font::{FAMILY, ensure_registered};
+use crate::text::{Align, Baseline, Label, Weight, text_width};
+use crate::ticks::Axis;
+use crate::{ProductError, raster};
+use plotters::coord::Shift;
+use plotters::coord::ranged1d::{DefaultFormatting, KeyPointHint, Ranged};
+use plotters::prelude::*;
+
+/// Size of a map figure, in pixels (width, height).
+pub const MAP_SIZE: (u32, u32) = (1040, 600);
+/// Size of a line figure, in pixels (width, height).
+pub const LINE_SIZE: (u32, u32) = (1040, 600);
+
+/// A gridded field drawn as coloured cells, with a colour bar.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MapPlot {
+    /// Figure title.
+    pub title: String,
+    /// Horizontal axis label, with its unit, e.g. "local time (h)".
+    pub x_label: String,
+    /// Vertical axis label, with its unit, e.g. "latitude (°)".
+    pub y_label: String,
+    /// Cell edges along x, strictly increasing (nx + 1 values).
+    pub x_edges: Vec<f64>,
+    /// Cell edges along y, strictly increasing (ny + 1 values).
+    pub y_edges: Vec<f64>,
+    /// Cell values, row-major `[y][x]` (ny × nx); NaN cells are drawn grey.
+    pub values: Vec<f64>,
+    /// Colour-bar label, with the unit, e.g. "Na column (m⁻²)".
+    pub colour_label: String,
+    /// Colour by log10 of the value (non-positive cells are then drawn grey).
+    pub log_scale: bool,
+    /// Tick positions along x (default: round values).
+    pub x_ticks: Option<Vec<f64>>,
+    /// Tick positions along y (default: round values).
+    pub y_ticks: Option<Vec<f64>>,
+}
+
+/// How a [`Line`] is drawn.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum LineStyle {
+    /// A continuous line.
+    Solid,
+    /// A dashed line.
+    Dashed,
+    /// A line of dots.
+    Dotted,
+    /// Unjoined points (the style for measured or sampled values with error bars).
+    Points,
+}
+
+/// One data series of a [`LinePlot`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct Line {
+    /// Legend text.
+    pub label: String,
+    /// Abscissae (same unit as the plot's x axis); non-finite points break the line.
+    pub x: Vec<f64>,
+    /// Ordinates (same unit as the plot's y axis).
+    pub y: Vec<f64>,
+    /// Half-length of an error bar at each point (same unit as `y`), if any.
+    pub y_err: Option<Vec<f64>>,
+    /// Drawing style.
+    pub style: LineStyle,
+}
+
+/// A labelled vertical line at `x` (e.g. "subsolar", "dawn terminator").
+#[derive(Debug, Clone, PartialEq)]
+pub struct Marker {
+    /// Position, in the unit of the plot's x axis.
+    pub x: f64,
+    /// Text written above the plot at this position.
+    pub label: String,
+}
+
+/// Several series against one x axis, with a legend and optional markers.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LinePlot {
+    /// Figure title.
+    pub title: String,
+    /// Horizontal axis label, with its unit.
+    pub x_label: String,
+    /// Vertical axis label, with its unit.
+    pub y_label: String,
+    /// The series, drawn in order and listed in the key in order.
+    pub lines: Vec<Line>,
+    /// Labelled vertical lines.
+    pub markers: Vec<Marker>,
+    /// Logarithmic y axis (only positive values are shown).
+    pub log_y: bool,
+    /// Fixed x range (default: the extent of the data).
+    pub x_range: Option<(f64, f64)>,
+    /// Tick positions along x (default: round values).
+    pub x_ticks: Option<Vec<f64>>,
+}
+
+// ---- Layout (pixels) and style: this crate's own. ----
+
+/// Left edge and baseline area of the title.
+const TITLE_POS: (f64, f64) = (28.0, 18.0);
+/// Title font size.
+const TITLE_SIZE: f64 = 22.0;
+/// Tick-label font size.
+const TICK_SIZE: f64 = 16.0;
+/// Axis-label font size.
+const AXIS_LABEL_SIZE: f64 = 17.0;
+/// Key and marker text size.
+const KEY_SIZE: f64 = 15.0;
+/// Space above the chart taken by the title.
+const TITLE_BAND: u32 = 58;
+/// Height of one row of marker labels above the chart.
+const MARKER_ROW: u32 = 22;
+/// Width of the area left of the y axis (tick labels and axis label).
+const Y_LABEL_AREA: u32 = 96;
+/// Height of the area under the x axis (tick labels and axis label).
+const X_LABEL_AREA: u32 = 58;
+/// Gap left of the y-label area and right of the chart.
+const SIDE_GAP: u32 = 14;
+/// Width of the panel right of a map (colour bar).
+const BAR_PANEL: u32 = 186;
+/// Width of the colour bar itself.
+const BAR_WIDTH: i32 = 24;
+/// Width of the panel right of a line plot (key).
+const KEY_PANEL: u32 = 250;
+/// Length of a line sample in the key.
+const KEY_SAMPLE: i32 = 34;
+
+const INK: RGBColor = RGBColor(34, 34, 42);
+const INK_RGB: (u8, u8, u8) = (34, 34, 42);
+const SOFT_INK: RGBColor = RGBColor(96, 96, 108);
+const SOFT_INK_RGB: (u8, u8, u8) = (96, 96, 108);
+const GRID_MAJOR: RGBColor = RGBColor(218, 218, 226);
+const GRID_MINOR: RGBColor = RGBColor(238, 238, 243);
+/// Cells without a value.
+const NO_DATA: RGBColor = RGBColor(150, 150, 150);
+/// Line colours, in order of the series; chosen for this crate, distinct on white.
+const SERIES: [RGBColor; 6] = [
+    RGBColor(36, 62, 150),
+    RGBColor(196, 104, 10),
+    RGBColor(18, 128, 112),
+    RGBColor(168, 36, 78),
+    RGBColor(96, 112, 28),
+    RGBColor(112, 76, 160),
+];
+
+/// A chart whose two axes are this crate's [`Axis`].
+type Chart<'a, 'b> = ChartContext<'a, BitMapBackend<'b>, Cartesian2d<Axis, Axis>>;
+/// The root drawing area of a figure.
+type Root<'a> = DrawingArea<BitMapBackend<'a>, Shift>;
+
+/// Draws `plot` as a PNG of [`MAP_SIZE`] at `path`.
+pub fn draw_map(plot: &MapPlot, path: &Path) -> Result<(), ProductError> {
+    let nx = plot.x_edges.len().saturating_sub(1);
+    let ny = plot.y_edges.len().saturating_sub(1);
+    let bad = |m: String| Err(ProductError::file(path, format!("map `{}`: {m}", plot.title)));
+    if nx == 0 || ny == 0 {
+        return bad("needs at least two edges along each axis".into());
+    }
+    if plot.values.len() != nx * ny {
+        return bad(format!("{} values for a {ny}×{nx} grid", plot.values.len()));
+    }
+    for (axis, edges) in [("x", &plot.x_edges), ("y", &plot.y_edges)] {
+        if edges.iter().any(|e| !e.is_finite()) || edges.windows(2).any(|w| w[1] <= w[0]) {
+            return bad(format!("{axis} edges must be finite and strictly increasing"));
+        }
+    }
+    ensure_registered().map_err(|e| e.in_file(path))?;
+
+    // Colour coordinate of each cell (log10 if asked), None where there is no value.
+    let coord: Vec<Option<f64>> = plot
+        .values
+        .iter()
+        .map(|&v| match plot.log_scale {
+            true if v > 0.0 && v.is_finite() => Some(v.log10()),
+            false if v.is_finite() => Some(v),
+            _ => None,
+        })
+        .collect();
+    let (mut lo, mut hi) = finite_extent(coord.iter().flatten().copied()).unwrap_or((0.0, 1.0));
+    if hi <= lo {
+        let pad = if plot.log_scale { 0.5 } else { lo.abs().max(1.0) * 0.5 };
+        (lo, hi) = (lo - pad, hi + pad);
+    }
+    let bar = if plot.log_scale { Axis::log10(lo, hi, 7) } else { Axis::linear(lo, hi, None, 6) };
+    let any_missing = coord.iter().any(Option::is_none);
+    let (x0, x1) = (plot.x_edges[0], plot.x_edges[nx]);
+    let (y0, y1) = (plot.y_edges[0], plot.y_edges[ny]);
+    let xa = Axis::linear(x0, x1, plot.x_ticks.as_deref(), 8);
+    let ya = Axis::linear(y0, y1, plot.y_ticks.as_deref(), 6);
+
+    raster::render(path, MAP_SIZE, |root, labels| {
+        let (w, _) = MAP_SIZE;
+        labels.push(title(&plot.title));
+        let area = root.margin(TITLE_BAND, 10, SIDE_GAP, 0);
+        let (chart_area, _) = area.split_horizontally(w - BAR_PANEL);
+        let mut chart = frame(&chart_area, &xa, &ya, false)?;
+        chart.draw_series((0..ny).flat_map(|j| (0..nx).map(move |i| (i, j))).map(|(i, j)| {
+            let fill = match coord[j * nx + i] {
+                Some(c) => rgb(colour(bar.fraction(c))),
+                None => NO_DATA,
+            };
+            Rectangle::new(
+                [(plot.x_edges[i], plot.y_edges[j]), (plot.x_edges[i + 1], plot.y_edges[j + 1])],
+                fill.filled(),
+            )
+        }))?;
+        chart.draw_series([Rectangle::new([(x0, y0), (x1, y1)], INK.stroke_width(1))])?;
+        axis_text(&chart, &xa, &ya, &plot.x_label, &plot.y_label, labels);
+
+        let (_, py) = chart.plotting_area().get_pixel_range();
+        let bar_left = (w - BAR_PANEL) as i32 + 12;
+        let widest = colour_bar(root, &bar, bar_left, py.start, py.end - 1, labels)?;
+        let label_x = f64::from(bar_left + BAR_WIDTH + 10) + widest + 14.0;
+        let label_y = f64::from(py.start + py.end) / 2.0;
+        labels.push(
+            Label::new(&plot.colour_label, (label_x, label_y), AXIS_LABEL_SIZE, INK_RGB)
+                .anchored(Align::Middle, Baseline::Top)
+                .upright(),
+        );
+        if any_missing {
+            let top = py.end + 22;
+            let swatch = [(bar_left, top), (bar_left + BAR_WIDTH, top + 14)];
+            root.draw(&Rectangle::new(swatch, NO_DATA.filled()))?;
+            root.draw(&Rectangle::new(swatch, INK.stroke_width(1)))?;
+            let text = if plot.log_scale { "no data or ≤ 0" } else { "no data" };
+            let at = (f64::from(bar_left + BAR_WIDTH + 8), f64::from(top + 7));
+            labels.push(Label::new(text, at, KEY_SIZE, INK_RGB));
+        }
+        Ok(())
+    })
+}
+
+/// Draws `plot` as a PNG of [`LINE_SIZE`] at `path`.
+pub fn draw_lines(plot: &LinePlot, path: &Path) -> Result<(), ProductError> {
+    for line in &plot.lines {
+        let bad = |m: &str| {
+            Err(ProductError::file(path, format!("line `{}` of `{}`: {m}", line.label, plot.title)))
+        };
+        if line.x.len() != line.y.len() {
+            return bad("x and y differ in length");
+        }
+        if line.y_err.as_ref().is_some_and(|e| e.len() != line.y.len()) {
+            return bad("y_err and y differ in length");
+        }
+    }
+    if let Some((a, b)) = plot.x_range
+        && !(a.is_finite() && b.is_finite() && b > a)
+    {
+        let m = format!("`{}`: x_range must be finite and increasing", plot.title);
+        return Err(ProductError::file(path, m));
+    }
+    ensure_registered().map_err(|e| e.in_file(path))?;
+
+    let (x0, x1) = plot.x_range.unwrap_or_else(|| {
+        let xs = plot.lines.iter().flat_map(|l| l.x.iter().copied());
+        widen(finite_extent(xs).unwrap_or((0.0, 1.0)), 0.5)
+    });
+    let ycoord = |y: f64| if plot.log_y { if y > 0.0 { y.log10() } else { f64::NAN } } else { y };
+    let ys = plot.lines.iter().flat_map(|l| {
+        (0..l.y.len()).filter(|&i| l.x[i] >= x0 && l.x[i] <= x1).flat_map(move |i| {
+            let e = l.y_err.as_ref().map_or(0.0, |e| e[i].abs());
+            let e = if e.is_finite() { e } else { 0.0 };
+            let lower = if plot.log_y && l.y[i] - e <= 0.0 { l.y[i] } else { l.y[i] - e };
+            [lower, l.y[i] + e]
+        })
+    });
+    let (y0, y1) = finite_extent(ys.map(ycoord)).unwrap_or((0.0, 1.0));
+    let (y0, y1) = widen((y0, y1), if plot.log_y { 0.5 } else { y0.abs().max(1.0) * 0.5 });
+    let pad = 0.05 * (y1 - y0);
+    let (y0, y1) = (y0 - pad, y1 + pad);
+    let ya = if plot.log_y { Axis::log10(y0, y1, 8) } else { Axis::linear(y0, y1, None, 6) };
+    let xa = Axis::linear(x0, x1, plot.x_ticks.as_deref(), 8);
+
+    // Marker labels go in rows above the chart, a label moving down a row when it would
+    // overlap one already placed; the chart's pixel span is known from the layout constants.
+    let (w, _) = LINE_SIZE;
+    let plot_left = f64::from(2 * SIDE_GAP + Y_LABEL_AREA);
+    let plot_right = f64::from(w - KEY_PANEL - SIDE_GAP);
+    let markers: Vec<&Marker> =
+        plot.markers.iter().filter(|m| m.x.is_finite() && m.x >= x0 && m.x <= x1).collect();
+    let mut row_ends: Vec<f64> = Vec::new();
+    let mut rows = Vec::new();
+    for m in &markers {
+        let width = text_width(&m.label, KEY_SIZE, Weight::Regular);
+        let centre = plot_left + xa.fraction(m.x) * (plot_right - plot_left);
+        let left = centre - width / 2.0;
+        let row = row_ends.iter().position(|&end| left > end + 12.0).unwrap_or(row_ends.len());
+        if row == row_ends.len() {
+            row_ends.push(f64::NEG_INFINITY);
+        }
+        row_ends[row] = left + width;
+        rows.push(row);
+    }
+    let top = TITLE_BAND + MARKER_ROW * row_ends.len() as u32;
+
+    raster::render(path, LINE_SIZE, |root, labels| {
+        labels.push(title(&plot.title));
+        let area = root.margin(top, 10, SIDE_GAP, 0);
+        let (chart_area, _) = area.split_horizontally(w - KEY_PANEL);
+        let mut chart = frame(&chart_area, &xa, &ya, true)?;
+
+        for (m, row) in markers.iter().zip(&rows) {
+            let dash =
+                DashedLineSeries::new([(m.x, ya.lo), (m.x, ya.hi)], 6, 5, SOFT_INK.stroke_width(1));
+            chart.draw_series(dash)?;
+            let x = f64::from(chart.backend_coord(&(m.x, ya.lo)).0);
+            let y = f64::from(TITLE_BAND + MARKER_ROW * *row as u32 + MARKER_ROW / 2);
+            labels.push(
+                Label::new(&m.label, (x, y), KEY_SIZE, SOFT_INK_RGB)
+                    .anchored(Align::Middle, Baseline::Middle),
+            );
+        }
+
+        let clip = (x0, x1, ya.lo, ya.hi);
+        for (k, line) in plot.lines.iter().enumerate() {
+            let ink = SERIES[k % SERIES.len()];
+            let pts: Vec<(f64, f64)> =
+                line.x.iter().zip(&line.y).map(|(&x, &y)| (x, ycoord(y))).collect();
+            if let Some(err) = &line.y_err {
+                for (i, &(x, y)) in pts.iter().enumerate() {
+                    let e = err[i].abs();
+                    if !(x.is_finite() && y.is_finite() && e.is_finite() && x >= x0 && x <= x1) {
+                        continue;
+                    }
+                    let lo = ycoord(line.y[i] - e);
+                    let lo = if lo.is_finite() { lo.max(ya.lo) } else { ya.lo };
+                    let hi = ycoord(line.y[i] + e).min(ya.hi);
+                    if hi <= lo {
+                        continue;
+                    }
+                    chart.draw_series([PathElement::new(vec![(x, lo), (x, hi)], ink)])?;
+                    for end in [lo, hi] {
+                        if end > ya.lo && end < ya.hi {
+                            let cap = EmptyElement::at((x, end))
+                                + PathElement::new(vec![(-4, 0), (4, 0)], ink);
+                            chart.draw_series([cap])?;
+                        }
+                    }
+                }
+            }
+            for piece in clipped_pieces(&pts, clip) {
+                match line.style {
+                    LineStyle::Solid => {
+                        chart.draw_series(LineSeries::new(piece, ink.stroke_width(2)))?;
+                    }
+                    LineStyle::Dashed => {
+                        chart.draw_series(DashedLineSeries::new(
+                            piece,
+                            9,
+                            6,
+                            ink.stroke_width(2),
+                        ))?;
+                    }
+                    LineStyle::Dotted => {
+                        chart.draw_series(DottedLineSeries::new(piece, 0, 6, move |c| {
+                            Circle::new(c, 1.6, ink.filled())
+                        }))?;
+                    }
+                    LineStyle::Points => {}
+                }
+            }
+            if line.style == LineStyle::Points {
+                let inside = pts.iter().filter(|&&(x, y)| {
+                    x.is_finite() && y.is_finite() && x >= x0 && x <= x1 && y >= ya.lo && y <= ya.hi
+                });
+                chart.draw_series(inside.map(|&p| Circle::new(p, 3.5, ink.filled())))?;
+            }
+        }
+        let border = Rectangle::new([(x0, ya.lo), (x1, ya.hi)], INK.stroke_width(1));
+        chart.draw_series([border])?;
+        axis_text(&chart, &xa, &ya, &plot.x_label, &plot.y_label, labels);
+
+        let (_, py) = chart.plotting_area().get_pixel_range();
+        key(root, &plot.lines, (w - KEY_PANEL) as i32 + 8, py.start + 4, labels)?;
+        Ok(())
+    })
+}
+
+/// An [`Axis`] is a plotters coordinate: linear in its own coordinate, ticks where it says
+/// (minor positions as the light grid).
+impl Ranged for Axis {
+    type FormatOption = DefaultFormatting;
+    type ValueType = f64;
+
+    fn map(&self, value: &f64, limit: (i32, i32)) -> i32 {
+        let f = self.fraction(*value);
+        limit.0 + (f * f64::from(limit.1 - limit.0)).round() as i32
+    }
+
+    fn key_points<H: KeyPointHint>(&self, hint: H) -> Vec<f64> {
+        if hint.weight().allow_light_points() { self.minor.clone() } else { self.ticks.clone() }
+    }
+
+    fn range(&self) -> std::ops::Range<f64> {
+        self.lo..self.hi
+    }
+}
+
+/// The chart on `area`: axes with tick marks (numbers are painted later by [`axis_text`]) and,
+/// if `grid`, grid lines at the ticks and minor positions.
+fn frame<'a, 'b>(
+    area: &'a Root<'b>,
+    xa: &Axis,
+    ya: &Axis,
+    grid: bool,
+) -> Result<Chart<'a, 'b>, raster::DrawError> {
+    let mut chart = ChartBuilder::on(area)
+        .margin_right(SIDE_GAP)
+        .margin_left(SIDE_GAP)
+        .x_label_area_size(X_LABEL_AREA)
+        .y_label_area_size(Y_LABEL_AREA)
+        .build_cartesian_2d(xa.clone(), ya.clone())?;
+    let mut mesh = chart.configure_mesh();
+    mesh.axis_style(INK)
+        .label_style((FAMILY, TICK_SIZE))
+        .axis_desc_style((FAMILY, AXIS_LABEL_SIZE))
+        .set_all_tick_mark_size(6)
+        .bold_line_style(GRID_MAJOR)
+        .light_line_style(GRID_MINOR)
+        .x_label_formatter(&|_| String::new())
+        .y_label_formatter(&|_| String::new());
+    if !grid {
+        mesh.disable_mesh();
+    }
+    mesh.draw()?;
+    Ok(chart)
+}
+
+/// Tick numbers and axis labels around the chart's plotting area. Tick numbers that would
+/// touch are thinned to every second (third, …) one.
+fn axis_text(
+    chart: &Chart<'_, '_>,
+    xa: &Axis,
+    ya: &Axis,
+    x_label: &str,
+    y_label: &str,
+    labels: &mut Vec<Label>,
+) {
+    let (px, py) = chart.plotting_area().get_pixel_range();
+    let xs: Vec<f64> =
+        xa.ticks.iter().map(|&t| f64::from(chart.backend_coord(&(t, ya.lo)).0)).collect();
+    let widths: Vec<f64> =
+        xa.labels.iter().map(|l| text_width(l, TICK_SIZE, Weight::Regular)).collect();
+    let mut every = 1;
+    while every < xs.len()
+        && (every..xs.len())
+            .step_by(every)
+            .any(|i| xs[i] - xs[i - every] < (widths[i] + widths[i - every]) / 2.0 + 10.0)
+    {
+        every += 1;
+    }
+    let below = f64::from(py.end) + 10.0;
+    for (i, (x, text)) in xs.iter().zip(&xa.labels).enumerate().step_by(every) {
+        let _ = i;
+        labels.push(
+            Label::new(text, (*x, below), TICK_SIZE, INK_RGB)
+                .anchored(Align::Middle, Baseline::Top),
+        );
+    }
+    let ys: Vec<f64> =
+        ya.ticks.iter().map(|&t| f64::from(chart.backend_coord(&(xa.lo, t)).1)).collect();
+    let mut every = 1;
+    while every < ys.len()
+        && (every..ys.len()).step_by(every).any(|i| (ys[i] - ys[i - every]).abs() < TICK_SIZE + 6.0)
+    {
+        every += 1;
+    }
+    let left = f64::from(px.start) - 11.0;
+    let mut widest: f64 = 0.0;
+    for (y, text) in ys.iter().zip(&ya.labels).step_by(every) {
+        widest = widest.max(text_width(text, TICK_SIZE, Weight::Regular));
+        labels.push(
+            Label::new(text, (left, *y), TICK_SIZE, INK_RGB).anchored(Align::End, Baseline::Middle),
+        );
+    }
+    let mid_x = f64::from(px.start + px.end) / 2.0;
+    labels.push(
+        Label::new(x_label, (mid_x, below + TICK_SIZE + 12.0), AXIS_LABEL_SIZE, INK_RGB)
+            .anchored(Align::Middle, Baseline::Top),
+    );
+    let mid_y = f64::from(py.start + py.end) / 2.0;
+    let y_label_x = (left - widest - 12.0).max(AXIS_LABEL_SIZE + 4.0);
+    labels.push(
+        Label::new(y_label, (y_label_x, mid_y), AXIS_LABEL_SIZE, INK_RGB)
+            .anchored(Align::Middle, Baseline::Bottom)
+            .upright(),
+    );
+}
+
+/// The figure title, left-aligned at the top.
+fn title(text: &str) -> Label {
+    Label::new(text, TITLE_POS, TITLE_SIZE, INK_RGB).anchored(Align::Start, Baseline::Top).bold()
+}
+
+/// A vertical colour bar from pixel row `top` to `bottom`, ticks and numbers on its right;
+/// returns the width of the widest number (pixels).
+fn colour_bar(
+    root: &Root<'_>,
+    axis: &Axis,
+    left: i32,
+    top: i32,
+    bottom: i32,
+    labels: &mut Vec<Label>,
+) -> Result<f64, raster::DrawError> {
+    let height = (bottom - top).max(1);
+    for y in top..=bottom {
+        let t = f64::from(bottom - y) / f64::from(height);
+        let row = vec![(left, y), (left + BAR_WIDTH, y)];
+        root.draw(&PathElement::new(row, rgb(colour(t))))?;
+    }
+    root.draw(&Rectangle::new([(left, top), (left + BAR_WIDTH, bottom)], INK.stroke_width(1)))?;
+    let right = left + BAR_WIDTH;
+    let mut widest: f64 = 0.0;
+    for (tick, text) in axis.ticks.iter().zip(&axis.labels) {
+        let y = bottom - (axis.fraction(*tick) * f64::from(height)).round() as i32;
+        root.draw(&PathElement::new(vec![(right, y), (right + 6, y)], INK))?;
+        let at = (f64::from(right + 10), f64::from(y));
+        labels.push(Label::new(text, at, TICK_SIZE, INK_RGB));
+        widest = widest.max(text_width(text, TICK_SIZE, Weight::Regular));
+    }
+    for tick in &axis.minor {
+        let y = bottom - (axis.fraction(*tick) * f64::from(height)).round() as i32;
+        root.draw(&PathElement::new(vec![(right, y), (right + 3, y)], INK))?;
+    }
+    Ok(widest)
+}
+
+/// The key: one row per labelled line, a sample of its style and its label (wrapped to fit).
+fn key(
+    root: &Root<'_>,
+    lines: &[Line],
+    left: i32,
+    top: i32,
+    labels: &mut Vec<Label>,
+) -> raster::DrawResult {
+    let text_left = left + KEY_SAMPLE + 10;
+    let room = f64::from(LINE_SIZE.0 as i32 - text_left - 12);
+    let mut y = top + 10;
+    for (k, line) in lines.iter().enumerate() {
+        if line.label.is_empty() {
+            continue;
+        }
+        let ink = SERIES[k % SERIES.len()];
+        let (a, b) = (left, left + KEY_SAMPLE);
+        match line.style {
+            LineStyle::Solid => {
+                root.draw(&PathElement::new(vec![(a, y), (b, y)], ink.stroke_width(2)))?
+            }
+            LineStyle::Dashed => {
+                for (s, e) in [(a, a + 9), (a + 15, a + 24), (a + 30, b)] {
+                    root.draw(&PathElement::new(vec![(s, y), (e, y)], ink.stroke_width(2)))?;
+                }
+            }
+            LineStyle::Dotted => {
+                for x in (a..=b).step_by(6) {
+                    root.draw(&Circle::new((x, y), 1.6, ink.filled()))?;
+                }
+            }
+            LineStyle::Points => {
+                let m = (a + b) / 2;
+                root.draw(&Circle::new((m, y), 3.5, ink.filled()))?;
+                if line.y_err.is_some() {
+                    root.draw(&PathElement::new(vec![(m, y - 8), (m, y + 8)], ink))?;
+                    for e in [y - 8, y + 8] {
+                        root.draw(&PathElement::new(vec![(m - 4, e), (m + 4, e)], ink))?;
+                    }
+                }
+            }
+        }
+        for (n, text) in wrap(&line.label, room).iter().enumerate() {
+            if n > 0 {
+                y += 19;
+            }
+            labels.push(Label::new(text, (f64::from(text_left), f64::from(y)), KEY_SIZE, INK_RGB));
+        }
+        y += 30;
+    }
+    Ok(())
+}
+
+/// `text` broken at spaces into lines no wider than `room` pixels (a long word stays whole).
+fn wrap(text: &str, room: f64) -> Vec<String> {
+    let mut lines: Vec<String> = Vec::new();
+    let mut current = String::new();
+    for word in text.split_whitespace() {
+        let candidate =
+            if current.is_empty() { word.to_owned() } else { format!("{current} {word}") };
+        if text_width(&candidate, KEY_SIZE, Weight::Regular) > room && !current.is_empty() {
+            lines.push(std::mem::replace(&mut current, word.to_owned()));
+        } else {
+            current = candidate;
+        }
+    }
+    lines.push(current);
+    lines
+}
+
+/// A colour-scale triple as a plotters colour.
+fn rgb((r, g, b): (u8, u8, u8)) -> RGBColor {
+    RGBColor(r, g, b)
+}
+
+/// Smallest and largest finite value, if any.
+fn finite_extent(values: impl Iterator<Item = f64>) -> Option<(f64, f64)> {
+    values.filter(|v| v.is_finite()).fold(None, |acc, v| match acc {
+        None => Some((v, v)),
+        Some((lo, hi)) => Some((lo.min(v), hi.max(v))),
+    })
+}
+
+/// The range itself if it has width, else widened by `pad` each way.
+fn widen((lo, hi): (f64, f64), pad: f64) -> (f64, f64) {
+    if hi > lo { (lo, hi) } else { (lo - pad, hi + pad) }
+}
+
+/// The polyline `pts` cut into finite pieces and clipped to the box (x0, x1, y0, y1): a piece
+/// ends at a non-finite point or where the line leaves the box (Liang–Barsky clipping).
+fn clipped_pieces(
+    pts: &[(f64, f64)],
+    (x0, x1, y0, y1): (f64, f64, f64, f64),
+) -> Vec<Vec<(f64, f64)>> {
+    let mut pieces: Vec<Vec<(f64, f64)>> = Vec::new();
+    let mut current: Vec<(f64, f64)> = Vec::new();
+    let finite = |p: &(f64, f64)| p.0.is_finite() && p.1.is_finite();
+    for w in pts.windows(2) {
+        let (a, b) = (w[0], w[1]);
+        if !(finite(&a) && finite(&b)) {
+            if current.len() > 1 {
+                pieces.push(std::mem::take(&mut current));
+            }
+            current.clear();
+            continue;
+        }
+        let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+        let (mut t0, mut t1) = (0.0f64, 1.0f64);
+        let mut visible = true;
+        for (p, q) in [(-dx, a.0 - x0), (dx, x1 - a.0), (-dy, a.1 - y0), (dy, y1 - a.1)] {
+            if p == 0.0 {
+                if q < 0.0 {
+                    visible = false;
+                }
+            } else {
+                let r = q / p;
+                if p < 0.0 {
+                    t0 = t0.max(r);
+                } else {
+                    t1 = t1.min(r);
+                }
+            }
+        }
+        if !visible || t0 > t1 {
+            if current.len() > 1 {
+                pieces.push(std::mem::take(&mut current));
+            }
+            current.clear();
+            continue;
+        }
+        let start = (a.0 + t0 * dx, a.1 + t0 * dy);
+        let end = (a.0 + t1 * dx, a.1 + t1 * dy);
+        if current.is_empty() || t0 > 0.0 {
+            if current.len() > 1 {
+                pieces.push(std::mem::take(&mut current));
+            }
+            current = vec![start];
+        }
+        current.push(end);
+        if t1 < 1.0 {
+            pieces.push(std::mem::take(&mut current));
+        }
+    }
+    if current.len() > 1 {
+        pieces.push(current);
+    }
+    pieces
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn clipping_cuts_at_gaps_and_box_edges() {
+        let bx = (0.0, 10.0, 0.0, 10.0);
+        let pts = [(1.0, 1.0), (2.0, 2.0), (f64::NAN, 3.0), (4.0, 4.0), (5.0, 5.0), (15.0, 5.0)];
+        let pieces = clipped_pieces(&pts, bx);
+        assert_eq!(
+            pieces,
+            vec![vec![(1.0, 1.0), (2.0, 2.0)], vec![(4.0, 4.0), (5.0, 5.0), (10.0, 5.0)]]
+        );
+        let outside = clipped_pieces(&[(-5.0, 20.0), (-1.0, 30.0)], bx);
+        assert!(outside.is_empty());
+    }
+}
