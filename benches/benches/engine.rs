@@ -98,7 +98,7 @@ pub fn moon_simulation(wasm: bool, threads: usize) -> Simulation {
         sun: SunGeometry { subsolar_latitude: 0.0, subsolar_longitude_at_start: 0.0 },
         grid,
         reservoir,
-        solar_wind_flux: 0.0,
+        solar_wind: exobound::environment::SolarWind::constant(0.0),
         meteoroid_factor: 1.0,
         body,
     };

@@ -84,6 +84,50 @@ impl SunGeometry {
     }
 }
 
+/// One interval of the solar-wind schedule: between `start` and `end` (s of
+/// simulated time) the flux reaching the surface is multiplied by `factor`
+/// (0 while the body is shielded, e.g. the Moon inside the geomagnetic tail).
+#[derive(Clone, Debug, PartialEq)]
+pub struct FluxInterval {
+    /// Start of the interval, s since the run start.
+    pub start: f64,
+    /// End of the interval (exclusive), s since the run start.
+    pub end: f64,
+    /// Multiplier on the unshielded flux, dimensionless, >= 0.
+    pub factor: f64,
+}
+
+/// The solar-wind ion flux reaching the surface over time: an unshielded
+/// flux at 1 AU, scaled as 1/r^2 with heliocentric distance r, and a
+/// schedule of intervals that scale it further.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SolarWind {
+    /// Unshielded ion flux at 1 AU, ions cm^-2 s^-1.
+    pub flux: f64,
+    /// Intervals, in any order; where they overlap the later one wins;
+    /// outside every interval the factor is 1.
+    pub schedule: Vec<FluxInterval>,
+}
+
+impl SolarWind {
+    /// A flux `flux` at 1 AU (ions cm^-2 s^-1) with no schedule.
+    pub fn constant(flux: f64) -> SolarWind {
+        SolarWind { flux, schedule: Vec::new() }
+    }
+
+    /// The schedule's factor at time `t` (s), dimensionless.
+    pub fn factor_at(&self, t: f64) -> f64 {
+        self.schedule.iter().rev().find(|i| t >= i.start && t < i.end).map_or(1.0, |i| i.factor)
+    }
+
+    /// Ion flux reaching the surface at time `t` (s) and heliocentric
+    /// distance `r_au` (AU), ions cm^-2 s^-1: the 1 AU flux times 1/r^2
+    /// (a radially expanding wind of constant speed) times the schedule.
+    pub fn flux_at(&self, t: f64, r_au: f64) -> f64 {
+        self.flux * self.factor_at(t) / (r_au * r_au)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

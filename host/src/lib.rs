@@ -11,11 +11,15 @@
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
 pub mod body;
+pub mod checkpoint;
+pub mod driver;
 pub mod engine;
 pub mod environment;
 pub mod modbuild;
+pub mod output;
 pub mod particles;
 pub mod runtime;
+pub mod scenario;
 pub mod species;
 pub mod surface;
 pub mod tally;

@@ -25,7 +25,7 @@ pub const BYTES_PER_PARTICLE: usize = std::mem::size_of::<u64>()
 const _: () = assert!(BYTES_PER_PARTICLE <= 200);
 
 /// The super-particles in flight, as columns.
-#[derive(Clone, Debug, Default, PartialEq)]
+#[derive(Clone, Debug, Default, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct ParticleBank {
     id: Vec<u64>,
     event: Vec<u32>,

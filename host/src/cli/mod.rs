@@ -4,6 +4,8 @@
 //! subcommand maps to one library call; errors are printed with their
 //! cause chain and mapped to exit codes (0 success, 1 failure, 2 usage).
 
+mod run;
+
 use std::ffi::OsString;
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -23,6 +25,14 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
+    /// Run a scenario (default: the built-in demo) and write its output directory.
+    Run(run::RunArgs),
+    /// Write the demo scenario and its invented input maps into a directory, for editing.
+    Demo {
+        /// Directory to write (created if missing).
+        #[arg(long, value_name = "DIR")]
+        write: PathBuf,
+    },
     /// Work with process modules: inspect, scaffold and build them.
     Module {
         #[command(subcommand)]
@@ -82,6 +92,16 @@ pub fn run(args: impl IntoIterator<Item = OsString>) -> ExitCode {
 
 fn dispatch(cli: Cli) -> Result<()> {
     match cli.command {
+        Command::Run(args) => run::run(args),
+        Command::Demo { write } => {
+            let files = exobound::scenario::demo::write(&write)
+                .with_context(|| format!("writing the demo into {}", write.display()))?;
+            for f in files {
+                println!("wrote {}", f.display());
+            }
+            println!("next: exobound run {} --out demo-output", write.join("demo.toml").display());
+            Ok(())
+        }
         Command::Module { action } => match action {
             ModuleAction::Inspect { file, json } => {
                 let report = inspect::inspect(&file)?;

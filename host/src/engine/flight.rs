@@ -45,6 +45,7 @@ pub(super) struct StepContext<'a> {
 /// The books of one chunk for one step.
 #[derive(Default)]
 pub(super) struct ChunkBooks {
+    hops: u64,
     landed: f64,
     stuck: f64,
     bounced: f64,
@@ -108,6 +109,7 @@ impl Simulation {
         for r in results {
             match r {
                 Ok(b) => {
+                    row.hops += b.hops;
                     row.landed += b.landed;
                     row.stuck += b.stuck;
                     row.bounced += b.bounced;
@@ -361,6 +363,7 @@ impl StepContext<'_> {
                         let cell = self.model.grid.cell_of(lat, lon);
                         let cos_sza = self.model.sun.cos_sza(body, lat, lon, t_at);
                         books.landed += chunk.weight[i];
+                        books.hops += 1;
                         impacts.push(Impact {
                             key: RngKey {
                                 seed,

@@ -16,10 +16,10 @@ mod release;
 use std::sync::Mutex;
 
 use exobound_sdk::{CellState, Role, flags};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use crate::body::Body;
-use crate::environment::SunGeometry;
+use crate::environment::{SolarWind, SunGeometry};
 use crate::particles::ParticleBank;
 use crate::runtime::backend::{ModuleHandle, ProcessCalls};
 use crate::runtime::{DomainError, HostError, ModuleError};
@@ -99,8 +99,9 @@ pub struct Model {
     pub sun: SunGeometry,
     /// Adsorbed pool and bulk abundance per cell.
     pub reservoir: Reservoir,
-    /// Solar-wind ion flux reaching the surface, ions cm^-2 s^-1.
-    pub solar_wind_flux: f64,
+    /// Solar-wind ion flux reaching the surface over time (unshielded flux
+    /// and shielding schedule), ions cm^-2 s^-1.
+    pub solar_wind: SolarWind,
     /// Meteoroid flux relative to nominal, dimensionless.
     pub meteoroid_factor: f64,
 }
@@ -159,7 +160,7 @@ impl RunConfig {
 }
 
 /// Per-cell maps accumulated over the current averaging window, atoms.
-#[derive(Clone, Debug, Default, PartialEq, Serialize)]
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
 pub struct SurfaceMaps {
     /// Atoms released from each cell.
     pub released: Vec<f64>,
@@ -167,6 +168,38 @@ pub struct SurfaceMaps {
     pub stuck: Vec<f64>,
     /// Atoms lost in flight above each cell.
     pub lost_above: Vec<f64>,
+}
+
+/// Everything that evolves during a run, as a value: what a checkpoint
+/// saves. The model's fixed parts, the modules and the configuration are
+/// rebuilt from the scenario; modules keep no state between batch calls
+/// (ABI v1), so this is the whole state.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct EngineState {
+    /// Simulated time, s.
+    pub time: f64,
+    /// Steps done.
+    pub step: u64,
+    /// Next particle id.
+    pub next_id: u64,
+    /// Particles in flight.
+    pub bank: ParticleBank,
+    /// The ledger so far.
+    pub ledger: Ledger,
+    /// The density tally of the current averaging window.
+    pub tally: DensityTally,
+    /// Per-cell maps of the current averaging window.
+    pub maps: SurfaceMaps,
+    /// Sunlit content per step, atoms.
+    pub sunlit_content: Vec<f64>,
+    /// Super-particles each source aims to launch per step.
+    pub new_per_step: Vec<f64>,
+    /// Smoothed fraction of particles leaving flight per step.
+    pub removal_fraction: f64,
+    /// Adsorbed atoms per cell, atoms.
+    pub adsorbed: Vec<f64>,
+    /// Bulk abundance per cell, dimensionless.
+    pub bulk_abundance: Vec<f64>,
 }
 
 /// Instances one worker needs for flight: the surface interaction and the losses.
@@ -330,6 +363,66 @@ impl Simulation {
         }
     }
 
+    /// The evolving state, for a checkpoint.
+    pub fn state(&self) -> EngineState {
+        EngineState {
+            time: self.time,
+            step: self.step,
+            next_id: self.next_id,
+            bank: self.bank.clone(),
+            ledger: self.ledger.clone(),
+            tally: self.tally.clone(),
+            maps: self.maps.clone(),
+            sunlit_content: self.sunlit_content.clone(),
+            new_per_step: self.new_per_step.clone(),
+            removal_fraction: self.removal_fraction,
+            adsorbed: self.model.reservoir.adsorbed.clone(),
+            bulk_abundance: self.model.reservoir.bulk_abundance.clone(),
+        }
+    }
+
+    /// Continue from a saved state; refused if it does not fit this
+    /// simulation's grid, sources, losses, reservoir processes or tally.
+    pub fn restore(&mut self, s: EngineState) -> Result<(), EngineError> {
+        let fits = s.adsorbed.len() == self.model.grid.len()
+            && s.bulk_abundance.len() == self.model.grid.len()
+            && s.new_per_step.len() == self.processes.sources.len()
+            && s.ledger.loss_labels == self.ledger.loss_labels
+            && s.ledger.removal_labels == self.ledger.removal_labels
+            && s.tally.shape() == self.tally.shape()
+            && s.tally.alt_edges() == self.tally.alt_edges()
+            && s.maps.released.len() == self.model.grid.len();
+        if !fits {
+            return Err(EngineError::Config(
+                "the saved state does not match this scenario's grid, processes or tally bins"
+                    .into(),
+            ));
+        }
+        self.time = s.time;
+        self.step = s.step;
+        self.next_id = s.next_id;
+        self.bank = s.bank;
+        self.ledger = s.ledger;
+        self.tally = s.tally;
+        self.maps = s.maps;
+        self.sunlit_content = s.sunlit_content;
+        self.new_per_step = s.new_per_step;
+        self.removal_fraction = s.removal_fraction;
+        self.model.reservoir.adsorbed = s.adsorbed;
+        self.model.reservoir.bulk_abundance = s.bulk_abundance;
+        Ok(())
+    }
+
+    /// The process modules of this run.
+    pub fn processes(&self) -> &Processes {
+        &self.processes
+    }
+
+    /// The numerical settings of this run.
+    pub fn config(&self) -> &RunConfig {
+        &self.config
+    }
+
     /// Run `n` steps.
     pub fn run(&mut self, n: u64) -> Result<(), EngineError> {
         for _ in 0..n {
@@ -396,7 +489,7 @@ impl Simulation {
                 adsorbed: self.model.reservoir.density_cm2(grid, c),
                 bulk_abundance: self.model.reservoir.bulk_abundance[c],
                 helio_distance: r_au,
-                solar_wind_flux: self.model.solar_wind_flux,
+                solar_wind_flux: self.model.solar_wind.flux_at(t, r_au),
                 meteoroid_factor: self.model.meteoroid_factor,
                 time: t,
             };

@@ -17,7 +17,7 @@ use exobound_sdk::{constants::CM2_PER_M2, math};
 const CM3_PER_M3: f64 = 1.0e6;
 
 /// Snapshot estimator of density and column.
-#[derive(Clone, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct DensityTally {
     alt_edges: Vec<f64>,
     n_lt: usize,

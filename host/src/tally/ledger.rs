@@ -9,11 +9,11 @@
 //!
 //! and the closure error, which the tests hold to round-off.
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// One step of the ledger. Flows are atoms during the step; stocks are
 /// atoms at its end.
-#[derive(Clone, Debug, Default, PartialEq, Serialize)]
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
 pub struct LedgerRow {
     /// Step number, from 0.
     pub step: u64,
@@ -29,6 +29,8 @@ pub struct LedgerRow {
     pub released_from_adsorbed: f64,
     /// Atoms that reached the surface, atoms.
     pub landed: f64,
+    /// Super-particle landings (ballistic hops completed), dimensionless.
+    pub hops: u64,
     /// Atoms that stuck to the surface, atoms.
     pub stuck: f64,
     /// Atoms re-emitted at landing, atoms.
@@ -52,7 +54,7 @@ pub struct LedgerRow {
 }
 
 /// The ledger of a run.
-#[derive(Clone, Debug, Default, PartialEq, Serialize)]
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
 pub struct Ledger {
     /// Names of the loss columns (ledger labels of the loss modules).
     pub loss_labels: Vec<String>,

@@ -7,6 +7,7 @@
 
 pub mod density;
 pub mod ledger;
+pub mod profiles;
 
 pub use density::DensityTally;
 pub use ledger::{Ledger, LedgerRow};

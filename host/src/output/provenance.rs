@@ -1,0 +1,88 @@
+//! `provenance.json`: what made a run's output.
+//!
+//! Why this exists: a result is only as trustworthy as the record of what
+//! produced it. The record holds the scenario as written and as resolved
+//! (after the `--set` overrides), the seed, the engine version, and every
+//! module's name, version, role, parameters, file and SHA-256 digest, so
+//! that anyone can check they are running the same modules.
+
+use serde::Serialize;
+
+use crate::checkpoint::ScenarioSource;
+use crate::scenario::Scenario;
+
+/// One module as used by the run.
+#[derive(Clone, Debug, Serialize)]
+pub struct ModuleRecord {
+    /// Manifest name.
+    pub name: String,
+    /// Manifest version.
+    pub version: String,
+    /// Role it played.
+    pub role: String,
+    /// The `module` key as written.
+    pub spec: String,
+    /// The resolved file.
+    pub path: String,
+    /// SHA-256 of the file, hex.
+    pub sha256: String,
+    /// Parameters passed, in the module's units.
+    pub parameters: serde_json::Value,
+}
+
+/// The provenance of a run.
+#[derive(Clone, Debug, Serialize)]
+pub struct Provenance {
+    /// The program.
+    pub engine: String,
+    /// Its version.
+    pub engine_version: String,
+    /// The process ABI version the engine speaks.
+    pub abi_version: String,
+    /// Where the scenario came from.
+    pub scenario_origin: String,
+    /// The run seed.
+    pub seed: u64,
+    /// `KEY=VALUE` overrides applied.
+    pub overrides: Vec<String>,
+    /// The scenario after overrides, as parsed.
+    pub scenario_resolved: serde_json::Value,
+    /// The scenario text as given.
+    pub scenario_text: String,
+    /// The modules, in scenario order.
+    pub modules: Vec<ModuleRecord>,
+    /// A reminder of what the numbers are.
+    pub caution: String,
+}
+
+impl Provenance {
+    /// The provenance of `scenario`, run from `source`.
+    pub fn of(scenario: &Scenario, source: &ScenarioSource) -> Provenance {
+        Provenance {
+            engine: "exobound".into(),
+            engine_version: env!("CARGO_PKG_VERSION").into(),
+            abi_version: exobound_sdk::ABI_VERSION.into(),
+            scenario_origin: source.origin.clone(),
+            seed: scenario.config.seed,
+            overrides: source.overrides.clone(),
+            scenario_resolved: serde_json::to_value(&scenario.file).unwrap_or_default(),
+            scenario_text: source.text.clone(),
+            modules: scenario
+                .modules
+                .iter()
+                .map(|m| ModuleRecord {
+                    name: m.name.clone(),
+                    version: m.version.clone(),
+                    role: m.role.as_str().into(),
+                    spec: m.spec.clone(),
+                    path: m.path.display().to_string(),
+                    sha256: m.sha256.clone(),
+                    parameters: serde_json::to_value(&m.parameters).unwrap_or_default(),
+                })
+                .collect(),
+            caution: "Model output: a scientific estimate from a Monte Carlo model, not \
+                      flight-operations data."
+                .into(),
+        }
+    }
+}

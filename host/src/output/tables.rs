@@ -1,0 +1,117 @@
+//! CSV tables: the ledger step by step, the per-window time series, and
+//! the equatorial local-time and latitude profiles.
+//!
+//! Why this exists: a table opens anywhere (a spreadsheet, pandas, awk).
+//! Every column name ends with its unit (`_s`, `_atoms`, `_cm-2`); numbers
+//! are written with Rust's shortest round-trip formatting, so a value read
+//! back is the value computed.
+
+use std::fmt::Write as _;
+use std::path::Path;
+
+use super::atomic_write;
+use super::fields::Fields;
+use crate::driver::RunRecord;
+use crate::engine::Simulation;
+use crate::scenario::Scenario;
+
+fn csv_name(label: &str) -> String {
+    label.chars().map(|c| if c.is_ascii_alphanumeric() { c } else { '_' }).collect()
+}
+
+/// The ledger as CSV text: one row per step.
+pub fn ledger_csv(sim: &Simulation) -> String {
+    let l = sim.ledger();
+    let mut s = String::from(
+        "step,time_s,supplied_from_bulk_atoms,released_atoms,released_from_adsorbed_atoms,\
+         landed_atoms,stuck_atoms,bounced_atoms,escaped_atoms,buried_atoms",
+    );
+    for label in &l.loss_labels {
+        let _ = write!(s, ",lost_{}_atoms", csv_name(label));
+    }
+    for label in &l.removal_labels {
+        let _ = write!(s, ",removed_{}_atoms", csv_name(label));
+    }
+    s.push_str(",in_flight_atoms,adsorbed_atoms,particles,hops,closure_error\n");
+    for r in &l.rows {
+        let _ = write!(
+            s,
+            "{},{},{},{},{},{},{},{},{},{}",
+            r.step,
+            r.time,
+            r.supplied_from_bulk,
+            r.released,
+            r.released_from_adsorbed,
+            r.landed,
+            r.stuck,
+            r.bounced,
+            r.escaped,
+            r.buried
+        );
+        for x in r.losses.iter().chain(&r.removed) {
+            let _ = write!(s, ",{x}");
+        }
+        let _ = writeln!(
+            s,
+            ",{},{},{},{},{}",
+            r.in_flight, r.adsorbed, r.particles, r.hops, r.closure_error
+        );
+    }
+    s
+}
+
+/// The per-window time series as CSV text.
+pub fn windows_csv(record: &RunRecord) -> String {
+    let mut s = String::from(
+        "start_s,end_s,spin_up,content_atoms,sunlit_content_atoms,adsorbed_atoms,supplied_atoms,\
+         released_atoms,escaped_atoms,lost_in_flight_atoms,removed_atoms,stuck_atoms,\
+         peak_local_time_h,peak_shift_deg,dayside_near_surface_density_cm-3,subsolar_column_cm-2\n",
+    );
+    for w in &record.windows {
+        let _ = writeln!(
+            s,
+            "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
+            w.start,
+            w.end,
+            w.spin_up,
+            w.content,
+            w.sunlit_content,
+            w.adsorbed,
+            w.supplied,
+            w.released,
+            w.escaped,
+            w.lost_in_flight,
+            w.removed,
+            w.stuck,
+            w.peak_local_time,
+            w.shift_deg,
+            w.dayside_near_surface,
+            w.subsolar_column
+        );
+    }
+    s
+}
+
+/// Write `ledger.csv`, `windows.csv` and `profiles/*.csv` into `dir`.
+pub fn write_all(
+    dir: &Path,
+    scenario: &Scenario,
+    sim: &Simulation,
+    record: &RunRecord,
+) -> std::io::Result<()> {
+    let f = Fields::of(scenario, sim, record);
+    atomic_write(&dir.join("ledger.csv"), ledger_csv(sim).as_bytes())?;
+    atomic_write(&dir.join("windows.csv"), windows_csv(record).as_bytes())?;
+    std::fs::create_dir_all(dir.join("profiles"))?;
+    let mut eq = String::from("local_time_h,column_cm-2,column_error_cm-2\n");
+    for ((lt, c), e) in f.local_time_h.iter().zip(&f.equator_profile).zip(&f.equator_error) {
+        let _ = writeln!(eq, "{lt},{c},{e}");
+    }
+    atomic_write(&dir.join("profiles/equator_local_time.csv"), eq.as_bytes())?;
+    let mut lat = String::from("latitude_deg,column_cm-2,column_error_cm-2\n");
+    for ((l, c), e) in f.latitude_deg.iter().zip(&f.latitude_profile).zip(&f.latitude_error) {
+        let _ = writeln!(lat, "{l},{c},{e}");
+    }
+    atomic_write(&dir.join("profiles/latitude.csv"), lat.as_bytes())?;
+    Ok(())
+}

@@ -1,0 +1,222 @@
+//! `ScenarioFile`: the scenario TOML exactly as written, before any checking.
+//!
+//! Why this exists: the file is deserialised into these plain structs, and
+//! only then validated into a [`super::Scenario`] that owns constructed
+//! objects. Every struct refuses unknown keys, so a typo is an error that
+//! names the key rather than a setting silently ignored. Dimensional values
+//! are strings with their unit (`"300 s"`); `docs/scenario.md` lists every
+//! key with its unit and default, and the defaults below are the ones it
+//! documents.
+
+use serde::{Deserialize, Serialize};
+
+/// The whole scenario file.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ScenarioFile {
+    /// A title for plots and provenance.
+    #[serde(default)]
+    pub title: Option<String>,
+    /// The airless body.
+    pub body: BodySection,
+    /// The species followed.
+    pub species: SpeciesSection,
+    /// Surface grid, temperature, composition and initial reservoir.
+    pub surface: SurfaceSection,
+    /// Heliocentric distance, solar wind and meteoroids.
+    #[serde(default)]
+    pub environment: EnvironmentSection,
+    /// The process modules, in order.
+    #[serde(default)]
+    pub processes: Vec<ProcessEntry>,
+    /// Time stepping, seed, particle budget, threads, checkpoints.
+    pub run: RunSection,
+    /// Tally grids, averaging window and products.
+    #[serde(default)]
+    pub outputs: OutputsSection,
+}
+
+/// `[body]`.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BodySection {
+    /// `moon`, `mercury` or `custom`.
+    pub name: String,
+    /// Custom bodies: GM, e.g. "4902.8 km^3 s^-2".
+    #[serde(default)]
+    pub gm: Option<String>,
+    /// Custom bodies: mean radius, e.g. "1737.4 km".
+    #[serde(default)]
+    pub radius: Option<String>,
+    /// Custom bodies: sidereal rotation period, e.g. "27.32 d".
+    #[serde(default)]
+    pub sidereal_rotation: Option<String>,
+    /// Custom bodies: mean solar day, e.g. "29.53 d".
+    #[serde(default)]
+    pub solar_day: Option<String>,
+    /// Subsolar latitude, e.g. "0 deg" (default).
+    #[serde(default)]
+    pub subsolar_latitude: Option<String>,
+    /// Body-fixed east longitude of the subsolar point at the start, e.g. "0 deg" (default).
+    #[serde(default)]
+    pub subsolar_longitude: Option<String>,
+}
+
+/// `[species]`.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SpeciesSection {
+    /// `sodium` (or `Na`) or `potassium` (or `K`).
+    pub name: String,
+}
+
+/// `[surface]`.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SurfaceSection {
+    /// Latitude cells of the surface grid (default 18).
+    #[serde(default)]
+    pub latitude_cells: Option<usize>,
+    /// Longitude cells of the surface grid (default 36).
+    #[serde(default)]
+    pub longitude_cells: Option<usize>,
+    /// Surface temperature law.
+    pub temperature: TemperatureSection,
+    /// Map of bulk abundance relative to nominal regolith (default: 1 everywhere).
+    #[serde(default)]
+    pub bulk_map: Option<String>,
+    /// Initial adsorbed surface density, uniform, e.g. "1e10 cm^-2" (default "0 cm^-2").
+    #[serde(default)]
+    pub adsorbed: Option<String>,
+    /// Map of the initial adsorbed surface density (replaces `adsorbed`).
+    #[serde(default)]
+    pub adsorbed_map: Option<String>,
+}
+
+/// `[surface.temperature]`: T = T_night + (T_ss - T_night) cos^(1/4)(SZA) by day.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TemperatureSection {
+    /// Subsolar temperature at the reference distance, e.g. "390 K".
+    pub subsolar: String,
+    /// Night-side temperature, e.g. "100 K".
+    pub night: String,
+    /// Heliocentric distance at which `subsolar` holds (default "1 AU");
+    /// elsewhere it scales as r^-1/2.
+    #[serde(default)]
+    pub reference_distance: Option<String>,
+}
+
+/// `[environment]`.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct EnvironmentSection {
+    /// A fixed heliocentric distance, e.g. "1 AU"; default: the body's own orbit.
+    #[serde(default)]
+    pub heliocentric_distance: Option<String>,
+    /// Unshielded solar-wind ion flux at 1 AU (default "2e8 cm^-2 s^-1").
+    #[serde(default)]
+    pub solar_wind_flux: Option<String>,
+    /// Intervals that scale the solar-wind flux (0 = shielded).
+    #[serde(default)]
+    pub solar_wind: Vec<IntervalEntry>,
+    /// Meteoroid flux relative to nominal (default 1).
+    #[serde(default)]
+    pub meteoroid_factor: Option<f64>,
+}
+
+/// `[[environment.solar_wind]]`: one interval of the solar-wind schedule.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct IntervalEntry {
+    /// Start, time since the run start, e.g. "12 d".
+    pub start: String,
+    /// End, time since the run start, e.g. "17 d".
+    pub end: String,
+    /// Multiplier on the unshielded flux, >= 0 (0 = shielded).
+    pub factor: f64,
+    /// Free text, e.g. "inside the geomagnetic tail".
+    #[serde(default)]
+    pub note: Option<String>,
+}
+
+/// `[[processes]]`: one module.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ProcessEntry {
+    /// The `.wasm` file (relative to the scenario file), or `standard:NAME`
+    /// for a module built with the engine.
+    pub module: String,
+    /// `source`, `loss`, `surface-interaction` or `reservoir-process`.
+    pub role: String,
+    /// Parameters: a number with its unit as text ("3e-20 cm^2"), a bare
+    /// number for dimensionless ones, or the name of an option.
+    #[serde(default)]
+    pub parameters: toml::Table,
+}
+
+/// `[run]`.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RunSection {
+    /// Time step (default "300 s").
+    #[serde(default)]
+    pub dt: Option<String>,
+    /// Simulated duration, including the spin-up, e.g. "29.53 d".
+    pub duration: String,
+    /// Leading time left out of the averaged products (default "0 s").
+    #[serde(default)]
+    pub spin_up: Option<String>,
+    /// Run seed (default 1).
+    #[serde(default)]
+    pub seed: Option<u64>,
+    /// Super-particles in flight the weights adapt towards (default 100000).
+    #[serde(default)]
+    pub particles: Option<usize>,
+    /// Worker threads, 0 for one per core (default 0).
+    #[serde(default)]
+    pub threads: Option<usize>,
+    /// Checkpoint interval in simulated time, e.g. "1 d" (default: none).
+    #[serde(default)]
+    pub checkpoint_every: Option<String>,
+    /// Integrate with radiation pressure (default false).
+    #[serde(default)]
+    pub radiation_pressure: Option<bool>,
+    /// Outer boundary in body radii (default 20).
+    #[serde(default)]
+    pub boundary_radii: Option<f64>,
+}
+
+/// `[outputs]`.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct OutputsSection {
+    /// Altitude bin edges of the density tally (default 0..3000 km, finer near the surface).
+    #[serde(default)]
+    pub altitude_edges: Option<QuantityList>,
+    /// Local-time bins over 24 h (default 24).
+    #[serde(default)]
+    pub local_time_bins: Option<usize>,
+    /// Latitude bins from pole to pole (default 18).
+    #[serde(default)]
+    pub latitude_bins: Option<usize>,
+    /// Averaging window of the time series, e.g. "1 d" (default "1 d").
+    #[serde(default)]
+    pub window: Option<String>,
+    /// Half-width of the equatorial band of the local-time profile (default "10 deg").
+    #[serde(default)]
+    pub equator_band: Option<String>,
+    /// Which products: any of `netcdf`, `csv`, `plots` (default all three).
+    #[serde(default)]
+    pub products: Option<Vec<String>>,
+}
+
+/// A list of numbers sharing one unit: `{ values = [0, 50, 100], unit = "km" }`.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct QuantityList {
+    /// The numbers, in `unit`.
+    pub values: Vec<f64>,
+    /// Their unit.
+    pub unit: String,
+}

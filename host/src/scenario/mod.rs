@@ -1,0 +1,764 @@
+//! Scenarios: the TOML file a modeller writes, checked and turned into the
+//! objects the engine runs.
+//!
+//! Why this exists: a run is described by one file. Parsing is in two
+//! phases: the text becomes a [`ScenarioFile`] that mirrors it exactly
+//! (unknown keys refused, with the nearest valid key suggested), then
+//! [`Scenario`] validates every value (units, ranges, module files, maps)
+//! and owns the constructed body, grid, reservoir, modules and settings.
+//! Every error names the file and the key, and says how to fix it; no
+//! output exists yet when one is raised.
+
+pub mod demo;
+pub mod file;
+pub mod keys;
+pub mod maps;
+pub mod quantity;
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+use exobound_sdk::manifest::ParamKindInfo;
+use exobound_sdk::{ParamValue, Role};
+
+pub use file::ScenarioFile;
+use quantity::Kind;
+
+use crate::body::{Body, HelioOrbit};
+use crate::engine::{Model, Processes, RunConfig};
+use crate::environment::{FluxInterval, SolarWind, SunGeometry};
+use crate::runtime::Runtime;
+use crate::runtime::backend::ModuleHandle;
+use crate::species::Species;
+use crate::surface::{Grid, Reservoir, TemperatureLaw};
+
+/// A scenario that cannot be used, with a message naming the file, the key
+/// and the fix.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct ScenarioError(pub String);
+
+impl std::fmt::Display for ScenarioError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+impl std::error::Error for ScenarioError {}
+
+/// Where the files a scenario names (maps, modules) are found.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Inputs {
+    /// Relative to this directory (the scenario file's own).
+    Dir(PathBuf),
+    /// The built-in demo: its maps are generated in memory; modules are
+    /// `standard:` ones.
+    Demo,
+}
+
+impl Inputs {
+    /// The text of the input file `rel`, or a message naming it.
+    fn read(&self, rel: &str) -> Result<String, String> {
+        match self {
+            Inputs::Dir(d) => {
+                let p = d.join(rel);
+                std::fs::read_to_string(&p)
+                    .map_err(|e| format!("cannot read the map file `{}`: {e}", p.display()))
+            }
+            Inputs::Demo => demo::input(rel)
+                .ok_or_else(|| format!("the built-in demo has no input file `{rel}`")),
+        }
+    }
+}
+
+/// A process module as the scenario uses it.
+#[derive(Clone, Debug)]
+pub struct ModuleUse {
+    /// Position in the `[[processes]]` list, from 0.
+    pub index: usize,
+    /// The role it plays here.
+    pub role: Role,
+    /// The `module` key as written.
+    pub spec: String,
+    /// The resolved `.wasm` path.
+    pub path: PathBuf,
+    /// Manifest name.
+    pub name: String,
+    /// Manifest version.
+    pub version: String,
+    /// SHA-256 of the file, hex.
+    pub sha256: String,
+    /// Parameters as passed to the module, each in the manifest's unit.
+    pub parameters: BTreeMap<String, ParamValue>,
+    /// The configured module.
+    pub handle: ModuleHandle,
+}
+
+/// Which output products to write.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Products {
+    /// `exosphere.nc`.
+    pub netcdf: bool,
+    /// `ledger.csv` and `profiles/*.csv`.
+    pub csv: bool,
+    /// `plots/*.png`.
+    pub plots: bool,
+}
+
+/// Time plan and products of a run.
+#[derive(Clone, Debug, PartialEq)]
+pub struct RunPlan {
+    /// Steps in the whole run, including spin-up.
+    pub steps: u64,
+    /// Steps of spin-up, left out of the averaged products.
+    pub spin_up_steps: u64,
+    /// Steps per averaging window of the time series.
+    pub window_steps: u64,
+    /// Steps between checkpoints, if any.
+    pub checkpoint_steps: Option<u64>,
+    /// Half-width of the equatorial band of the local-time profile, rad.
+    pub equator_band: f64,
+    /// Products to write.
+    pub products: Products,
+}
+
+/// A validated scenario: everything the engine needs, constructed.
+#[derive(Clone, Debug)]
+pub struct Scenario {
+    /// Title for plots and provenance.
+    pub title: String,
+    /// Where the scenario came from (a path, or "built-in demo").
+    pub origin: String,
+    /// The file's text as read.
+    pub text: String,
+    /// The `KEY=VALUE` settings applied on top of the file.
+    pub overrides: Vec<String>,
+    /// The file after the overrides, as resolved.
+    pub file: ScenarioFile,
+    /// The physical setting.
+    pub model: Model,
+    /// The modules by role.
+    pub processes: Processes,
+    /// The modules in file order, with their digests.
+    pub modules: Vec<ModuleUse>,
+    /// Numerical settings.
+    pub config: RunConfig,
+    /// Time plan and products.
+    pub plan: RunPlan,
+}
+
+impl Scenario {
+    /// Load the scenario file at `path`, apply `overrides` (`KEY=VALUE`),
+    /// and validate it, loading its modules into `runtime`.
+    pub fn load(
+        path: &Path,
+        overrides: &[String],
+        runtime: &Arc<Runtime>,
+    ) -> Result<Scenario, ScenarioError> {
+        let text = std::fs::read_to_string(path).map_err(|e| {
+            ScenarioError(format!("cannot read the scenario file `{}`: {e}", path.display()))
+        })?;
+        let dir = path.parent().map(Path::to_path_buf).unwrap_or_default();
+        let dir = if dir.as_os_str().is_empty() { PathBuf::from(".") } else { dir };
+        Scenario::from_text(
+            &text,
+            &path.display().to_string(),
+            Inputs::Dir(dir),
+            overrides,
+            runtime,
+        )
+    }
+
+    /// The built-in demo (quick or full), with `overrides`.
+    pub fn demo(
+        quick: bool,
+        overrides: &[String],
+        runtime: &Arc<Runtime>,
+    ) -> Result<Scenario, ScenarioError> {
+        let text = demo::scenario_text(quick);
+        let origin = if quick { "built-in demo (quick)" } else { "built-in demo" };
+        Scenario::from_text(&text, origin, Inputs::Demo, overrides, runtime)
+    }
+
+    /// Parse, override and validate scenario `text`; `origin` names it in messages.
+    pub fn from_text(
+        text: &str,
+        origin: &str,
+        inputs: Inputs,
+        overrides: &[String],
+        runtime: &Arc<Runtime>,
+    ) -> Result<Scenario, ScenarioError> {
+        let file = keys::parse_file(text, origin, overrides)?;
+        let v = Validator { origin, inputs: &inputs };
+        v.build(file, text, overrides, runtime)
+    }
+}
+
+struct Validator<'a> {
+    origin: &'a str,
+    inputs: &'a Inputs,
+}
+
+impl Validator<'_> {
+    fn err(&self, key: &str, msg: impl std::fmt::Display) -> ScenarioError {
+        ScenarioError(format!("{}: {key}: {msg}", self.origin))
+    }
+
+    fn q(&self, key: &str, text: &str, kind: Kind) -> Result<f64, ScenarioError> {
+        quantity::parse(text, kind).map_err(|m| self.err(key, m))
+    }
+
+    fn q_or(
+        &self,
+        key: &str,
+        text: &Option<String>,
+        default: &str,
+        kind: Kind,
+    ) -> Result<f64, ScenarioError> {
+        self.q(key, text.as_deref().unwrap_or(default), kind)
+    }
+
+    fn positive(&self, key: &str, x: f64, unit: &str) -> Result<f64, ScenarioError> {
+        if x > 0.0 && x.is_finite() {
+            Ok(x)
+        } else {
+            Err(self.err(key, format!("must be positive, got {x} {unit}")))
+        }
+    }
+
+    fn build(
+        &self,
+        file: ScenarioFile,
+        text: &str,
+        overrides: &[String],
+        runtime: &Arc<Runtime>,
+    ) -> Result<Scenario, ScenarioError> {
+        let body = self.body(&file)?;
+        let species = match file.species.name.to_ascii_lowercase().as_str() {
+            "sodium" | "na" => Species::sodium(),
+            "potassium" | "k" => Species::potassium(),
+            other => {
+                return Err(self.err(
+                    "species.name",
+                    format!("unknown species `{other}`; use `sodium` or `potassium`"),
+                ));
+            }
+        };
+        let s = &file.surface;
+        let n_lat = s.latitude_cells.unwrap_or(18);
+        let n_lon = s.longitude_cells.unwrap_or(36);
+        if !(2..=720).contains(&n_lat) || !(2..=1440).contains(&n_lon) {
+            return Err(self.err(
+                "surface.latitude_cells / longitude_cells",
+                format!("{n_lat} x {n_lon} cells; use 2-720 latitude and 2-1440 longitude cells"),
+            ));
+        }
+        let grid = Grid::new(n_lat, n_lon, body.radius)
+            .ok_or_else(|| self.err("surface", "cannot build the surface grid"))?;
+        let t = &s.temperature;
+        let temperature = TemperatureLaw {
+            subsolar: self.positive(
+                "surface.temperature.subsolar",
+                self.q("surface.temperature.subsolar", &t.subsolar, Kind::Temperature)?,
+                "K",
+            )?,
+            night: self.positive(
+                "surface.temperature.night",
+                self.q("surface.temperature.night", &t.night, Kind::Temperature)?,
+                "K",
+            )?,
+            reference_distance: self.positive(
+                "surface.temperature.reference_distance",
+                self.q_or(
+                    "surface.temperature.reference_distance",
+                    &t.reference_distance,
+                    "1 AU",
+                    Kind::HelioDistance,
+                )?,
+                "AU",
+            )?,
+        };
+        if temperature.night > temperature.subsolar {
+            return Err(self.err(
+                "surface.temperature",
+                format!(
+                    "night = {} K exceeds subsolar = {} K",
+                    temperature.night, temperature.subsolar
+                ),
+            ));
+        }
+        let reservoir = self.reservoir(s, &grid)?;
+        let sun = SunGeometry {
+            subsolar_latitude: self.q_or(
+                "body.subsolar_latitude",
+                &file.body.subsolar_latitude,
+                "0 deg",
+                Kind::Angle,
+            )?,
+            subsolar_longitude_at_start: self.q_or(
+                "body.subsolar_longitude",
+                &file.body.subsolar_longitude,
+                "0 deg",
+                Kind::Angle,
+            )?,
+        };
+        if sun.subsolar_latitude.abs() > core::f64::consts::FRAC_PI_2 {
+            return Err(self.err("body.subsolar_latitude", "must lie within [-90, 90] deg"));
+        }
+        let e = &file.environment;
+        let flux = self.q_or(
+            "environment.solar_wind_flux",
+            &e.solar_wind_flux,
+            "2e8 cm^-2 s^-1",
+            Kind::Flux,
+        )?;
+        if !(flux >= 0.0) {
+            return Err(self.err("environment.solar_wind_flux", "must not be negative"));
+        }
+        let mut schedule = Vec::new();
+        for (i, iv) in e.solar_wind.iter().enumerate() {
+            let key = format!("environment.solar_wind[{i}]");
+            let start = self.q(&format!("{key}.start"), &iv.start, Kind::Time)?;
+            let end = self.q(&format!("{key}.end"), &iv.end, Kind::Time)?;
+            if !(end > start) {
+                return Err(
+                    self.err(&key, format!("end ({end} s) must come after start ({start} s)"))
+                );
+            }
+            if !(iv.factor >= 0.0 && iv.factor.is_finite()) {
+                return Err(self.err(&format!("{key}.factor"), "must be a number >= 0"));
+            }
+            schedule.push(FluxInterval { start, end, factor: iv.factor });
+        }
+        let meteoroid_factor = e.meteoroid_factor.unwrap_or(1.0);
+        if !(meteoroid_factor >= 0.0 && meteoroid_factor.is_finite()) {
+            return Err(self.err("environment.meteoroid_factor", "must be a number >= 0"));
+        }
+        let model = Model {
+            body,
+            species,
+            grid,
+            temperature,
+            sun,
+            reservoir,
+            solar_wind: SolarWind { flux, schedule },
+            meteoroid_factor,
+        };
+        let modules = self.modules(&file, runtime)?;
+        let processes = self.processes(&modules)?;
+        let (config, plan) = self.settings(&file, &model.body)?;
+        Ok(Scenario {
+            title: file.title.clone().unwrap_or_else(|| "exobound run".to_string()),
+            origin: self.origin.to_string(),
+            text: text.to_string(),
+            overrides: overrides.to_vec(),
+            file,
+            model,
+            processes,
+            modules,
+            config,
+            plan,
+        })
+    }
+
+    fn body(&self, file: &ScenarioFile) -> Result<Body, ScenarioError> {
+        let b = &file.body;
+        let mut body = match b.name.to_ascii_lowercase().as_str() {
+            "moon" => Body::moon(),
+            "mercury" => Body::mercury(),
+            "custom" => {
+                let need = |k: &str, v: &Option<String>| {
+                    v.clone().ok_or_else(|| {
+                        self.err(&format!("body.{k}"), "a custom body needs this key")
+                    })
+                };
+                let gm = self.q("body.gm", &need("gm", &b.gm)?, Kind::GravParameter)?;
+                let radius = self.q("body.radius", &need("radius", &b.radius)?, Kind::Length)?;
+                let rot = self.q(
+                    "body.sidereal_rotation",
+                    &need("sidereal_rotation", &b.sidereal_rotation)?,
+                    Kind::Time,
+                )?;
+                let day =
+                    self.q("body.solar_day", &need("solar_day", &b.solar_day)?, Kind::Time)?;
+                self.positive("body.gm", gm, "m^3 s^-2")?;
+                self.positive("body.radius", radius, "m")?;
+                self.positive("body.sidereal_rotation", rot, "s")?;
+                self.positive("body.solar_day", day, "s")?;
+                Body::custom(
+                    "custom",
+                    gm,
+                    radius,
+                    rot,
+                    day,
+                    HelioOrbit::Constant { distance_au: 1.0 },
+                )
+            }
+            other => {
+                return Err(self.err(
+                    "body.name",
+                    format!("unknown body `{other}`; use `moon`, `mercury` or `custom`"),
+                ));
+            }
+        };
+        if b.name.to_ascii_lowercase() != "custom" {
+            for (k, v) in [
+                ("gm", &b.gm),
+                ("radius", &b.radius),
+                ("sidereal_rotation", &b.sidereal_rotation),
+                ("solar_day", &b.solar_day),
+            ] {
+                if v.is_some() {
+                    return Err(self.err(
+                        &format!("body.{k}"),
+                        format!("only a custom body takes `{k}`; set body.name = \"custom\" or remove it"),
+                    ));
+                }
+            }
+        }
+        if let Some(d) = &file.environment.heliocentric_distance {
+            let r = self.q("environment.heliocentric_distance", d, Kind::HelioDistance)?;
+            self.positive("environment.heliocentric_distance", r, "AU")?;
+            body.orbit = HelioOrbit::Constant { distance_au: r };
+        }
+        Ok(body)
+    }
+
+    fn reservoir(&self, s: &file::SurfaceSection, grid: &Grid) -> Result<Reservoir, ScenarioError> {
+        let adsorbed =
+            self.q_or("surface.adsorbed", &s.adsorbed, "0 cm^-2", Kind::SurfaceDensity)?;
+        if !(adsorbed >= 0.0) {
+            return Err(self.err("surface.adsorbed", "must not be negative"));
+        }
+        let mut r = Reservoir::uniform(grid, adsorbed);
+        let centres_deg = |c: usize| {
+            let (lat, lon) = grid.centre(c);
+            (lat.to_degrees(), lon.to_degrees().rem_euclid(360.0))
+        };
+        if let Some(rel) = &s.bulk_map {
+            let m = self.map("surface.bulk_map", rel, "bulk_abundance", "1")?;
+            for c in 0..grid.len() {
+                let (lat, lon) = centres_deg(c);
+                r.bulk_abundance[c] = m.at(lat, lon);
+            }
+        }
+        if let Some(rel) = &s.adsorbed_map {
+            if s.adsorbed.is_some() {
+                return Err(self.err(
+                    "surface.adsorbed_map",
+                    "give either `adsorbed` or `adsorbed_map`, not both",
+                ));
+            }
+            let m = self.map("surface.adsorbed_map", rel, "adsorbed_density", "cm^-2")?;
+            for c in 0..grid.len() {
+                let (lat, lon) = centres_deg(c);
+                r.adsorbed[c] = m.at(lat, lon) * grid.area_cm2(c);
+            }
+        }
+        Ok(r)
+    }
+
+    fn map(
+        &self,
+        key: &str,
+        rel: &str,
+        quantity: &str,
+        unit: &str,
+    ) -> Result<maps::SurfaceMap, ScenarioError> {
+        let text = self.inputs.read(rel).map_err(|m| self.err(key, m))?;
+        let shown = match self.inputs {
+            Inputs::Dir(d) => d.join(rel).display().to_string(),
+            Inputs::Demo => rel.to_string(),
+        };
+        maps::parse(&text, &shown, quantity, unit).map_err(|m| self.err(key, m))
+    }
+
+    fn module_path(&self, spec: &str) -> PathBuf {
+        if let Some(name) = spec.strip_prefix("standard:") {
+            return standard_module_dir().join(format!("{name}.wasm"));
+        }
+        match self.inputs {
+            Inputs::Dir(d) => d.join(spec),
+            Inputs::Demo => PathBuf::from(spec),
+        }
+    }
+
+    fn modules(
+        &self,
+        file: &ScenarioFile,
+        runtime: &Arc<Runtime>,
+    ) -> Result<Vec<ModuleUse>, ScenarioError> {
+        let mut out = Vec::new();
+        for (i, entry) in file.processes.iter().enumerate() {
+            let key = format!("processes[{i}]");
+            let role = Role::parse(&entry.role).ok_or_else(|| {
+                self.err(
+                    &format!("{key}.role"),
+                    format!(
+                        "unknown role `{}`; use source, loss, surface-interaction or reservoir-process",
+                        entry.role
+                    ),
+                )
+            })?;
+            let path = self.module_path(&entry.module);
+            if !path.is_file() {
+                let hint = if entry.module.starts_with("standard:") {
+                    " (standard modules are built by `cargo build --release`; set EXOBOUND_MODULE_DIR if they live elsewhere)"
+                } else {
+                    " (paths are relative to the scenario file)"
+                };
+                return Err(self.err(
+                    &format!("{key}.module"),
+                    format!("module file `{}` not found{hint}", path.display()),
+                ));
+            }
+            let loaded = runtime.load(&path).map_err(|e| {
+                self.err(&format!("{key}.module"), format!("`{}`: {e}", path.display()))
+            })?;
+            let info = loaded.manifest().clone();
+            let label = format!("{key} ({})", info.name);
+            if !info.has_role(role) {
+                return Err(self.err(
+                    &format!("{key}.role"),
+                    format!(
+                        "module `{}` does not implement the role `{}`; it declares: {}",
+                        info.name,
+                        role.as_str(),
+                        info.roles.join(", ")
+                    ),
+                ));
+            }
+            let parameters = self.parameters(&label, &entry.parameters, &info.parameters)?;
+            let handle = ModuleHandle::wasm(runtime.clone(), loaded.clone(), parameters.clone())
+                .map_err(|e| self.err(&format!("{label}.parameters"), e))?;
+            out.push(ModuleUse {
+                index: i,
+                role,
+                spec: entry.module.clone(),
+                path,
+                name: info.name.clone(),
+                version: info.version.clone(),
+                sha256: loaded.sha256().to_string(),
+                parameters,
+                handle,
+            });
+        }
+        Ok(out)
+    }
+
+    fn parameters(
+        &self,
+        label: &str,
+        given: &toml::Table,
+        schema: &[exobound_sdk::ParamInfo],
+    ) -> Result<BTreeMap<String, ParamValue>, ScenarioError> {
+        let mut out = BTreeMap::new();
+        for (name, value) in given {
+            let key = format!("{label}.parameters.{name}");
+            let Some(p) = schema.iter().find(|p| &p.name == name) else {
+                let names: Vec<&str> = schema.iter().map(|p| p.name.as_str()).collect();
+                return Err(self.err(&key, keys::unknown_message(name, &names, "parameter")));
+            };
+            let unit = quantity::normalise_unit(&p.unit);
+            let dimensionless = unit.is_empty() || unit == "1";
+            let v = match (p.kind(), value) {
+                (ParamKindInfo::Choice, toml::Value::String(s)) => ParamValue::Text(s.clone()),
+                (ParamKindInfo::Choice, other) => {
+                    return Err(self.err(
+                        &key,
+                        format!("`{other}` is not an option; use one of {}", p.choices.join(", ")),
+                    ));
+                }
+                (ParamKindInfo::Number, toml::Value::String(s)) => {
+                    let Some((x, u)) = quantity::split(s) else {
+                        return Err(self.err(&key, format!("`{s}` is not a number with a unit")));
+                    };
+                    if u != unit && !(dimensionless && u.is_empty()) {
+                        return Err(self.err(
+                            &key,
+                            format!(
+                                "unit `{u}` does not match the module's unit `{}`; write the value in `{}`",
+                                p.unit, p.unit
+                            ),
+                        ));
+                    }
+                    ParamValue::Number(x)
+                }
+                (ParamKindInfo::Number, toml::Value::Float(x)) if dimensionless => {
+                    ParamValue::Number(*x)
+                }
+                (ParamKindInfo::Number, toml::Value::Integer(x)) if dimensionless => {
+                    ParamValue::Number(*x as f64)
+                }
+                (ParamKindInfo::Number, toml::Value::Float(_) | toml::Value::Integer(_)) => {
+                    return Err(self.err(
+                        &key,
+                        format!(
+                            "give the unit: {name} = \"{value} {}\" (the module's unit is `{}`)",
+                            p.unit, p.unit
+                        ),
+                    ));
+                }
+                (ParamKindInfo::Number, other) => {
+                    return Err(self.err(&key, format!("`{other}` is not a number")));
+                }
+            };
+            out.insert(name.clone(), v);
+        }
+        Ok(out)
+    }
+
+    fn processes(&self, modules: &[ModuleUse]) -> Result<Processes, ScenarioError> {
+        let by = |r: Role| modules.iter().filter(move |m| m.role == r).map(|m| m.handle.clone());
+        let surfaces: Vec<ModuleHandle> = by(Role::SurfaceInteraction).collect();
+        if surfaces.len() != 1 {
+            return Err(self.err(
+                "processes",
+                format!(
+                    "exactly one module must have role = \"surface-interaction\"; found {}",
+                    surfaces.len()
+                ),
+            ));
+        }
+        let sources: Vec<ModuleHandle> = by(Role::Source).collect();
+        if sources.is_empty() {
+            return Err(self.err("processes", "at least one module must have role = \"source\""));
+        }
+        Ok(Processes {
+            sources,
+            losses: by(Role::Loss).collect(),
+            surface: surfaces[0].clone(),
+            reservoir: by(Role::ReservoirProcess).collect(),
+        })
+    }
+
+    fn settings(
+        &self,
+        file: &ScenarioFile,
+        body: &Body,
+    ) -> Result<(RunConfig, RunPlan), ScenarioError> {
+        let r = &file.run;
+        let o = &file.outputs;
+        let mut c = RunConfig::for_body(body);
+        c.dt = self.positive("run.dt", self.q_or("run.dt", &r.dt, "300 s", Kind::Time)?, "s")?;
+        let duration =
+            self.positive("run.duration", self.q("run.duration", &r.duration, Kind::Time)?, "s")?;
+        let spin_up = self.q_or("run.spin_up", &r.spin_up, "0 s", Kind::Time)?;
+        let steps_of = |t: f64| (t / c.dt).round() as u64;
+        let steps = steps_of(duration);
+        if steps == 0 {
+            return Err(self.err("run.duration", "is shorter than one time step `run.dt`"));
+        }
+        let spin_up_steps = steps_of(spin_up);
+        if !(spin_up >= 0.0) || spin_up_steps >= steps {
+            return Err(self.err(
+                "run.spin_up",
+                format!("must lie in [0, duration): got {spin_up} s of {duration} s"),
+            ));
+        }
+        c.seed = r.seed.unwrap_or(1);
+        c.target_in_flight = r.particles.unwrap_or(100_000);
+        if !(100..=100_000_000).contains(&c.target_in_flight) {
+            return Err(self.err("run.particles", "use between 100 and 100000000 particles"));
+        }
+        c.threads = match r.threads.unwrap_or(0) {
+            0 => std::thread::available_parallelism().map_or(1, |n| n.get()),
+            n => n,
+        };
+        c.radiation_pressure = r.radiation_pressure.unwrap_or(false);
+        let radii = r.boundary_radii.unwrap_or(20.0);
+        if !(radii > 1.0 && radii.is_finite()) {
+            return Err(self.err("run.boundary_radii", "must exceed 1 (body radii)"));
+        }
+        c.boundary_radius = radii * body.radius;
+        let checkpoint_steps = match &r.checkpoint_every {
+            None => None,
+            Some(t) => {
+                let dt = self.positive(
+                    "run.checkpoint_every",
+                    self.q("run.checkpoint_every", t, Kind::Time)?,
+                    "s",
+                )?;
+                Some(steps_of(dt).max(1))
+            }
+        };
+        c.alt_edges = match &o.altitude_edges {
+            None => DEFAULT_ALTITUDE_EDGES_KM.iter().map(|k| k * 1.0e3).collect(),
+            Some(list) => {
+                let f = quantity::parse(&format!("1 {}", list.unit), Kind::Length)
+                    .map_err(|m| self.err("outputs.altitude_edges.unit", m))?;
+                list.values.iter().map(|v| v * f).collect()
+            }
+        };
+        if c.alt_edges.len() < 2
+            || c.alt_edges[0] < 0.0
+            || c.alt_edges.windows(2).any(|w| !(w[1] > w[0]))
+        {
+            return Err(
+                self.err("outputs.altitude_edges", "need at least two edges, increasing from >= 0")
+            );
+        }
+        c.n_local_time = o.local_time_bins.unwrap_or(24);
+        c.n_latitude = o.latitude_bins.unwrap_or(18);
+        if !(4..=1440).contains(&c.n_local_time) || !(2..=720).contains(&c.n_latitude) {
+            return Err(self.err(
+                "outputs.local_time_bins / latitude_bins",
+                "use 4-1440 local-time bins and 2-720 latitude bins",
+            ));
+        }
+        let window = self.positive(
+            "outputs.window",
+            self.q_or("outputs.window", &o.window, "1 d", Kind::Time)?,
+            "s",
+        )?;
+        let window_steps = steps_of(window).max(1);
+        let band = self.q_or("outputs.equator_band", &o.equator_band, "10 deg", Kind::Angle)?;
+        if !(band > 0.0 && band < core::f64::consts::FRAC_PI_2) {
+            return Err(self.err("outputs.equator_band", "must lie in (0, 90) deg"));
+        }
+        let names = o
+            .products
+            .clone()
+            .unwrap_or_else(|| vec!["netcdf".to_string(), "csv".to_string(), "plots".to_string()]);
+        let mut products = Products { netcdf: false, csv: false, plots: false };
+        for n in &names {
+            match n.as_str() {
+                "netcdf" => products.netcdf = true,
+                "csv" => products.csv = true,
+                "plots" => products.plots = true,
+                other => {
+                    return Err(self.err(
+                        "outputs.products",
+                        keys::unknown_message(other, &["netcdf", "csv", "plots"], "product"),
+                    ));
+                }
+            }
+        }
+        Ok((
+            c,
+            RunPlan {
+                steps,
+                spin_up_steps,
+                window_steps,
+                checkpoint_steps,
+                equator_band: band,
+                products,
+            },
+        ))
+    }
+}
+
+/// Default altitude bin edges of the density tally, km: fine near the
+/// surface, where the cold component lives, coarser above.
+pub const DEFAULT_ALTITUDE_EDGES_KM: [f64; 16] = [
+    0.0, 25.0, 50.0, 100.0, 150.0, 200.0, 300.0, 400.0, 500.0, 700.0, 1000.0, 1300.0, 1600.0,
+    2000.0, 2500.0, 3000.0,
+];
+
+/// Directory of the standard modules: `$EXOBOUND_MODULE_DIR` if set, else
+/// where the build placed them.
+pub fn standard_module_dir() -> PathBuf {
+    std::env::var_os("EXOBOUND_MODULE_DIR")
+        .map(PathBuf::from)
+        .unwrap_or_else(crate::standard_module_dir)
+}
