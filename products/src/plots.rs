@@ -272,7 +272,9 @@ pub fn draw_lines(plot: &LinePlot, path: &Path) -> Result<(), ProductError> {
             [lower, l.y[i] + e]
         })
     });
-    let (y0, y1) = finite_extent(ys.map(ycoord)).unwrap_or((0.0, 1.0));
+    let y_extent = finite_extent(ys.map(ycoord));
+    let any_point = y_extent.is_some();
+    let (y0, y1) = y_extent.unwrap_or((0.0, 1.0));
     let (y0, y1) = widen((y0, y1), if plot.log_y { 0.5 } else { y0.abs().max(1.0) * 0.5 });
     let pad = 0.05 * (y1 - y0);
     let (y0, y1) = (y0 - pad, y1 + pad);
@@ -378,7 +380,14 @@ pub fn draw_lines(plot: &LinePlot, path: &Path) -> Result<(), ProductError> {
         chart.draw_series([border])?;
         axis_text(&chart, &xa, &ya, &plot.x_label, &plot.y_label, labels);
 
-        let (_, py) = chart.plotting_area().get_pixel_range();
+        let (px, py) = chart.plotting_area().get_pixel_range();
+        if !any_point {
+            let centre = (f64::from(px.start + px.end) / 2.0, f64::from(py.start + py.end) / 2.0);
+            labels.push(
+                Label::new("no data", centre, AXIS_LABEL_SIZE, SOFT_INK_RGB)
+                    .anchored(Align::Middle, Baseline::Middle),
+            );
+        }
         key(root, &plot.lines, (w - KEY_PANEL) as i32 + 8, py.start + 4, labels)?;
         Ok(())
     })
