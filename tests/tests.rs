@@ -9,6 +9,8 @@ mod abi_equivalence;
 mod cache;
 mod engine;
 mod parameters;
+mod run_outputs;
 mod sandbox;
 mod scaffold;
+mod scenario_errors;
 mod standard_modules;

@@ -34,7 +34,15 @@ pub fn dataset(
     ds.set_attribute("species", scenario.model.species.name.clone());
     ds.set_attribute("seed", scenario.config.seed as f64);
     ds.set_attribute("scenario_origin", prov.scenario_origin.clone());
-    ds.set_attribute("overrides", prov.overrides.join("; "));
+    // The thread count never changes the results, so it is left out here
+    // (provenance.json keeps every override as given).
+    let overrides: Vec<&str> = prov
+        .overrides
+        .iter()
+        .map(String::as_str)
+        .filter(|o| !o.trim_start().starts_with("run.threads"))
+        .collect();
+    ds.set_attribute("overrides", overrides.join("; "));
     let modules: Vec<String> = prov
         .modules
         .iter()

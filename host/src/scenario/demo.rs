@@ -46,7 +46,7 @@ name = "sodium"
 
 [surface]
 {grid}
-adsorbed = "2e10 cm^-2"
+adsorbed = "1e11 cm^-2"
 bulk_map = "{BULK_MAP}"
 
 [surface.temperature]
