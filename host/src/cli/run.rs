@@ -99,10 +99,10 @@ pub fn run(args: RunArgs) -> Result<()> {
     match outcome {
         Outcome::Finished { dir } => {
             println!("wrote {}", dir.display());
-            if let Ok(text) = std::fs::read_to_string(dir.join("summary.json")) {
-                if let Ok(v) = serde_json::from_str::<serde_json::Value>(&text) {
-                    print_headline(&v);
-                }
+            if let Ok(text) = std::fs::read_to_string(dir.join("summary.json"))
+                && let Ok(v) = serde_json::from_str::<serde_json::Value>(&text)
+            {
+                print_headline(&v);
             }
             Ok(())
         }

@@ -204,10 +204,11 @@ fn drive(
         {
             record.close_window(&mut sim, plan);
         }
-        if let Some(every) = plan.checkpoint_steps {
-            if s % every == 0 && s < plan.steps {
-                save(&sim, &record, wall_before + clock.elapsed().as_secs_f64())?;
-            }
+        if let Some(every) = plan.checkpoint_steps
+            && s.is_multiple_of(every)
+            && s < plan.steps
+        {
+            save(&sim, &record, wall_before + clock.elapsed().as_secs_f64())?;
         }
         if let Some(p) = session.progress.as_mut() {
             p(&Progress {

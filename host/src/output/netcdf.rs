@@ -161,7 +161,8 @@ pub fn dataset(
         format!("{sp} lost in flight above each cell, run average"),
     ));
 
-    let series: [(&str, &str, &str, fn(&crate::driver::WindowRecord) -> f64); 12] = [
+    type Pick = fn(&crate::driver::WindowRecord) -> f64;
+    let series: [(&str, &str, &str, Pick); 12] = [
         ("content", "1", "atoms in flight, window mean", |w| w.content),
         ("sunlit_content", "1", "atoms in flight and in sunlight, window mean", |w| {
             w.sunlit_content

@@ -70,7 +70,7 @@ impl Summary {
         };
         // Peak of the adsorbed reservoir (final state).
         let grid = &scenario.model.grid;
-        let (gl, gm) = (grid.n_lat(), grid.n_lon());
+        let gl = grid.n_lat();
         let (mut kmax, mut vmax) = (0, f64::NEG_INFINITY);
         for (k, &v) in f.reservoir.iter().enumerate() {
             if v > vmax {
@@ -83,7 +83,6 @@ impl Summary {
         let lt_of = |lon_deg: f64| {
             scenario.model.sun.local_time_hours(&scenario.model.body, lon_deg.to_radians(), t_end)
         };
-        let _ = gm;
         // Peak of the near-surface density (lowest altitude bin).
         let (n_lt, n_lat) = (f.local_time_h.len(), f.latitude_deg.len());
         let low = &f.density[..n_lt * n_lat];

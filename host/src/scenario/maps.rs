@@ -162,13 +162,8 @@ impl SurfaceMap {
             (0, 0, 0.0)
         } else {
             let j = lons.partition_point(|&x| x <= lon);
-            let (a, b) = if j == 0 {
-                (nm - 1, 0)
-            } else if j == nm {
-                (nm - 1, 0)
-            } else {
-                (j - 1, j)
-            };
+            // Before the first column or after the last: between the last and the first + 360.
+            let (a, b) = if j == 0 || j == nm { (nm - 1, 0) } else { (j - 1, j) };
             let (xa, mut xb) = (lons[a], lons[b]);
             if xb <= xa {
                 xb += 360.0;

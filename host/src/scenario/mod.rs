@@ -401,7 +401,7 @@ impl Validator<'_> {
                 ));
             }
         };
-        if b.name.to_ascii_lowercase() != "custom" {
+        if !b.name.eq_ignore_ascii_case("custom") {
             for (k, v) in [
                 ("gm", &b.gm),
                 ("radius", &b.radius),

@@ -76,10 +76,10 @@ impl Kind {
 /// (units normalised to single spaces). `None` if no number leads.
 pub fn split(text: &str) -> Option<(f64, String)> {
     let t = text.trim();
-    if let Some((num, unit)) = t.split_once(char::is_whitespace) {
-        if let Ok(x) = num.parse::<f64>() {
-            return Some((x, normalise_unit(unit)));
-        }
+    if let Some((num, unit)) = t.split_once(char::is_whitespace)
+        && let Ok(x) = num.parse::<f64>()
+    {
+        return Some((x, normalise_unit(unit)));
     }
     // No space: the longest leading part that parses as a number.
     let cut = (1..=t.len())

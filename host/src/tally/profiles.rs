@@ -34,7 +34,7 @@ pub fn equatorial_bins(n_lat: usize, band: f64) -> Vec<usize> {
     if !inside.is_empty() {
         return inside;
     }
-    if n_lat % 2 == 0 { vec![n_lat / 2 - 1, n_lat / 2] } else { vec![n_lat / 2] }
+    if n_lat.is_multiple_of(2) { vec![n_lat / 2 - 1, n_lat / 2] } else { vec![n_lat / 2] }
 }
 
 /// Area-weighted mean column in the equatorial band, per local-time bin,
