@@ -16,6 +16,7 @@ pub mod driver;
 pub mod engine;
 pub mod environment;
 pub mod modbuild;
+pub mod observe;
 pub mod output;
 pub mod particles;
 pub mod runtime;

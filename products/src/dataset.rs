@@ -26,6 +26,15 @@ impl AttrValue {
             _ => None,
         }
     }
+
+    /// The number, if this is a single-number attribute (or a list of one).
+    pub fn as_number(&self) -> Option<f64> {
+        match self {
+            AttrValue::Number(x) => Some(*x),
+            AttrValue::Numbers(v) if v.len() == 1 => Some(v[0]),
+            _ => None,
+        }
+    }
 }
 
 impl From<&str> for AttrValue {

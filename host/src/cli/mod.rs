@@ -33,6 +33,17 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         write: PathBuf,
     },
+    /// Lines of sight through a finished run: columns, brightness, a slit profile and an image.
+    Observe {
+        /// The output directory of a finished `exobound run`.
+        run_dir: PathBuf,
+        /// The view file (TOML): a [distant] observer or an [orbiter], see docs/observe.md.
+        #[arg(long, value_name = "VIEW.toml")]
+        view: PathBuf,
+        /// Output directory (default: RUN_DIR-observe).
+        #[arg(long, value_name = "DIR")]
+        out: Option<PathBuf>,
+    },
     /// Work with process modules: inspect, scaffold and build them.
     Module {
         #[command(subcommand)]
@@ -100,6 +111,20 @@ fn dispatch(cli: Cli) -> Result<()> {
                 println!("wrote {}", f.display());
             }
             println!("next: exobound run {} --out demo-output", write.join("demo.toml").display());
+            Ok(())
+        }
+        Command::Observe { run_dir, view, out } => {
+            let out = out.unwrap_or_else(|| exobound::observe::default_out(&run_dir));
+            let obs =
+                exobound::observe::observe(&run_dir, &view, &out).map_err(anyhow::Error::msg)?;
+            println!(
+                "{} lines of sight; peak brightness {:.4e} R (g = {:.3} photons/s/atom, {})",
+                obs.samples.len(),
+                obs.peak_brightness_r,
+                obs.g_factor,
+                obs.g_factor_origin
+            );
+            println!("wrote {}", out.display());
             Ok(())
         }
         Command::Module { action } => match action {

@@ -33,6 +33,14 @@ pub fn dataset(
     ds.set_attribute("body", scenario.model.body.name.clone());
     ds.set_attribute("species", scenario.model.species.name.clone());
     ds.set_attribute("seed", scenario.config.seed as f64);
+    // Geometry and illumination that lines of sight (`exobound observe`) need.
+    let body = &sim.model().body;
+    ds.set_attribute("body_radius_km", body.radius / 1e3);
+    ds.set_attribute("heliocentric_distance_au", body.orbit.distance_au(sim.time()));
+    ds.set_attribute(
+        "heliocentric_radial_velocity_km_s",
+        body.orbit.radial_velocity(sim.time()) / 1e3,
+    );
     ds.set_attribute("scenario_origin", prov.scenario_origin.clone());
     // The thread count never changes the results, so it is left out here
     // (provenance.json keeps every override as given).

@@ -169,7 +169,21 @@ mod tests {
     #[test]
     fn the_demo_map_parses_and_peaks_at_the_patch() {
         let m = maps::parse(&bulk_map_text(), "demo", "bulk_abundance", "1").unwrap();
-        assert!((m.at(25.0, 310.0) - 2.5).abs() < 0.05);
+        // The grid nodes sit at cell centres (22.5 and 27.5 N, 307.5 and
+        // 312.5 E around the patch), so at a node the map holds the gaussian
+        // 1 + 1.5 exp(-d^2 / (2 * 12^2)) of its great-circle distance d,
+        // rounded to 1e-4.
+        let node = |lat: f64, lon: f64| {
+            let d = great_circle_deg(lat, lon, 25.0, 310.0);
+            1.0 + 1.5 * (-(d * d) / (2.0 * 144.0)).exp()
+        };
+        for (lat, lon) in [(27.5, 312.5), (22.5, 307.5), (-87.5, 2.5)] {
+            assert!((m.at(lat, lon) - node(lat, lon)).abs() <= 0.5e-4, "{lat} {lon}");
+        }
+        // Between the four nodes around the patch centre, bilinear
+        // interpolation returns a value among theirs, below the true peak.
+        let centre = m.at(25.0, 310.0);
+        assert!(centre > 2.4 && centre < 2.5, "{centre}");
         assert!((m.at(-60.0, 100.0) - 1.0).abs() < 1e-3);
     }
 

@@ -32,7 +32,7 @@ pub fn parse_file(
 }
 
 /// A toml error as `origin:line:column: message`, unknown keys with a suggestion.
-fn describe(origin: &str, text: &str, e: &toml::de::Error) -> String {
+pub(crate) fn describe(origin: &str, text: &str, e: &toml::de::Error) -> String {
     let msg = suggest(e.message());
     match e.span() {
         Some(span) => {

@@ -26,6 +26,8 @@ pub enum Kind {
     HelioDistance,
     /// A gravitational parameter GM; internal unit m^3 s^-2.
     GravParameter,
+    /// A speed; internal unit m s^-1.
+    Speed,
 }
 
 impl Kind {
@@ -40,6 +42,7 @@ impl Kind {
             Kind::Flux => &[("cm^-2 s^-1", 1.0), ("m^-2 s^-1", 1.0e-4)],
             Kind::HelioDistance => &[("AU", 1.0)],
             Kind::GravParameter => &[("m^3 s^-2", 1.0), ("km^3 s^-2", 1.0e9)],
+            Kind::Speed => &[("m/s", 1.0), ("km/s", 1.0e3), ("m s^-1", 1.0), ("km s^-1", 1.0e3)],
         }
     }
 
@@ -54,6 +57,7 @@ impl Kind {
             Kind::Flux => "cm^-2 s^-1",
             Kind::HelioDistance => "AU",
             Kind::GravParameter => "m^3 s^-2",
+            Kind::Speed => "m s^-1",
         }
     }
 
@@ -68,6 +72,7 @@ impl Kind {
             Kind::Flux => "flux",
             Kind::HelioDistance => "heliocentric distance",
             Kind::GravParameter => "gravitational parameter",
+            Kind::Speed => "speed",
         }
     }
 }

@@ -161,7 +161,9 @@ mod tests {
         assert_eq!(shift_from_subsolar_deg(10.0), -30.0);
         assert_eq!(shift_direction(-30.0), "dawn");
         assert_eq!(shift_from_subsolar_deg(14.0), 30.0);
-        assert_eq!(shift_from_subsolar_deg(0.5), 172.5);
+        // Near midnight the shift wraps into (-180, 180]: 00:30 is 11.5 h
+        // before noon (dawnward, -172.5 deg), 23:30 is 11.5 h after it.
+        assert_eq!(shift_from_subsolar_deg(0.5), -172.5);
         assert_eq!(shift_from_subsolar_deg(23.5), 172.5);
     }
 

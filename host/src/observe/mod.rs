@@ -1,0 +1,420 @@
+//! What an instrument sees: columns and brightness along lines of sight
+//! through a finished run's exosphere.
+//!
+//! Why this exists: models are judged against what telescopes and
+//! spacecraft measure, which is brightness integrated along a line of
+//! sight, not density at a point. `exobound observe RUN_DIR --view
+//! VIEW.toml --out DIR` reads the run's density field (`exosphere.nc`),
+//! casts the view's lines of sight through it ([`sightline`]), converts
+//! columns to rayleighs with a g-factor ([`gfactor`]) and writes a table,
+//! an image NetCDF, plots and a provenance record. The field is the run's
+//! time average; the brightness assumes an optically thin exosphere.
+
+pub mod field;
+pub mod gfactor;
+pub mod sightline;
+pub mod view;
+
+use std::path::{Path, PathBuf};
+
+use exobound_products::{
+    Dataset, Line, LinePlot, LineStyle, MapPlot, Variable, draw_lines, draw_map,
+};
+use serde::Serialize;
+
+use crate::output::{PROVENANCE_FILE, Staging, atomic_write};
+use crate::vec3;
+use field::DensityField;
+use gfactor::{GFactorTable, brightness_rayleigh};
+use sightline::{Cuts, Ray, column};
+use view::{Distant, Geometry, Orbiter, View};
+
+/// Sub-lines per side of a square aperture.
+const APERTURE_SUBLINES: usize = 5;
+
+/// One line of sight (or aperture) and what it sees.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Sample {
+    /// Altitude above the limb (distant) or tangent altitude (orbiter
+    /// limb), km; NaN for a nadir look.
+    pub altitude_km: f64,
+    /// Look elevation above the local horizon at the spacecraft, deg
+    /// (orbiter only; NaN for a distant observer).
+    pub elevation_deg: f64,
+    /// Column along the line, atoms cm^-2.
+    pub column_cm2: f64,
+    /// Brightness 4 pi I, rayleigh.
+    pub brightness_r: f64,
+}
+
+/// Everything `observe` computed.
+#[derive(Clone, Debug, Serialize)]
+pub struct Observation {
+    /// The run directory read.
+    pub run_dir: String,
+    /// The view file read.
+    pub view_file: String,
+    /// Species, from the run.
+    pub species: String,
+    /// g-factor used, photons s^-1 atom^-1.
+    pub g_factor: f64,
+    /// Where g came from.
+    pub g_factor_origin: String,
+    /// Heliocentric radial velocity used, km s^-1.
+    pub radial_velocity_km_s: f64,
+    /// Heliocentric distance used, AU.
+    pub heliocentric_distance_au: f64,
+    /// "distant" or "orbiter".
+    pub geometry: String,
+    /// Phase angle, deg (distant only).
+    pub phase_angle_deg: Option<f64>,
+    /// Slit position angle from projected north towards the image's right, deg.
+    pub slit_position_angle_deg: Option<f64>,
+    /// The slit or scan samples.
+    pub samples: Vec<Sample>,
+    /// Brightest sample, rayleigh.
+    pub peak_brightness_r: f64,
+    /// A reminder of what the numbers are.
+    pub caution: String,
+}
+
+/// A distant observer's image: pixel centres (km on the sky plane) and columns.
+#[derive(Clone, Debug)]
+pub struct Image {
+    /// Pixel-centre coordinates along each axis, km.
+    pub axis_km: Vec<f64>,
+    /// Column per pixel, atoms cm^-2, row-major [y][x].
+    pub column_cm2: Vec<f64>,
+}
+
+/// The mean column through a square aperture of side `aperture` (m) centred
+/// at sky point `c` (m), seen along `-to_observer` from far away.
+fn distant_column(field: &DensityField, d: &Distant, c: vec3::Vec3, cuts: &mut Cuts) -> f64 {
+    let far = 4.0 * field.top_radius();
+    let ray_at = |p: vec3::Vec3| Ray {
+        origin: vec3::add_scaled(p, d.to_observer, far),
+        direction: vec3::scale(d.to_observer, -1.0),
+    };
+    if d.aperture <= 0.0 {
+        return column(field, &ray_at(c), cuts);
+    }
+    let n = APERTURE_SUBLINES;
+    let mut sum = 0.0;
+    for a in 0..n {
+        for b in 0..n {
+            let u = ((a as f64 + 0.5) / n as f64 - 0.5) * d.aperture;
+            let v = ((b as f64 + 0.5) / n as f64 - 0.5) * d.aperture;
+            let p = vec3::add(vec3::add_scaled(c, d.right, u), vec3::scale(d.up, v));
+            sum += column(field, &ray_at(p), cuts);
+        }
+    }
+    sum / (n * n) as f64
+}
+
+/// Slit samples of a distant observer (columns only; brightness added later).
+pub fn distant_slit(field: &DensityField, d: &Distant) -> Vec<(f64, f64)> {
+    let mut cuts = Cuts::default();
+    let dir = vec3::add(
+        vec3::scale(d.up, d.position_angle.cos()),
+        vec3::scale(d.right, d.position_angle.sin()),
+    );
+    d.altitudes
+        .iter()
+        .map(|&h| {
+            let c = vec3::scale(dir, field.radius + h);
+            (h, distant_column(field, d, c, &mut cuts))
+        })
+        .collect()
+}
+
+/// The image of a distant observer (single lines through pixel centres).
+pub fn distant_image(field: &DensityField, d: &Distant) -> Image {
+    let n = d.image_pixels;
+    let w = d.image_half_width;
+    let axis: Vec<f64> = (0..n).map(|i| -w + 2.0 * w * (i as f64 + 0.5) / n as f64).collect();
+    let point = Distant { aperture: 0.0, ..d.clone() };
+    let mut cuts = Cuts::default();
+    let mut col = Vec::with_capacity(n * n);
+    for &y in &axis {
+        for &x in &axis {
+            let c = vec3::add(vec3::scale(d.right, x), vec3::scale(d.up, y));
+            col.push(distant_column(field, &point, c, &mut cuts));
+        }
+    }
+    Image { axis_km: axis.iter().map(|a| a / 1e3).collect(), column_cm2: col }
+}
+
+/// Columns seen by an orbiter: (tangent altitude m or NaN, elevation deg, column).
+pub fn orbiter_looks(field: &DensityField, o: &Orbiter) -> Vec<(f64, f64, f64)> {
+    let mut cuts = Cuts::default();
+    let up = vec3::normalize(o.position);
+    o.looks
+        .iter()
+        .map(|(ht, d)| {
+            let elev = vec3::dot(*d, up).clamp(-1.0, 1.0).asin().to_degrees();
+            let c = column(field, &Ray { origin: o.position, direction: *d }, &mut cuts);
+            (ht.unwrap_or(f64::NAN), elev, c)
+        })
+        .collect()
+}
+
+/// Run `observe`: read the run in `run_dir` and the view in `view_path`,
+/// write the products into `out` (staged, renamed when complete).
+pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observation, String> {
+    let nc = run_dir.join("exosphere.nc");
+    if !nc.is_file() {
+        return Err(format!(
+            "`{}` has no exosphere.nc; give the output directory of a finished `exobound run`",
+            run_dir.display()
+        ));
+    }
+    let ds = exobound_products::read_netcdf(&nc).map_err(|e| format!("`{}`: {e}", nc.display()))?;
+    let field = DensityField::from_dataset(&ds, &nc)?;
+    let view = view::read(view_path, field.radius)?;
+    let attr_num = |k: &str| ds.attribute(k).and_then(|a| a.as_number());
+    let species = ds.attribute("species").and_then(|a| a.as_text()).unwrap_or("Na").to_string();
+    let table = match &view.g_factor_table {
+        Some(p) => GFactorTable::read(p)?,
+        None => {
+            GFactorTable::built_in(&species).map_err(|e| format!("{}: {e}", view_path.display()))?
+        }
+    };
+    let r_au = view.heliocentric_distance.or(attr_num("heliocentric_distance_au")).ok_or(
+        "the run records no heliocentric distance; set [brightness] heliocentric_distance",
+    )?;
+    let v_km_s = view
+        .radial_velocity
+        .map(|v| v / 1e3)
+        .or(attr_num("heliocentric_radial_velocity_km_s"))
+        .unwrap_or(0.0);
+    let g = table.at(v_km_s, r_au).map_err(|e| format!("{}: {e}", view_path.display()))?;
+
+    let staging = Staging::create(out)?;
+    let result = (|| {
+        let obs = compute_and_write(staging.dir(), &field, &view, g, &table, r_au, v_km_s).map(
+            |(samples, geometry, phase, pa)| Observation {
+                run_dir: run_dir.display().to_string(),
+                view_file: view_path.display().to_string(),
+                species: species.clone(),
+                g_factor: g,
+                g_factor_origin: table.origin.clone(),
+                radial_velocity_km_s: v_km_s,
+                heliocentric_distance_au: r_au,
+                geometry,
+                phase_angle_deg: phase,
+                slit_position_angle_deg: pa,
+                peak_brightness_r: samples.iter().map(|s| s.brightness_r).fold(0.0, f64::max),
+                samples,
+                caution: "Model output: a scientific estimate from a Monte Carlo model, not \
+                          flight-operations data."
+                    .into(),
+            },
+        )?;
+        let json = serde_json::to_vec_pretty(&obs).map_err(|e| e.to_string())?;
+        let dir = staging.dir();
+        atomic_write(&dir.join("observation.json"), &json).map_err(|e| e.to_string())?;
+        let prov = serde_json::json!({
+            "engine": "exobound",
+            "engine_version": env!("CARGO_PKG_VERSION"),
+            "command": "observe",
+            "run_dir": run_dir.display().to_string(),
+            "run_provenance": std::fs::read_to_string(run_dir.join(PROVENANCE_FILE))
+                .ok()
+                .and_then(|t| serde_json::from_str::<serde_json::Value>(&t).ok()),
+            "view_file": view_path.display().to_string(),
+            "view_text": std::fs::read_to_string(view_path).unwrap_or_default(),
+            "g_factor_origin": table.origin,
+        });
+        let json = serde_json::to_vec_pretty(&prov).map_err(|e| e.to_string())?;
+        atomic_write(&dir.join(PROVENANCE_FILE), &json).map_err(|e| e.to_string())?;
+        Ok(obs)
+    })();
+    match result {
+        Ok(obs) => {
+            staging.finish()?;
+            Ok(obs)
+        }
+        Err(e) => {
+            staging.discard();
+            Err(e)
+        }
+    }
+}
+
+type Computed = (Vec<Sample>, String, Option<f64>, Option<f64>);
+
+fn compute_and_write(
+    dir: &Path,
+    field: &DensityField,
+    view: &View,
+    g: f64,
+    table: &GFactorTable,
+    r_au: f64,
+    v_km_s: f64,
+) -> Result<Computed, String> {
+    let plots = dir.join("plots");
+    std::fs::create_dir_all(&plots).map_err(|e| e.to_string())?;
+    let e = |r: Result<(), exobound_products::ProductError>| r.map_err(|e| e.to_string());
+    let g_note = format!("g = {g:.3} photons/s/atom at {r_au:.3} AU, {v_km_s:.2} km/s");
+    match &view.geometry {
+        Geometry::Distant(d) => {
+            let samples: Vec<Sample> = distant_slit(field, d)
+                .into_iter()
+                .map(|(h, c)| Sample {
+                    altitude_km: h / 1e3,
+                    elevation_deg: f64::NAN,
+                    column_cm2: c,
+                    brightness_r: brightness_rayleigh(g, c),
+                })
+                .collect();
+            let mut csv = String::from(
+                "# exobound observe: distant observer, slit above the limb\n\
+                 altitude_above_limb_km,column_cm-2,brightness_R\n",
+            );
+            for s in &samples {
+                csv.push_str(&format!(
+                    "{},{:e},{:e}\n",
+                    s.altitude_km, s.column_cm2, s.brightness_r
+                ));
+            }
+            atomic_write(&dir.join("brightness.csv"), csv.as_bytes()).map_err(|e| e.to_string())?;
+            e(draw_lines(
+                &LinePlot {
+                    title: format!(
+                        "{}: brightness above the limb, phase {:.0} deg",
+                        view.title,
+                        d.phase_angle.to_degrees()
+                    ),
+                    x_label: "altitude above the limb (km)".into(),
+                    y_label: "brightness 4 pi I (R)".into(),
+                    lines: vec![Line {
+                        label: g_note.clone(),
+                        x: samples.iter().map(|s| s.altitude_km).collect(),
+                        y: samples.iter().map(|s| s.brightness_r).collect(),
+                        y_err: None,
+                        style: LineStyle::Solid,
+                    }],
+                    markers: vec![],
+                    log_y: true,
+                    x_range: None,
+                    x_ticks: None,
+                },
+                &plots.join("brightness_altitude.png"),
+            ))?;
+            let img = distant_image(field, d);
+            let n = img.axis_km.len();
+            let step = img.axis_km.get(1).map_or(1.0, |b| b - img.axis_km[0]);
+            let edges: Vec<f64> =
+                (0..=n).map(|i| img.axis_km[0] - 0.5 * step + step * i as f64).collect();
+            let bright: Vec<f64> =
+                img.column_cm2.iter().map(|&c| brightness_rayleigh(g, c)).collect();
+            e(draw_map(
+                &MapPlot {
+                    title: format!("{}: brightness image ({})", view.title, g_note),
+                    x_label: "sky offset to the right, dusk side (km)".into(),
+                    y_label: "sky offset to projected north (km)".into(),
+                    x_edges: edges.clone(),
+                    y_edges: edges,
+                    values: bright.clone(),
+                    colour_label: "4 pi I (R)".into(),
+                    log_scale: true,
+                    x_ticks: None,
+                    y_ticks: None,
+                },
+                &plots.join("disk_image.png"),
+            ))?;
+            let mut ds = Dataset::new(&format!("{} (image)", view.title));
+            ds.set_attribute(
+                "comment",
+                "Model output: a scientific estimate, not flight-operations data.",
+            );
+            ds.set_attribute("g_factor_photons_per_s_per_atom", g);
+            ds.set_attribute("g_factor_origin", table.origin.clone());
+            ds.set_attribute("phase_angle_deg", d.phase_angle.to_degrees());
+            ds.add_coordinate(Variable::coordinate(
+                "x",
+                img.axis_km.clone(),
+                "km",
+                "sky offset towards the image's right (dusk side)",
+            ));
+            ds.add_coordinate(Variable::coordinate(
+                "y",
+                img.axis_km.clone(),
+                "km",
+                "sky offset towards the projected north pole",
+            ));
+            ds.add_variable(
+                Variable::new("column", &["y", "x"], img.column_cm2.clone(), "cm-2")
+                    .with("long_name", "line-of-sight column"),
+            );
+            ds.add_variable(
+                Variable::new("brightness", &["y", "x"], bright, "R")
+                    .with("long_name", "brightness 4 pi I (optically thin)"),
+            );
+            exobound_products::write_netcdf(&ds, &dir.join("image.nc"))
+                .map_err(|e| e.to_string())?;
+            Ok((
+                samples,
+                "distant".into(),
+                Some(d.phase_angle.to_degrees()),
+                Some(d.position_angle.to_degrees()),
+            ))
+        }
+        Geometry::Orbiter(o) => {
+            let samples: Vec<Sample> = orbiter_looks(field, o)
+                .into_iter()
+                .map(|(h, el, c)| Sample {
+                    altitude_km: h / 1e3,
+                    elevation_deg: el,
+                    column_cm2: c,
+                    brightness_r: brightness_rayleigh(g, c),
+                })
+                .collect();
+            let mut csv = String::from(
+                "# exobound observe: orbiter looks (tangent altitude empty for nadir)\n\
+                 tangent_altitude_km,elevation_deg,column_cm-2,brightness_R\n",
+            );
+            for s in &samples {
+                let h = if s.altitude_km.is_finite() {
+                    s.altitude_km.to_string()
+                } else {
+                    String::new()
+                };
+                csv.push_str(&format!(
+                    "{h},{},{:e},{:e}\n",
+                    s.elevation_deg, s.column_cm2, s.brightness_r
+                ));
+            }
+            atomic_write(&dir.join("brightness.csv"), csv.as_bytes()).map_err(|e| e.to_string())?;
+            if samples.len() > 1 {
+                e(draw_lines(
+                    &LinePlot {
+                        title: format!("{}: limb scan from {:.0} km", view.title, o.altitude / 1e3),
+                        x_label: "tangent altitude (km)".into(),
+                        y_label: "brightness 4 pi I (R)".into(),
+                        lines: vec![Line {
+                            label: g_note,
+                            x: samples.iter().map(|s| s.altitude_km).collect(),
+                            y: samples.iter().map(|s| s.brightness_r).collect(),
+                            y_err: None,
+                            style: LineStyle::Solid,
+                        }],
+                        markers: vec![],
+                        log_y: true,
+                        x_range: None,
+                        x_ticks: None,
+                    },
+                    &plots.join("brightness_altitude.png"),
+                ))?;
+            }
+            Ok((samples, "orbiter".into(), None, None))
+        }
+    }
+}
+
+/// The default output directory of `observe`: `<run_dir>-observe`.
+pub fn default_out(run_dir: &Path) -> PathBuf {
+    let mut s = run_dir.as_os_str().to_owned();
+    s.push("-observe");
+    PathBuf::from(s)
+}
