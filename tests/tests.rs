@@ -8,6 +8,7 @@ mod support;
 mod abi_equivalence;
 mod cache;
 mod engine;
+mod observe_compare;
 mod parameters;
 mod run_outputs;
 mod sandbox;

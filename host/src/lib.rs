@@ -12,6 +12,7 @@
 
 pub mod body;
 pub mod checkpoint;
+pub mod compare;
 pub mod driver;
 pub mod engine;
 pub mod environment;

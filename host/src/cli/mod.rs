@@ -4,6 +4,7 @@
 //! subcommand maps to one library call; errors are printed with their
 //! cause chain and mapped to exit codes (0 success, 1 failure, 2 usage).
 
+mod compare;
 mod run;
 
 use std::ffi::OsString;
@@ -33,6 +34,8 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         write: PathBuf,
     },
+    /// Run variants side by side with common seeds, and tabulate the differences against the noise.
+    Compare(compare::CompareArgs),
     /// Lines of sight through a finished run: columns, brightness, a slit profile and an image.
     Observe {
         /// The output directory of a finished `exobound run`.
@@ -113,6 +116,7 @@ fn dispatch(cli: Cli) -> Result<()> {
             println!("next: exobound run {} --out demo-output", write.join("demo.toml").display());
             Ok(())
         }
+        Command::Compare(args) => compare::run(args),
         Command::Observe { run_dir, view, out } => {
             let out = out.unwrap_or_else(|| exobound::observe::default_out(&run_dir));
             let obs =

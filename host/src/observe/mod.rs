@@ -310,13 +310,13 @@ fn compute_and_write(
                 img.column_cm2.iter().map(|&c| brightness_rayleigh(g, c)).collect();
             e(draw_map(
                 &MapPlot {
-                    title: format!("{}: brightness image ({})", view.title, g_note),
-                    x_label: "sky offset to the right, dusk side (km)".into(),
+                    title: format!("{}: brightness image", view.title),
+                    x_label: "sky offset to the observer's right (km)".into(),
                     y_label: "sky offset to projected north (km)".into(),
                     x_edges: edges.clone(),
                     y_edges: edges,
                     values: bright.clone(),
-                    colour_label: "4 pi I (R)".into(),
+                    colour_label: "4 pi I (R), g-factor in observation.json".into(),
                     log_scale: true,
                     x_ticks: None,
                     y_ticks: None,
@@ -335,7 +335,7 @@ fn compute_and_write(
                 "x",
                 img.axis_km.clone(),
                 "km",
-                "sky offset towards the image's right (dusk side)",
+                "sky offset towards the observer's right, north up",
             ));
             ds.add_coordinate(Variable::coordinate(
                 "y",

@@ -48,8 +48,8 @@ pub struct DistantSection {
     #[serde(default = "zero_deg")]
     pub sub_observer_latitude: String,
     /// Where on the limb the slit sits: "sunward", "north", "south", or an
-    /// angle on the sky from the projected north pole towards the image's
-    /// right (the dusk side), e.g. "90 deg".
+    /// angle on the sky from the projected north pole towards the
+    /// observer's right (with north up), e.g. "90 deg".
     #[serde(default = "default_pa")]
     pub slit_position_angle: String,
     /// Lowest altitude above the limb, e.g. "0 km".

@@ -42,13 +42,17 @@ pub fn dataset(
         body.orbit.radial_velocity(sim.time()) / 1e3,
     );
     ds.set_attribute("scenario_origin", prov.scenario_origin.clone());
-    // The thread count never changes the results, so it is left out here
-    // (provenance.json keeps every override as given).
+    // The thread count and the checkpoint interval never change the
+    // results, so they are left out here (a run resumed with other values
+    // must give the same file); provenance.json keeps every override as given.
     let overrides: Vec<&str> = prov
         .overrides
         .iter()
         .map(String::as_str)
-        .filter(|o| !o.trim_start().starts_with("run.threads"))
+        .filter(|o| {
+            let o = o.trim_start();
+            !o.starts_with("run.threads") && !o.starts_with("run.checkpoint_every")
+        })
         .collect();
     ds.set_attribute("overrides", overrides.join("; "));
     let modules: Vec<String> = prov

@@ -106,6 +106,18 @@ impl Summary {
             .map(|w| w.shift_deg)
             .collect();
         let (_, shift_err) = profiles::mean_and_error(&shifts);
+        // Latitude shape: A cos^n(lat) fitted to the dayside latitude
+        // profile, with the standard error of the per-window exponents.
+        let lat_rad: Vec<f64> = f.latitude_deg.iter().map(|d| d.to_radians()).collect();
+        let cos_fit = profiles::fit_cos_power(&lat_rad, &f.latitude_profile);
+        let ns: Vec<f64> = record
+            .windows
+            .iter()
+            .filter(|w| !w.spin_up)
+            .filter_map(|w| profiles::fit_cos_power(&lat_rad, &w.latitude_profile))
+            .map(|c| c.n)
+            .collect();
+        let (_, n_err) = profiles::mean_and_error(&ns);
         let hops_per_s =
             if perf.wall_seconds > 0.0 { perf.hops as f64 / perf.wall_seconds } else { f64::NAN };
         let value = json!({
@@ -153,6 +165,14 @@ impl Summary {
                 "uncertainty_deg": num(shift_err),
                 "windows": shifts.len(),
                 "method": "2nd-order Fourier fit to the equatorial column; uncertainty = standard error of the per-window shifts",
+            },
+            "latitude_profile_fit": {
+                "cos_power_n": num(cos_fit.map_or(f64::NAN, |c| c.n)),
+                "uncertainty": num(n_err),
+                "amplitude": q(cos_fit.map_or(f64::NAN, |c| c.amplitude), "cm^-2"),
+                "relative_rms_residual": num(cos_fit.map_or(f64::NAN, |c| c.relative_residual)),
+                "windows": ns.len(),
+                "method": "least-squares A cos^n(latitude) to the dayside (6-18 h) column by latitude; uncertainty = standard error of the per-window exponents",
             },
             "total_content": q(content, "atoms"),
             "escape_rate": q(rate(&|r| r.escaped), "atoms s^-1"),

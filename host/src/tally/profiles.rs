@@ -139,6 +139,68 @@ pub fn mean_and_error(xs: &[f64]) -> (f64, f64) {
     (mean, (var / n).sqrt())
 }
 
+/// A fit of A cos^n(latitude) to a latitude profile.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct CosPowerFit {
+    /// The exponent n, dimensionless.
+    pub n: f64,
+    /// The amplitude A at the equator, in the profile's unit.
+    pub amplitude: f64,
+    /// RMS residual relative to the RMS of the profile, dimensionless.
+    pub relative_residual: f64,
+}
+
+/// Exponents searched by [`fit_cos_power`], dimensionless.
+pub const COS_POWER_RANGE: (f64, f64) = (0.0, 30.0);
+
+/// Least-squares fit of `A cos^n(lat)` to `values` at latitudes `lat`
+/// (rad), unweighted. For each n the best A is linear (A = sum y c^n / sum
+/// c^2n); n minimises the residual sum of squares by golden-section search
+/// over [`COS_POWER_RANGE`] after a coarse scan (so a local minimum of a
+/// noisy profile is not mistaken for the best). `None` with fewer than 3
+/// finite points or an all-zero profile.
+pub fn fit_cos_power(lat: &[f64], values: &[f64]) -> Option<CosPowerFit> {
+    let pts: Vec<(f64, f64)> = lat
+        .iter()
+        .zip(values)
+        .filter(|(l, v)| l.is_finite() && v.is_finite() && l.abs() < FRAC_PI_2)
+        .map(|(l, v)| (l.cos(), *v))
+        .collect();
+    if pts.len() < 3 || pts.iter().all(|p| p.1 == 0.0) {
+        return None;
+    }
+    let sse = |n: f64| {
+        let (mut num, mut den) = (0.0, 0.0);
+        for &(c, y) in &pts {
+            let cn = c.powf(n);
+            num += y * cn;
+            den += cn * cn;
+        }
+        let a = if den > 0.0 { num / den } else { 0.0 };
+        let r: f64 = pts.iter().map(|&(c, y)| (y - a * c.powf(n)).powi(2)).sum();
+        (r, a)
+    };
+    let (lo, hi) = COS_POWER_RANGE;
+    let steps = 120;
+    let h = (hi - lo) / steps as f64;
+    let best =
+        (0..=steps).map(|k| lo + h * k as f64).min_by(|a, b| sse(*a).0.total_cmp(&sse(*b).0))?;
+    let (mut a, mut b) = ((best - h).max(lo), (best + h).min(hi));
+    let g = (5f64.sqrt() - 1.0) / 2.0;
+    for _ in 0..80 {
+        let (x1, x2) = (b - g * (b - a), a + g * (b - a));
+        if sse(x1).0 <= sse(x2).0 {
+            b = x2;
+        } else {
+            a = x1;
+        }
+    }
+    let n = 0.5 * (a + b);
+    let (r, amplitude) = sse(n);
+    let norm: f64 = pts.iter().map(|p| p.1 * p.1).sum();
+    Some(CosPowerFit { n, amplitude, relative_residual: (r / norm).sqrt() })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -161,7 +223,7 @@ mod tests {
         assert_eq!(shift_from_subsolar_deg(10.0), -30.0);
         assert_eq!(shift_direction(-30.0), "dawn");
         assert_eq!(shift_from_subsolar_deg(14.0), 30.0);
-        // Near midnight the shift wraps into (-180, 180]: 00:30 is 11.5 h
+        // Near midnight the shift wraps into [-180, 180): 00:30 is 11.5 h
         // before noon (dawnward, -172.5 deg), 23:30 is 11.5 h after it.
         assert_eq!(shift_from_subsolar_deg(0.5), -172.5);
         assert_eq!(shift_from_subsolar_deg(23.5), 172.5);
@@ -184,5 +246,30 @@ mod tests {
         let (m, e) = mean_and_error(&[1.0, 2.0, 3.0, 4.0]);
         assert_eq!(m, 2.5);
         assert!((e - (5.0f64 / 3.0).sqrt() / 2.0).abs() < 1e-15);
+    }
+
+    #[test]
+    fn cos_power_fit_recovers_a_known_exponent() {
+        // Synthetic profiles A cos^n(lat) on 18 bin centres: the exact
+        // model, so least squares recovers n and A (definition of the fit).
+        let lat: Vec<f64> = (0..18).map(|j| latitude_centre(j, 18)).collect();
+        for n in [0.0, 1.0, 2.0, 3.7] {
+            let y: Vec<f64> = lat.iter().map(|l| 5.0e9 * l.cos().powf(n)).collect();
+            let f = fit_cos_power(&lat, &y).unwrap();
+            assert!((f.n - n).abs() < 1e-6, "{n} -> {}", f.n);
+            assert!((f.amplitude / 5.0e9 - 1.0).abs() < 1e-6);
+            assert!(f.relative_residual < 1e-6);
+        }
+        // With 2 % multiplicative noise from a fixed pattern, n = 2 is
+        // still recovered to about 0.1.
+        let y: Vec<f64> = lat
+            .iter()
+            .enumerate()
+            .map(|(j, l)| l.cos().powi(2) * (1.0 + 0.02 * (j as f64 * 2.3).sin()))
+            .collect();
+        let f = fit_cos_power(&lat, &y).unwrap();
+        assert!((f.n - 2.0).abs() < 0.1, "{}", f.n);
+        assert!(f.relative_residual > 0.0 && f.relative_residual < 0.05);
+        assert!(fit_cos_power(&lat[..2], &y[..2]).is_none());
     }
 }

@@ -1,0 +1,142 @@
+//! What an instrument sees, and comparisons of variants, end to end on the
+//! quick demo: `observe` writes its products and converts columns with
+//! 4 pi I = g N / 10^6; a bad view file is refused with its key and leaves
+//! nothing behind; `compare` finds no difference between identical
+//! variants and flags a clearly different one.
+
+use std::sync::Arc;
+use std::sync::atomic::AtomicBool;
+
+use exobound::checkpoint::ScenarioSource;
+use exobound::compare::{self, Variant, stats::Verdict};
+use exobound::runtime::{Runtime, RuntimeConfig};
+
+use crate::run_outputs::run_quick;
+use crate::support::TempDir;
+
+#[test]
+fn observe_a_quick_run_from_a_telescope_and_an_orbiter() {
+    let tmp = TempDir::new("observe");
+    let run = tmp.path().join("run");
+    run_quick(&run, &[]);
+    let view = tmp.path().join("view.toml");
+    std::fs::write(
+        &view,
+        "title = \"test telescope\"\n[distant]\nphase_angle = \"60 deg\"\n\
+         observer_side = \"dusk\"\naltitude_max = \"600 km\"\naltitude_step = \"100 km\"\n\
+         aperture = \"10 km\"\nimage_pixels = 24\n",
+    )
+    .unwrap();
+    let out = tmp.path().join("seen");
+    let obs = exobound::observe::observe(&run, &view, &out).unwrap();
+    for f in [
+        "brightness.csv",
+        "image.nc",
+        "observation.json",
+        "provenance.json",
+        "plots/brightness_altitude.png",
+        "plots/disk_image.png",
+    ] {
+        assert!(out.join(f).is_file(), "missing {f}");
+    }
+    assert_eq!(obs.samples.len(), 7);
+    // The built-in Na table at rest at 1 AU (the demo's Moon): 0.8 photons
+    // s^-1 atom^-1, from memory (check-values §2: D2 0.3-0.6 + D1 0.2-0.35).
+    assert!((obs.g_factor - 0.8).abs() < 1e-12);
+    for s in &obs.samples {
+        // Hunten, Roach & Chamberlain (1956): 4 pi I [R] = g N / 10^6.
+        assert!(
+            (s.brightness_r - obs.g_factor * s.column_cm2 / 1e6).abs() <= 1e-9 * s.brightness_r
+        );
+        assert!(s.column_cm2 > 0.0);
+    }
+    // Above the limb the column falls with altitude (an exosphere bound to
+    // the body); from 100 km to 600 km by more than a factor 2.
+    assert!(obs.samples[1].column_cm2 > 2.0 * obs.samples[6].column_cm2);
+    let img = exobound_products::read_netcdf(&out.join("image.nc")).unwrap();
+    let b = img.variable("brightness").unwrap();
+    assert_eq!(b.attribute("units").and_then(|a| a.as_text()), Some("R"));
+    assert_eq!(b.data.len(), 24 * 24);
+
+    // An orbiter looking at nadir sees the vertical column of the field.
+    let orb = tmp.path().join("orbiter.toml");
+    std::fs::write(&orb, "[orbiter]\naltitude = \"4000 km\"\nlocal_time = \"11.5 h\"\nlatitude = \"5 deg\"\nlook = \"nadir\"\n").unwrap();
+    let out2 = tmp.path().join("seen2");
+    let o = exobound::observe::observe(&run, &orb, &out2).unwrap();
+    let ds = exobound_products::read_netcdf(&run.join("exosphere.nc")).unwrap();
+    let field =
+        exobound::observe::field::DensityField::from_dataset(&ds, &run.join("exosphere.nc"))
+            .unwrap();
+    let want = field.vertical_column(11.5, 5f64.to_radians());
+    assert!(
+        (o.samples[0].column_cm2 / want - 1.0).abs() < 1e-9,
+        "{} vs {want}",
+        o.samples[0].column_cm2
+    );
+
+    // A mistyped key: the file, the key and the nearest valid one; no output.
+    std::fs::write(&view, "[distant]\nphase_angel = \"60 deg\"\n").unwrap();
+    let bad = tmp.path().join("bad");
+    let e = exobound::observe::observe(&run, &view, &bad).unwrap_err();
+    assert!(
+        e.contains("view.toml") && e.contains("phase_angel") && e.contains("phase_angle"),
+        "{e}"
+    );
+    assert!(!bad.exists() && !exobound::output::staging_path(&bad).exists());
+}
+
+#[test]
+fn compare_flags_real_differences_and_only_those() {
+    let tmp = TempDir::new("compare");
+    let rt = Arc::new(
+        Runtime::new(RuntimeConfig { cache_dir: None, ..RuntimeConfig::default() }).unwrap(),
+    );
+    let base = ScenarioSource::demo(true, &[]);
+    let mut same = base.clone();
+    // The thread count never changes the result: an identical scenario.
+    same.overrides.push("run.threads=1".into());
+    let mut hot = base.clone();
+    // Twenty times the meteoroid vaporization flux: clearly different.
+    hot.overrides.push("processes.impact-vapor.parameters.flux=\"2e6 cm^-2 s^-1\"".into());
+    let variants = vec![
+        Variant { name: "base".into(), source: base },
+        Variant { name: "same".into(), source: same },
+        Variant { name: "hot".into(), source: hot },
+    ];
+    let out = tmp.path().join("cmp");
+    let c = compare::compare(
+        &variants,
+        &[11, 12, 13],
+        &out,
+        &rt,
+        Arc::new(AtomicBool::new(false)),
+        &mut |_, _| {},
+    )
+    .unwrap();
+    for f in [
+        "comparison.csv",
+        "comparison.txt",
+        "comparison.json",
+        "provenance.json",
+        "plots/equator_local_time.png",
+        "plots/latitude.png",
+        "plots/column_difference_hot.png",
+        "runs/hot/seed-12/summary.json",
+    ] {
+        assert!(out.join(f).is_file(), "missing {f}");
+    }
+    for r in &c.rows {
+        // Common random numbers: an identical variant differs by exactly 0.
+        assert_eq!(r.difference[0].mean, 0.0, "{}", r.measure);
+        assert_eq!(r.difference[0].verdict, Verdict::WithinNoise, "{}", r.measure);
+    }
+    let row = |m: &str| c.rows.iter().find(|r| r.measure == m).unwrap();
+    for m in ["source_rate", "total_content", "supply_rate_from_bulk"] {
+        assert_eq!(row(m).difference[1].verdict, Verdict::Significant, "{m}");
+        assert!(row(m).difference[1].mean > 0.0, "{m}");
+    }
+    let csv = std::fs::read_to_string(out.join("comparison.csv")).unwrap();
+    assert!(
+        csv.lines().any(|l| l.starts_with("source_rate,atoms s^-1,hot,") && l.ends_with(",yes"))
+    );
+}
