@@ -56,7 +56,8 @@ fn observe_a_quick_run_from_a_telescope_and_an_orbiter() {
     let img = exobound_products::read_netcdf(&out.join("image.nc")).unwrap();
     let b = img.variable("brightness").unwrap();
     assert_eq!(b.attribute("units").and_then(|a| a.as_text()), Some("R"));
-    assert_eq!(b.data.len(), 24 * 24);
+    // 24 rows and 1.5 times as many columns of square pixels.
+    assert_eq!(b.data.len(), 24 * 36);
 
     // An orbiter looking at nadir sees the vertical column of the field.
     let orb = tmp.path().join("orbiter.toml");

@@ -78,11 +78,17 @@ pub struct Observation {
     pub caution: String,
 }
 
+/// Width over height of the image, dimensionless: about that of the map
+/// figure's plotting area, so that the disk is drawn round.
+pub const IMAGE_ASPECT: f64 = 1.5;
+
 /// A distant observer's image: pixel centres (km on the sky plane) and columns.
 #[derive(Clone, Debug)]
 pub struct Image {
-    /// Pixel-centre coordinates along each axis, km.
-    pub axis_km: Vec<f64>,
+    /// Pixel-centre coordinates to the observer's right, km.
+    pub x_km: Vec<f64>,
+    /// Pixel-centre coordinates to projected north, km.
+    pub y_km: Vec<f64>,
     /// Column per pixel, atoms cm^-2, row-major [y][x].
     pub column_cm2: Vec<f64>,
 }
@@ -111,7 +117,8 @@ fn distant_column(field: &DensityField, d: &Distant, c: vec3::Vec3, cuts: &mut C
     sum / (n * n) as f64
 }
 
-/// Slit samples of a distant observer (columns only; brightness added later).
+/// Slit samples of a distant observer: (altitude above the limb, m;
+/// column, atoms cm^-2).
 pub fn distant_slit(field: &DensityField, d: &Distant) -> Vec<(f64, f64)> {
     let mut cuts = Cuts::default();
     let dir = vec3::add(
@@ -127,21 +134,27 @@ pub fn distant_slit(field: &DensityField, d: &Distant) -> Vec<(f64, f64)> {
         .collect()
 }
 
-/// The image of a distant observer (single lines through pixel centres).
+/// The image of a distant observer (single lines through pixel centres):
+/// `image_pixels` rows over +-`image_half_width`, and [`IMAGE_ASPECT`]
+/// times as many columns of square pixels.
 pub fn distant_image(field: &DensityField, d: &Distant) -> Image {
-    let n = d.image_pixels;
+    let ny = d.image_pixels;
     let w = d.image_half_width;
-    let axis: Vec<f64> = (0..n).map(|i| -w + 2.0 * w * (i as f64 + 0.5) / n as f64).collect();
+    let pix = 2.0 * w / ny as f64;
+    let nx = (ny as f64 * IMAGE_ASPECT).round() as usize;
+    let y: Vec<f64> = (0..ny).map(|i| -w + pix * (i as f64 + 0.5)).collect();
+    let x: Vec<f64> = (0..nx).map(|i| -0.5 * pix * nx as f64 + pix * (i as f64 + 0.5)).collect();
     let point = Distant { aperture: 0.0, ..d.clone() };
     let mut cuts = Cuts::default();
-    let mut col = Vec::with_capacity(n * n);
-    for &y in &axis {
-        for &x in &axis {
-            let c = vec3::add(vec3::scale(d.right, x), vec3::scale(d.up, y));
+    let mut col = Vec::with_capacity(nx * ny);
+    for &b in &y {
+        for &a in &x {
+            let c = vec3::add(vec3::scale(d.right, a), vec3::scale(d.up, b));
             col.push(distant_column(field, &point, c, &mut cuts));
         }
     }
-    Image { axis_km: axis.iter().map(|a| a / 1e3).collect(), column_cm2: col }
+    let km = |v: Vec<f64>| v.into_iter().map(|a| a / 1e3).collect();
+    Image { x_km: km(x), y_km: km(y), column_cm2: col }
 }
 
 /// Columns seen by an orbiter: (tangent altitude m or NaN, elevation deg, column).
@@ -302,10 +315,10 @@ fn compute_and_write(
                 &plots.join("brightness_altitude.png"),
             ))?;
             let img = distant_image(field, d);
-            let n = img.axis_km.len();
-            let step = img.axis_km.get(1).map_or(1.0, |b| b - img.axis_km[0]);
-            let edges: Vec<f64> =
-                (0..=n).map(|i| img.axis_km[0] - 0.5 * step + step * i as f64).collect();
+            let edges = |c: &[f64]| -> Vec<f64> {
+                let step = if c.len() > 1 { c[1] - c[0] } else { 1.0 };
+                (0..=c.len()).map(|i| c[0] - 0.5 * step + step * i as f64).collect()
+            };
             let bright: Vec<f64> =
                 img.column_cm2.iter().map(|&c| brightness_rayleigh(g, c)).collect();
             e(draw_map(
@@ -313,8 +326,8 @@ fn compute_and_write(
                     title: format!("{}: brightness image", view.title),
                     x_label: "sky offset to the observer's right (km)".into(),
                     y_label: "sky offset to projected north (km)".into(),
-                    x_edges: edges.clone(),
-                    y_edges: edges,
+                    x_edges: edges(&img.x_km),
+                    y_edges: edges(&img.y_km),
                     values: bright.clone(),
                     colour_label: "4 pi I (R), g-factor in observation.json".into(),
                     log_scale: true,
@@ -333,13 +346,13 @@ fn compute_and_write(
             ds.set_attribute("phase_angle_deg", d.phase_angle.to_degrees());
             ds.add_coordinate(Variable::coordinate(
                 "x",
-                img.axis_km.clone(),
+                img.x_km.clone(),
                 "km",
                 "sky offset towards the observer's right, north up",
             ));
             ds.add_coordinate(Variable::coordinate(
                 "y",
-                img.axis_km.clone(),
+                img.y_km.clone(),
                 "km",
                 "sky offset towards the projected north pole",
             ));
