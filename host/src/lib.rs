@@ -24,6 +24,7 @@ pub mod runtime;
 pub mod scenario;
 pub mod species;
 pub mod surface;
+pub mod sweep;
 pub mod tally;
 pub mod transport;
 pub mod vec3;

@@ -6,6 +6,7 @@
 
 mod compare;
 mod run;
+mod sweep;
 
 use std::ffi::OsString;
 use std::path::PathBuf;
@@ -36,6 +37,8 @@ enum Command {
     },
     /// Run variants side by side with common seeds, and tabulate the differences against the noise.
     Compare(compare::CompareArgs),
+    /// Sweep parameters over a plan (a grid or a Latin hypercube), locally or as Slurm shards.
+    Sweep(sweep::SweepArgs),
     /// Lines of sight through a finished run: columns, brightness, a slit profile and an image.
     Observe {
         /// The output directory of a finished `exobound run`.
@@ -117,6 +120,7 @@ fn dispatch(cli: Cli) -> Result<()> {
             Ok(())
         }
         Command::Compare(args) => compare::run(args),
+        Command::Sweep(args) => sweep::run(args),
         Command::Observe { run_dir, view, out } => {
             let out = out.unwrap_or_else(|| exobound::observe::default_out(&run_dir));
             let obs =

@@ -1,0 +1,91 @@
+//! A Slurm job-array script that runs a sweep's shards.
+//!
+//! Why this exists: sweeps outgrow one machine, and sites already run a
+//! batch scheduler. The script runs shard `$SLURM_ARRAY_TASK_ID` of N with
+//! the same `exobound sweep PLAN --out OUT --shard I/N` command a user
+//! would type, so the scheduler needs nothing from us; `exobound sweep
+//! collect OUT` gathers the shards afterwards. OUT must be on a filesystem
+//! that every node sees.
+
+use std::path::Path;
+
+/// Options of the emitted script.
+#[derive(Clone, Debug)]
+pub struct SlurmOptions {
+    /// Number of array tasks (shards).
+    pub shards: usize,
+    /// CPUs per task, dimensionless count.
+    pub cpus_per_task: usize,
+    /// Wall-time limit per task, Slurm's `D-HH:MM:SS` or `MM` form; None for the site default.
+    pub time_limit: Option<String>,
+    /// Partition; None for the site default.
+    pub partition: Option<String>,
+}
+
+/// Quote a path or word for a POSIX shell.
+fn sh(s: &str) -> String {
+    if !s.is_empty() && s.chars().all(|c| c.is_ascii_alphanumeric() || "/._-+=:,@".contains(c)) {
+        s.to_string()
+    } else {
+        format!("'{}'", s.replace('\'', "'\\''"))
+    }
+}
+
+/// The job-array script for `plan` (absolute path) writing into `out`
+/// (absolute), run by the binary `exe`, with logs in `logs`.
+pub fn script(exe: &Path, plan: &Path, out: &Path, logs: &Path, o: &SlurmOptions) -> String {
+    let mut s = String::from("#!/bin/sh\n");
+    s.push_str(
+        "# exobound sweep: one array task per shard; written by `exobound sweep --emit-slurm`.\n",
+    );
+    s.push_str("#SBATCH --job-name=exobound-sweep\n");
+    s.push_str(&format!("#SBATCH --array=0-{}\n", o.shards.saturating_sub(1)));
+    s.push_str("#SBATCH --ntasks=1\n");
+    s.push_str(&format!("#SBATCH --cpus-per-task={}\n", o.cpus_per_task.max(1)));
+    s.push_str(&format!("#SBATCH --output={}/shard-%a.log\n", logs.display()));
+    if let Some(t) = &o.time_limit {
+        s.push_str(&format!("#SBATCH --time={t}\n"));
+    }
+    if let Some(p) = &o.partition {
+        s.push_str(&format!("#SBATCH --partition={p}\n"));
+    }
+    s.push_str("set -eu\n");
+    s.push_str(&format!(
+        "exec {} sweep {} --out {} --shard \"${{SLURM_ARRAY_TASK_ID}}/{}\" --jobs {}\n",
+        sh(&exe.display().to_string()),
+        sh(&plan.display().to_string()),
+        sh(&out.display().to_string()),
+        o.shards,
+        o.cpus_per_task.max(1)
+    ));
+    s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn script_has_the_array_and_the_shard_command() {
+        let o = SlurmOptions {
+            shards: 4,
+            cpus_per_task: 2,
+            time_limit: Some("30".into()),
+            partition: None,
+        };
+        let s = script(
+            Path::new("/opt/exobound"),
+            Path::new("/p/plan.toml"),
+            Path::new("/o/out dir"),
+            Path::new("/o/logs"),
+            &o,
+        );
+        // Slurm job arrays: `#SBATCH --array=0-(N-1)` and the task id in
+        // $SLURM_ARRAY_TASK_ID (sbatch manual).
+        assert!(s.contains("#SBATCH --array=0-3\n"));
+        assert!(s.contains("--shard \"${SLURM_ARRAY_TASK_ID}/4\""));
+        assert!(s.contains("--out '/o/out dir'"));
+        assert!(s.contains("#SBATCH --time=30\n"));
+        assert!(s.starts_with("#!/bin/sh\n"));
+    }
+}
