@@ -7,6 +7,7 @@
 mod compare;
 mod run;
 mod sweep;
+mod share;
 
 use std::ffi::OsString;
 use std::path::PathBuf;
@@ -50,7 +51,7 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         out: Option<PathBuf>,
     },
-    /// Work with process modules: inspect, scaffold and build them.
+    /// Work with process modules: inspect, scaffold, build, vet, sign and verify them.
     Module {
         #[command(subcommand)]
         action: ModuleAction,
@@ -58,6 +59,13 @@ enum Command {
 }
 
 #[derive(Subcommand)]
+    /// Catalogs of shared modules by name@version: add, list, show.
+    Catalog {
+        #[command(subcommand)]
+        action: share::CatalogAction,
+    },
+    /// Show the module digests recorded in a run and re-verify the module files still present.
+    Provenance(share::ProvenanceArgs),
 enum ModuleAction {
     /// Show a module's manifest, ABI version and SHA-256 digest, without running it.
     Inspect {
@@ -85,6 +93,15 @@ enum ModuleAction {
     /// Build a module crate to a `.wasm` file (release, wasm32) and print its path.
     Build {
         /// The crate directory (default: the current directory).
+    /// Run the conformance suite on a `.wasm` file: ABI, manifest, reference points,
+    /// determinism, bounds, sampler, throughput.
+    Vet(share::VetArgs),
+    /// Make an ed25519 key pair for signing modules.
+    Keygen(share::KeygenArgs),
+    /// Vet a module and write a detached signature over its digest and the vet report.
+    Sign(share::SignArgs),
+    /// Check a module's detached signature (and, optionally, that the signer is trusted).
+    Verify(share::VerifyArgs),
         dir: Option<PathBuf>,
     },
 }
@@ -139,7 +156,13 @@ fn dispatch(cli: Cli) -> Result<()> {
             ModuleAction::Inspect { file, json } => {
                 let report = inspect::inspect(&file)?;
                 if json {
+        Command::Catalog { action } => share::catalog(action),
+        Command::Provenance(args) => share::provenance(args),
                     println!("{}", serde_json::to_string_pretty(&report)?);
+            ModuleAction::Vet(a) => share::vet(a),
+            ModuleAction::Keygen(a) => share::keygen(a),
+            ModuleAction::Sign(a) => share::sign(a),
+            ModuleAction::Verify(a) => share::verify(a),
                 } else {
                     print!("{}", inspect::render_text(&report));
                 }

@@ -40,6 +40,9 @@ pub struct RunArgs {
     /// With no SCENARIO: run the demo's short preset (a smoke test of about a minute or less).
     #[arg(long)]
     quick: bool,
+    /// Renew the module digests pinned in `exobound.lock` next to the scenario.
+    #[arg(long, conflicts_with = "resume")]
+    update_lock: bool,
     /// Continue the interrupted run whose output directory is DIR.
     #[arg(long, value_name = "DIR", conflicts_with_all = ["scenario", "quick", "seed", "set"])]
     resume: Option<PathBuf>,
@@ -84,6 +87,13 @@ pub fn run(args: RunArgs) -> Result<()> {
             None => ScenarioSource::demo(args.quick, &overrides),
         };
         let scenario = source.load(&runtime).map_err(|e| anyhow!("{e}"))?;
+        if let Some(p) = &args.scenario {
+            let lock = exobound::share::lock::path_for(p);
+            match exobound::share::lock::enforce(&lock, &scenario.modules, args.update_lock)? {
+                exobound::share::lock::LockAction::Unchanged => {}
+                action => eprintln!("{}: {action:?}", lock.display()),
+            }
+        }
         eprintln!(
             "running {} ({}): {} steps of {} s, {} particles, {} threads",
             scenario.title,

@@ -205,6 +205,13 @@ impl ProcessInstance {
         self.exports.memory.data_size(&self.store)
     }
 
+    /// Fuel left after the last call when a fuel budget is configured (the
+    /// budget is re-armed before every call), in wasm fuel units; `None`
+    /// when fuel is off.
+    pub fn fuel_left(&self) -> Option<u64> {
+        self.fuel.and_then(|_| self.store.get_fuel().ok())
+    }
+
     fn site(&self, call: &'static str, batch: usize) -> CallSite {
         CallSite { module: self.module.name().to_string(), call, batch }
     }

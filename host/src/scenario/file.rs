@@ -17,6 +17,10 @@ pub struct ScenarioFile {
     /// A title for plots and provenance.
     #[serde(default)]
     pub title: Option<String>,
+    /// Catalog directories searched for `module = "name@version"`, relative
+    /// to the scenario file, before those in `$EXOBOUND_CATALOGS`.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub catalogs: Vec<String>,
     /// The airless body.
     pub body: BodySection,
     /// The species followed.

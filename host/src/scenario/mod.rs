@@ -483,6 +483,17 @@ impl Validator<'_> {
         }
     }
 
+    /// The scenario's `catalogs`, relative to its directory.
+    fn catalog_dirs(&self, file: &ScenarioFile) -> Vec<PathBuf> {
+        file.catalogs
+            .iter()
+            .map(|c| match self.inputs {
+                Inputs::Dir(d) => d.join(c),
+                Inputs::Demo => PathBuf::from(c),
+            })
+            .collect()
+    }
+
     fn modules(
         &self,
         file: &ScenarioFile,
@@ -500,7 +511,15 @@ impl Validator<'_> {
                     ),
                 )
             })?;
-            let path = self.module_path(&entry.module);
+            let path = match crate::share::catalog::parse_ref(&entry.module) {
+                Some((name, version)) => crate::share::catalog::resolve(
+                    name,
+                    version,
+                    &crate::share::catalog::search_path(&self.catalog_dirs(file)),
+                )
+                .map_err(|e| self.err(&format!("{key}.module"), e))?,
+                None => self.module_path(&entry.module),
+            };
             if !path.is_file() {
                 let hint = if entry.module.starts_with("standard:") {
                     " (standard modules are built by `cargo build --release`; set EXOBOUND_MODULE_DIR if they live elsewhere)"
