@@ -15,3 +15,4 @@ mod sandbox;
 mod scaffold;
 mod scenario_errors;
 mod standard_modules;
+mod sweep_fit;

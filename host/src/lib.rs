@@ -16,21 +16,22 @@ pub mod compare;
 pub mod driver;
 pub mod engine;
 pub mod environment;
+pub mod fit;
 pub mod modbuild;
 pub mod observe;
 pub mod output;
 pub mod particles;
 pub mod runtime;
 pub mod scenario;
-pub mod species;
 pub mod share;
+pub mod species;
 pub mod surface;
 pub mod sweep;
 pub mod tally;
 pub mod transport;
 pub mod vec3;
-
 pub mod vet;
+
 /// Directory where the build placed the standard process modules
 /// (`target/modules/<name>.wasm`), as known when this crate was compiled.
 pub fn standard_module_dir() -> std::path::PathBuf {

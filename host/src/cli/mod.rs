@@ -5,9 +5,10 @@
 //! cause chain and mapped to exit codes (0 success, 1 failure, 2 usage).
 
 mod compare;
+mod fit;
 mod run;
-mod sweep;
 mod share;
+mod sweep;
 
 use std::ffi::OsString;
 use std::path::PathBuf;
@@ -40,6 +41,8 @@ enum Command {
     Compare(compare::CompareArgs),
     /// Sweep parameters over a plan (a grid or a Latin hypercube), locally or as Slurm shards.
     Sweep(sweep::SweepArgs),
+    /// Fit free parameters of a scenario to observed profiles and measures (chi-square, Nelder-Mead).
+    Fit(fit::FitArgs),
     /// Lines of sight through a finished run: columns, brightness, a slit profile and an image.
     Observe {
         /// The output directory of a finished `exobound run`.
@@ -56,9 +59,6 @@ enum Command {
         #[command(subcommand)]
         action: ModuleAction,
     },
-}
-
-#[derive(Subcommand)]
     /// Catalogs of shared modules by name@version: add, list, show.
     Catalog {
         #[command(subcommand)]
@@ -66,6 +66,9 @@ enum Command {
     },
     /// Show the module digests recorded in a run and re-verify the module files still present.
     Provenance(share::ProvenanceArgs),
+}
+
+#[derive(Subcommand)]
 enum ModuleAction {
     /// Show a module's manifest, ABI version and SHA-256 digest, without running it.
     Inspect {
@@ -90,9 +93,6 @@ enum ModuleAction {
         #[arg(long)]
         sdk: Option<PathBuf>,
     },
-    /// Build a module crate to a `.wasm` file (release, wasm32) and print its path.
-    Build {
-        /// The crate directory (default: the current directory).
     /// Run the conformance suite on a `.wasm` file: ABI, manifest, reference points,
     /// determinism, bounds, sampler, throughput.
     Vet(share::VetArgs),
@@ -102,6 +102,9 @@ enum ModuleAction {
     Sign(share::SignArgs),
     /// Check a module's detached signature (and, optionally, that the signer is trusted).
     Verify(share::VerifyArgs),
+    /// Build a module crate to a `.wasm` file (release, wasm32) and print its path.
+    Build {
+        /// The crate directory (default: the current directory).
         dir: Option<PathBuf>,
     },
 }
@@ -138,6 +141,7 @@ fn dispatch(cli: Cli) -> Result<()> {
         }
         Command::Compare(args) => compare::run(args),
         Command::Sweep(args) => sweep::run(args),
+        Command::Fit(args) => fit::run(args),
         Command::Observe { run_dir, view, out } => {
             let out = out.unwrap_or_else(|| exobound::observe::default_out(&run_dir));
             let obs =
@@ -152,17 +156,17 @@ fn dispatch(cli: Cli) -> Result<()> {
             println!("wrote {}", out.display());
             Ok(())
         }
-        Command::Module { action } => match action {
-            ModuleAction::Inspect { file, json } => {
-                let report = inspect::inspect(&file)?;
-                if json {
         Command::Catalog { action } => share::catalog(action),
         Command::Provenance(args) => share::provenance(args),
-                    println!("{}", serde_json::to_string_pretty(&report)?);
+        Command::Module { action } => match action {
             ModuleAction::Vet(a) => share::vet(a),
             ModuleAction::Keygen(a) => share::keygen(a),
             ModuleAction::Sign(a) => share::sign(a),
             ModuleAction::Verify(a) => share::verify(a),
+            ModuleAction::Inspect { file, json } => {
+                let report = inspect::inspect(&file)?;
+                if json {
+                    println!("{}", serde_json::to_string_pretty(&report)?);
                 } else {
                     print!("{}", inspect::render_text(&report));
                 }

@@ -1,0 +1,164 @@
+//! Observations to fit: profiles and summary measures with uncertainties,
+//! in a small CSV layout of our own.
+//!
+//! Why this exists: a fit compares the model with what was measured, and
+//! the measurements must say what they are, where and in which unit. Each
+//! row is one observed value:
+//!
+//! ```text
+//! # comments start with '#'
+//! kind,coordinate,value,uncertainty,unit
+//! equator_column,10.5 h,1.2e9,1.0e8,cm^-2
+//! latitude_column,30 deg,8.0e8,1.0e8,cm^-2
+//! summary:dayside_near_surface_density,,20,5,cm^-3
+//! ```
+//!
+//! `equator_column` is the equatorial column at a local time (the
+//! coordinate, in h), `latitude_column` the dayside column at a latitude
+//! (in deg); `summary:NAME` is a summary measure of
+//! [`crate::compare::MEASURES`] in its unit. `docs/fit.md` documents it.
+
+use crate::compare::MEASURES;
+use crate::scenario::quantity::{self, Kind};
+
+/// The header line.
+pub const HEADER: &str = "kind,coordinate,value,uncertainty,unit";
+
+/// What one observation measures.
+#[derive(Clone, Debug, PartialEq, serde::Serialize)]
+pub enum Observable {
+    /// Equatorial column at a local time, h.
+    EquatorColumn(f64),
+    /// Dayside column at a latitude, deg.
+    LatitudeColumn(f64),
+    /// A summary measure, by its index in [`MEASURES`].
+    Summary(usize),
+}
+
+/// One observed value.
+#[derive(Clone, Debug, PartialEq, serde::Serialize)]
+pub struct Observation {
+    /// What it is.
+    pub what: Observable,
+    /// The value, in `unit`.
+    pub value: f64,
+    /// Its 1-sigma uncertainty, in `unit`.
+    pub sigma: f64,
+    /// The unit.
+    pub unit: String,
+    /// The row as a label, e.g. "equator_column at 10.5 h".
+    pub label: String,
+}
+
+/// Parse an observations file's text; `file` names it in errors.
+pub fn parse(text: &str, file: &str) -> Result<Vec<Observation>, String> {
+    let mut rows = text
+        .lines()
+        .enumerate()
+        .map(|(i, l)| (i + 1, l.trim()))
+        .filter(|(_, l)| !l.is_empty() && !l.starts_with('#'));
+    let Some((hl, header)) = rows.next() else {
+        return Err(format!("`{file}`: no observations"));
+    };
+    let header: String = header.split(',').map(str::trim).collect::<Vec<_>>().join(",");
+    if header != HEADER {
+        return Err(format!("`{file}` line {hl}: the header must be `{HEADER}`, found `{header}`"));
+    }
+    let mut out = Vec::new();
+    for (ln, l) in rows {
+        let c: Vec<&str> = l.split(',').map(str::trim).collect();
+        let at = format!("`{file}` line {ln}");
+        if c.len() != 5 {
+            return Err(format!("{at}: expected 5 fields ({HEADER}), found {}", c.len()));
+        }
+        let num = |s: &str, what: &str| {
+            s.parse::<f64>()
+                .ok()
+                .filter(|x| x.is_finite())
+                .ok_or_else(|| format!("{at}: {what} `{s}` is not a number"))
+        };
+        let value = num(c[2], "value")?;
+        let sigma = num(c[3], "uncertainty")?;
+        if !(sigma > 0.0) {
+            return Err(format!("{at}: the uncertainty must be positive (got {sigma})"));
+        }
+        let unit = quantity::normalise_unit(c[4]);
+        let (what, label) = match c[0] {
+            "equator_column" | "latitude_column" => {
+                if unit != "cm^-2" {
+                    return Err(format!("{at}: a column is in `cm^-2`, not `{unit}`"));
+                }
+                if c[0] == "equator_column" {
+                    let lt = quantity::parse(c[1], Kind::Time)
+                        .map_err(|e| format!("{at}: coordinate: {e}"))?
+                        / 3600.0;
+                    if !(0.0..24.0).contains(&lt) {
+                        return Err(format!("{at}: local time {lt} h is outside 0 to 24 h"));
+                    }
+                    (Observable::EquatorColumn(lt), format!("equator_column at {lt} h"))
+                } else {
+                    let lat = quantity::parse(c[1], Kind::Angle)
+                        .map_err(|e| format!("{at}: coordinate: {e}"))?
+                        .to_degrees();
+                    if !(-90.0..=90.0).contains(&lat) {
+                        return Err(format!("{at}: latitude {lat} deg is outside -90 to 90 deg"));
+                    }
+                    (Observable::LatitudeColumn(lat), format!("latitude_column at {lat} deg"))
+                }
+            }
+            k => {
+                let Some(name) = k.strip_prefix("summary:") else {
+                    return Err(format!(
+                        "{at}: unknown kind `{k}`; use equator_column, latitude_column or summary:NAME"
+                    ));
+                };
+                let Some(m) = MEASURES.iter().position(|m| m.0 == name) else {
+                    let names: Vec<&str> = MEASURES.iter().map(|m| m.0).collect();
+                    return Err(format!(
+                        "{at}: {}",
+                        crate::scenario::keys::unknown_message(name, &names, "summary measure")
+                    ));
+                };
+                let want = MEASURES[m].2;
+                if unit != want {
+                    return Err(format!("{at}: {name} is in `{want}`, not `{unit}`"));
+                }
+                (Observable::Summary(m), k.to_string())
+            }
+        };
+        out.push(Observation { what, value, sigma, unit, label });
+    }
+    if out.is_empty() {
+        return Err(format!("`{file}`: no observations after the header"));
+    }
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn rows_parse_and_bad_rows_are_named() {
+        let o = parse(
+            "# test\nkind,coordinate,value,uncertainty,unit\nequator_column,10.5 h,1.2e9,1e8,cm^-2\n\
+             latitude_column,30 deg,8e8,1e8,cm^-2\nsummary:escape_rate,,3e21,1e20,atoms s^-1\n",
+            "o.csv",
+        )
+        .unwrap();
+        assert_eq!(o[0].what, Observable::EquatorColumn(10.5));
+        assert!(matches!(o[1].what, Observable::LatitudeColumn(l) if (l - 30.0).abs() < 1e-12));
+        assert!(matches!(o[2].what, Observable::Summary(_)));
+        let e =
+            parse(&format!("{HEADER}\nequator_column,10.5 h,1,0,cm^-2\n"), "o.csv").unwrap_err();
+        assert!(e.contains("line 2") && e.contains("positive"), "{e}");
+        let e =
+            parse(&format!("{HEADER}\nequator_column,10.5 h,1,1,cm^-3\n"), "o.csv").unwrap_err();
+        assert!(e.contains("cm^-2"), "{e}");
+        let e =
+            parse(&format!("{HEADER}\nsummary:escape_rat,,1,1,atoms s^-1\n"), "o.csv").unwrap_err();
+        assert!(e.contains("escape_rate"), "{e}");
+        let e = parse("a,b\n", "o.csv").unwrap_err();
+        assert!(e.contains(HEADER), "{e}");
+    }
+}
