@@ -53,6 +53,7 @@ fn quick_demo_writes_every_product() {
         "plots/equator_local_time.png",
         "plots/latitude_profile.png",
         "plots/ledger.png",
+        "plots/phase_series.png",
     ] {
         let p = out.join(f);
         assert!(p.is_file() && std::fs::metadata(&p).unwrap().len() > 0, "missing {f}");

@@ -224,5 +224,31 @@ pub fn draw_all(
         },
         &dir.join("ledger.png"),
     ))?;
+
+    // Phase-resolved shape measures: the peak shift window by window.
+    let win: Vec<&crate::driver::windows::WindowRecord> =
+        record.windows.iter().filter(|w| !w.spin_up).collect();
+    if !win.is_empty() {
+        let mid: Vec<f64> = win.iter().map(|w| 0.5 * (w.start + w.end) / 86_400.0).collect();
+        e(draw_lines(
+            &LinePlot {
+                title: format!("{sp} equatorial column peak shift, window by window"),
+                x_label: "simulated time at the window's middle (d)".into(),
+                y_label: "shift from the subsolar point (deg, negative = dawn)".into(),
+                lines: vec![Line {
+                    label: "per averaging window".into(),
+                    x: mid,
+                    y: win.iter().map(|w| w.shift_deg).collect(),
+                    y_err: None,
+                    style: LineStyle::Points,
+                }],
+                markers: vec![],
+                log_y: false,
+                x_range: None,
+                x_ticks: None,
+            },
+            &dir.join("phase_series.png"),
+        ))?;
+    }
     Ok(())
 }
