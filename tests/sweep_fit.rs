@@ -80,6 +80,12 @@ fn sweep_shards_collect_and_restart() {
     assert_ne!(other.digest, plan.digest);
     let e = sweep::run_shard(&other, &sharded, Shard::ALL, 1, &rt, no_stop(), &quiet).unwrap_err();
     assert!(e.contains("another plan"), "{e}");
+    // A directory of other things is not taken over.
+    let junk = tmp.path().join("junk");
+    std::fs::create_dir_all(&junk).unwrap();
+    std::fs::write(junk.join("notes.txt"), "mine").unwrap();
+    let e = sweep::run_shard(&plan, &junk, Shard::ALL, 1, &rt, no_stop(), &quiet).unwrap_err();
+    assert!(e.contains("not the directory of a sweep"), "{e}");
     let foreign = sharded.join("shards").join("shard-0-of-1.json");
     std::fs::write(
         &foreign,

@@ -211,6 +211,10 @@ pub fn chi_square(obs: &[Observation], model: &[f64]) -> f64 {
         .sum()
 }
 
+/// Evaluations by parameter vector (bits of z), the ordered record, and
+/// the current stage's name.
+type EvalCache = (HashMap<Vec<u64>, (f64, Vec<f64>)>, Vec<Evaluation>, String);
+
 /// Runs the scenario at a parameter vector and remembers the answers.
 struct Evaluator<'a> {
     base: &'a ScenarioSource,
@@ -219,7 +223,7 @@ struct Evaluator<'a> {
     seeds: &'a [u64],
     runtime: &'a Arc<Runtime>,
     work: PathBuf,
-    cache: std::sync::Mutex<(HashMap<Vec<u64>, (f64, Vec<f64>)>, Vec<Evaluation>, String)>,
+    cache: std::sync::Mutex<EvalCache>,
 }
 
 impl Evaluator<'_> {
@@ -284,7 +288,7 @@ impl CostFunction for Cost<'_, '_> {
     type Output = f64;
     fn cost(&self, z: &Self::Param) -> Result<f64, argmin::core::Error> {
         let out: f64 = z.iter().map(|v| (v - v.clamp(0.0, 1.0)).powi(2)).sum();
-        let (chi2, _) = self.0.eval(z).map_err(|e| argmin::core::Error::msg(e))?;
+        let (chi2, _) = self.0.eval(z).map_err(argmin::core::Error::msg)?;
         Ok(chi2 + 1e6 * out)
     }
 }
@@ -399,6 +403,7 @@ pub fn fit(
                 continue;
             }
             hess[i][i] = (f(&zp)? - 2.0 * chi2 + f(&zm)?) / (h * h);
+            #[allow(clippy::needless_range_loop)] // hess is filled symmetrically
             for j in 0..i {
                 let v = (f(&shifted(i, h, j, h))?
                     - f(&shifted(i, h, j, -h))?

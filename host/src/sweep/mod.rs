@@ -161,10 +161,26 @@ pub fn run_shard(
     stop: Arc<AtomicBool>,
     log: &(dyn Fn(&str) + Sync),
 ) -> Result<ShardReport, String> {
+    let rec_path = out.join(PLAN_FILE);
+    // A directory of other things is refused, and so (below) is one used
+    // by another plan.
+    // (Shards may start together, so a directory holding only what a
+    // sweep writes is accepted before its plan record appears.)
+    let ours = |n: &str| {
+        ["plan.json", "shards", "points", "sweep.csv", "sweep.json", "plots"].contains(&n)
+            || n.starts_with(".plan.json.tmp")
+    };
+    if out.is_file()
+        || std::fs::read_dir(out)
+            .is_ok_and(|d| d.flatten().any(|e| !ours(&e.file_name().to_string_lossy())))
+    {
+        return Err(format!(
+            "`{}` exists and is not the directory of a sweep; choose another --out",
+            out.display()
+        ));
+    }
     std::fs::create_dir_all(out.join("shards"))
         .map_err(|e| format!("cannot create `{}`: {e}", out.display()))?;
-    // A directory already used by another plan is refused.
-    let rec_path = out.join(PLAN_FILE);
     if let Ok(text) = std::fs::read_to_string(&rec_path) {
         let old: PlanRecord = serde_json::from_str(&text)
             .map_err(|e| format!("`{}` is not a sweep plan record: {e}", rec_path.display()))?;
