@@ -16,3 +16,4 @@ mod scaffold;
 mod scenario_errors;
 mod standard_modules;
 mod sweep_fit;
+mod vet_sign;
