@@ -415,7 +415,8 @@ fn a_policy_refuses_an_untrusted_signer_and_a_catalog_round_trips() {
     let st = again.standing(found);
     assert!(st.verdict.is_ok(), "{:?}", st.verdict);
     let resolved =
-        catalog::resolve("photoionization", &report.version, &[cat_dir.clone()]).unwrap();
+        catalog::resolve("photoionization", &report.version, std::slice::from_ref(&cat_dir))
+            .unwrap();
     assert_eq!(
         exobound::runtime::module::sha256_hex(&std::fs::read(&resolved).unwrap()),
         report.sha256
@@ -444,7 +445,8 @@ fn a_policy_refuses_an_untrusted_signer_and_a_catalog_round_trips() {
     assert_eq!(m.sha256, report.sha256);
 
     // An unknown version, and a replaced catalog file, are refused by name.
-    let e = catalog::resolve("photoionization", "9.9.9", &[cat_dir.clone()]).unwrap_err().0;
+    let e =
+        catalog::resolve("photoionization", "9.9.9", std::slice::from_ref(&cat_dir)).unwrap_err().0;
     assert!(e.contains("photoionization@9.9.9"), "{e}");
     std::fs::write(&resolved, tampered(&bytes)).unwrap();
     let e = Scenario::load(&scenario, &[], &rt).unwrap_err().to_string();

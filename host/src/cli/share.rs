@@ -5,7 +5,7 @@
 //! `exobound::share`, plus printing; a failed vet, a bad signature or a
 //! changed module file is an error (exit code 1) after the report.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 use anyhow::{Context, Result, anyhow, bail};
 use clap::{Args, Subcommand};
@@ -112,7 +112,7 @@ pub struct ProvenanceArgs {
     json: bool,
 }
 
-fn read_report(path: &PathBuf) -> Result<VetReport> {
+fn read_report(path: &Path) -> Result<VetReport> {
     let text = std::fs::read_to_string(path)
         .with_context(|| format!("cannot read the vet report `{}`", path.display()))?;
     serde_json::from_str(&text).with_context(|| {
@@ -123,7 +123,7 @@ fn read_report(path: &PathBuf) -> Result<VetReport> {
     })
 }
 
-fn vet_or_read(file: &PathBuf, report: &Option<PathBuf>) -> Result<VetReport> {
+fn vet_or_read(file: &Path, report: &Option<PathBuf>) -> Result<VetReport> {
     match report {
         Some(p) => read_report(p),
         None => {
@@ -298,6 +298,8 @@ pub fn catalog(action: CatalogAction) -> Result<()> {
                             v.key_id,
                             if cat.policy.trusts(v) {
                                 ", trusted"
+                            } else if cat.policy.trusted.is_empty() {
+                                " (the policy lists no trusted keys)"
                             } else {
                                 ", not trusted by the policy"
                             }

@@ -44,7 +44,7 @@ pub fn hex(bytes: &[u8]) -> String {
 /// Bytes of an even-length hex string (either case), or `None`.
 pub fn unhex(s: &str) -> Option<Vec<u8>> {
     let s = s.trim();
-    if s.len() % 2 != 0 || !s.is_ascii() {
+    if !s.len().is_multiple_of(2) || !s.is_ascii() {
         return None;
     }
     (0..s.len()).step_by(2).map(|i| u8::from_str_radix(&s[i..i + 2], 16).ok()).collect()

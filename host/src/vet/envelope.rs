@@ -46,8 +46,8 @@ pub struct Span {
 pub const ENVELOPE: [Span; 17] = [
     Span {
         field: "latitude",
-        lo: -1.570_796_326_794_896_6,
-        hi: 1.570_796_326_794_896_6,
+        lo: -std::f64::consts::FRAC_PI_2,
+        hi: std::f64::consts::FRAC_PI_2,
         unit: "rad",
         log: false,
     },
@@ -273,7 +273,7 @@ fn value(field: &str, i: usize) -> f64 {
         _ => unit(i, j),
     };
     if s.log {
-        if i > 1 && i % 17 == 0 {
+        if i > 1 && i.is_multiple_of(17) {
             return 0.0;
         }
         (s.lo.ln() + u * (s.hi.ln() - s.lo.ln())).exp()
@@ -292,7 +292,7 @@ fn key(i: usize, stream: u32) -> RngKey {
 
 /// `n` records for `call` spread over the whole envelope.
 pub fn sweep(call: Call, n: usize) -> Records {
-    let mass = |i: usize| if i % 2 == 0 { SODIUM_MASS } else { POTASSIUM_MASS };
+    let mass = |i: usize| if i.is_multiple_of(2) { SODIUM_MASS } else { POTASSIUM_MASS };
     match call {
         Call::ReleaseRate | Call::Exchange => Records::Cells(
             (0..n)
