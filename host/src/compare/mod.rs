@@ -21,7 +21,7 @@ use serde::Serialize;
 
 use crate::checkpoint::ScenarioSource;
 use crate::driver::{self, Outcome, Progress, Session};
-use crate::output::{PROVENANCE_FILE, Staging, atomic_write};
+use crate::output::{PROVENANCE_FILE, atomic_write, staged};
 use crate::runtime::Runtime;
 use stats::{Difference, mean_and_se, paired};
 
@@ -145,7 +145,17 @@ struct RunResult {
     shape: (usize, usize),
 }
 
-fn read_profile(path: &Path) -> Result<Vec<(f64, f64)>, String> {
+/// The summary measures of [`MEASURES`] in a run's `summary.json` value,
+/// in their units (NaN where absent).
+pub fn measures_of(summary: &serde_json::Value) -> Vec<f64> {
+    MEASURES
+        .iter()
+        .map(|(_, ptr, _)| summary.pointer(ptr).and_then(|x| x.as_f64()).unwrap_or(f64::NAN))
+        .collect()
+}
+
+/// A profile CSV of a run (`profiles/*.csv`) as (coordinate, column) pairs.
+pub fn read_profile(path: &Path) -> Result<Vec<(f64, f64)>, String> {
     let text = std::fs::read_to_string(path).map_err(|e| format!("`{}`: {e}", path.display()))?;
     Ok(text
         .lines()
@@ -161,10 +171,7 @@ fn read_run(dir: &Path) -> Result<RunResult, String> {
     let text = std::fs::read_to_string(dir.join("summary.json"))
         .map_err(|e| format!("`{}`: {e}", dir.join("summary.json").display()))?;
     let v: serde_json::Value = serde_json::from_str(&text).map_err(|e| e.to_string())?;
-    let measures = MEASURES
-        .iter()
-        .map(|(_, ptr, _)| v.pointer(ptr).and_then(|x| x.as_f64()).unwrap_or(f64::NAN))
-        .collect();
+    let measures = measures_of(&v);
     let ds = exobound_products::read_netcdf(&dir.join("exosphere.nc"))
         .map_err(|e| format!("`{}`: {e}", dir.join("exosphere.nc").display()))?;
     let column = ds.variable("column").map(|c| c.data.clone()).unwrap_or_default();
@@ -195,8 +202,7 @@ pub fn compare(
     if seeds.is_empty() {
         return Err("compare needs at least one seed".into());
     }
-    let staging = Staging::create(out)?;
-    let result = (|| {
+    staged(out, |dir| {
         let mut results: Vec<Vec<RunResult>> = Vec::new();
         for v in variants {
             let mut per_seed = Vec::new();
@@ -205,13 +211,13 @@ pub fn compare(
                 source.overrides.push(format!("run.seed={seed}"));
                 let scenario =
                     source.load(runtime).map_err(|e| format!("variant `{}`: {e}", v.name))?;
-                let dir = staging.dir().join("runs").join(&v.name).join(format!("seed-{seed}"));
-                std::fs::create_dir_all(dir.parent().unwrap_or(staging.dir()))
-                    .map_err(|e| e.to_string())?;
+                let parent = dir.join("runs").join(&v.name);
+                std::fs::create_dir_all(&parent).map_err(|e| e.to_string())?;
+                let run_dir = parent.join(format!("seed-{seed}"));
                 let label = format!("{} seed {seed}", v.name);
                 let mut p = |pr: &Progress| progress(&label, pr);
                 let session = Session { stop: stop.clone(), progress: Some(&mut p) };
-                match driver::start(scenario, source, &dir, session)
+                match driver::start(scenario, source, &run_dir, session)
                     .map_err(|e| format!("variant `{}`, seed {seed}: {e}", v.name))?
                 {
                     Outcome::Finished { dir } => per_seed.push(read_run(&dir)?),
@@ -226,7 +232,7 @@ pub fn compare(
             results.push(per_seed);
         }
         let cmp = tabulate(variants, seeds, &results);
-        write_products(staging.dir(), &cmp, &results)?;
+        write_products(dir, &cmp, &results)?;
         let prov = serde_json::json!({
             "engine": "exobound",
             "engine_version": env!("CARGO_PKG_VERSION"),
@@ -238,19 +244,9 @@ pub fn compare(
             "runs": "runs/<variant>/seed-<seed>/ hold each run's full output and provenance",
         });
         let json = serde_json::to_vec_pretty(&prov).map_err(|e| e.to_string())?;
-        atomic_write(&staging.dir().join(PROVENANCE_FILE), &json).map_err(|e| e.to_string())?;
+        atomic_write(&dir.join(PROVENANCE_FILE), &json).map_err(|e| e.to_string())?;
         Ok(cmp)
-    })();
-    match result {
-        Ok(c) => {
-            staging.finish()?;
-            Ok(c)
-        }
-        Err(e) => {
-            staging.discard();
-            Err(e)
-        }
-    }
+    })
 }
 
 fn tabulate(variants: &[Variant], seeds: &[u64], results: &[Vec<RunResult>]) -> Comparison {

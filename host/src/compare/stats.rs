@@ -32,19 +32,11 @@ pub fn t_critical(dof: usize) -> f64 {
 }
 
 /// Mean and its standard error (sample standard deviation / sqrt(n)) of
-/// the finite values; the error is NaN with fewer than 2.
+/// the finite values ([`crate::tally::profiles::mean_and_error`] on them);
+/// the error is NaN with fewer than 2.
 pub fn mean_and_se(x: &[f64]) -> (f64, f64) {
     let v: Vec<f64> = x.iter().copied().filter(|a| a.is_finite()).collect();
-    let n = v.len();
-    if n == 0 {
-        return (f64::NAN, f64::NAN);
-    }
-    let m = v.iter().sum::<f64>() / n as f64;
-    if n < 2 {
-        return (m, f64::NAN);
-    }
-    let var = v.iter().map(|a| (a - m) * (a - m)).sum::<f64>() / (n - 1) as f64;
-    (m, (var / n as f64).sqrt())
+    crate::tally::profiles::mean_and_error(&v)
 }
 
 /// The verdict on one difference.

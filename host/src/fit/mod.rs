@@ -25,7 +25,7 @@ use serde::Serialize;
 
 use crate::checkpoint::ScenarioSource;
 use crate::driver::{self, Outcome, Session};
-use crate::output::{PROVENANCE_FILE, Staging, atomic_write};
+use crate::output::{PROVENANCE_FILE, atomic_write, staged};
 use crate::runtime::Runtime;
 use crate::scenario::quantity;
 use observed::{Observable, Observation};
@@ -155,31 +155,18 @@ pub struct FitResult {
 
 /// The model's values for the observations, from a run directory.
 fn model_values(dir: &Path, obs: &[Observation]) -> Result<Vec<f64>, String> {
-    let read = |name: &str| -> Result<Vec<(f64, f64)>, String> {
-        let p = dir.join("profiles").join(name);
-        let t = std::fs::read_to_string(&p).map_err(|e| format!("`{}`: {e}", p.display()))?;
-        Ok(t.lines()
-            .skip(1)
-            .filter_map(|l| {
-                let mut c = l.split(',');
-                Some((c.next()?.parse().ok()?, c.next()?.parse().ok()?))
-            })
-            .collect())
-    };
-    let eq = read("equator_local_time.csv")?;
-    let lat = read("latitude.csv")?;
+    let eq = crate::compare::read_profile(&dir.join("profiles/equator_local_time.csv"))?;
+    let lat = crate::compare::read_profile(&dir.join("profiles/latitude.csv"))?;
     let s = dir.join("summary.json");
     let text = std::fs::read_to_string(&s).map_err(|e| format!("`{}`: {e}", s.display()))?;
     let summary: serde_json::Value = serde_json::from_str(&text).map_err(|e| e.to_string())?;
+    let measures = crate::compare::measures_of(&summary);
     Ok(obs
         .iter()
         .map(|o| match o.what {
             Observable::EquatorColumn(lt) => interpolate(&eq, lt, Some(24.0)),
             Observable::LatitudeColumn(l) => interpolate(&lat, l, None),
-            Observable::Summary(m) => summary
-                .pointer(crate::compare::MEASURES[m].1)
-                .and_then(|x| x.as_f64())
-                .unwrap_or(f64::NAN),
+            Observable::Summary(m) => measures[m],
         })
         .collect())
 }
@@ -322,15 +309,14 @@ pub fn fit(
         }
         s.load(runtime).map_err(|e| e.to_string())?;
     }
-    let staging = Staging::create(out)?;
-    let result = (|| {
+    staged(out, |dir| {
         let ev = Evaluator {
             base,
             params,
             obs,
             seeds: &settings.seeds,
             runtime,
-            work: staging.dir().join("work"),
+            work: dir.join("work"),
             cache: std::sync::Mutex::new((HashMap::new(), Vec::new(), String::new())),
         };
         std::fs::create_dir_all(&ev.work).map_err(|e| e.to_string())?;
@@ -439,8 +425,7 @@ pub fn fit(
         let source = ev.source(&zbest, settings.seeds[0]);
         let scenario = source.load(runtime).map_err(|e| e.to_string())?;
         let session = Session { stop: Arc::new(AtomicBool::new(false)), progress: None };
-        driver::start(scenario, source, &staging.dir().join("best"), session)
-            .map_err(|e| e.to_string())?;
+        driver::start(scenario, source, &dir.join("best"), session).map_err(|e| e.to_string())?;
         let _ = std::fs::remove_dir_all(&ev.work);
         let evaluations = ev.cache.into_inner().map_err(|_| "poisoned")?.1;
         let fr = FitResult {
@@ -462,7 +447,7 @@ pub fn fit(
                       flight-operations data."
                 .into(),
         };
-        write_products(staging.dir(), &fr, obs)?;
+        write_products(dir, &fr, obs)?;
         let prov = serde_json::json!({
             "engine": "exobound",
             "engine_version": env!("CARGO_PKG_VERSION"),
@@ -474,19 +459,9 @@ pub fn fit(
             "best_run": "best/ holds the run at the best fit (first seed) with its own provenance",
         });
         let json = serde_json::to_vec_pretty(&prov).map_err(|e| e.to_string())?;
-        atomic_write(&staging.dir().join(PROVENANCE_FILE), &json).map_err(|e| e.to_string())?;
+        atomic_write(&dir.join(PROVENANCE_FILE), &json).map_err(|e| e.to_string())?;
         Ok(fr)
-    })();
-    match result {
-        Ok(r) => {
-            staging.finish()?;
-            Ok(r)
-        }
-        Err(e) => {
-            staging.discard();
-            Err(e)
-        }
-    }
+    })
 }
 
 /// Inverse of a small symmetric matrix by Gauss-Jordan elimination with

@@ -22,7 +22,7 @@ use exobound_products::{
 };
 use serde::Serialize;
 
-use crate::output::{PROVENANCE_FILE, Staging, atomic_write};
+use crate::output::{PROVENANCE_FILE, atomic_write, staged};
 use crate::vec3;
 use field::DensityField;
 use gfactor::{GFactorTable, brightness_rayleigh};
@@ -202,9 +202,8 @@ pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observati
         .unwrap_or(0.0);
     let g = table.at(v_km_s, r_au).map_err(|e| format!("{}: {e}", view_path.display()))?;
 
-    let staging = Staging::create(out)?;
-    let result = (|| {
-        let obs = compute_and_write(staging.dir(), &field, &view, g, &table, r_au, v_km_s).map(
+    staged(out, |dir| {
+        let obs = compute_and_write(dir, &field, &view, g, &table, r_au, v_km_s).map(
             |(samples, geometry, phase, pa)| Observation {
                 run_dir: run_dir.display().to_string(),
                 view_file: view_path.display().to_string(),
@@ -224,7 +223,6 @@ pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observati
             },
         )?;
         let json = serde_json::to_vec_pretty(&obs).map_err(|e| e.to_string())?;
-        let dir = staging.dir();
         atomic_write(&dir.join("observation.json"), &json).map_err(|e| e.to_string())?;
         let prov = serde_json::json!({
             "engine": "exobound",
@@ -241,17 +239,7 @@ pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observati
         let json = serde_json::to_vec_pretty(&prov).map_err(|e| e.to_string())?;
         atomic_write(&dir.join(PROVENANCE_FILE), &json).map_err(|e| e.to_string())?;
         Ok(obs)
-    })();
-    match result {
-        Ok(obs) => {
-            staging.finish()?;
-            Ok(obs)
-        }
-        Err(e) => {
-            staging.discard();
-            Err(e)
-        }
-    }
+    })
 }
 
 type Computed = (Vec<Sample>, String, Option<f64>, Option<f64>);

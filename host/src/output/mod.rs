@@ -155,6 +155,23 @@ impl Staging {
     }
 }
 
+/// Run `work` in a fresh staging directory for `out` (see [`Staging`]):
+/// on success the directory is renamed to `out`, on failure it is removed,
+/// so `out` holds either every product or none.
+pub fn staged<T>(out: &Path, work: impl FnOnce(&Path) -> Result<T, String>) -> Result<T, String> {
+    let staging = Staging::create(out)?;
+    match work(staging.dir()) {
+        Ok(v) => {
+            staging.finish()?;
+            Ok(v)
+        }
+        Err(e) => {
+            staging.discard();
+            Err(e)
+        }
+    }
+}
+
 /// `out` may be absent, or an earlier exobound output directory; anything
 /// else (a file, a directory of other things) is refused.
 fn check_replaceable(out: &Path) -> Result<(), String> {

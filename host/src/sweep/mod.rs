@@ -373,8 +373,8 @@ pub fn collect(out: &Path) -> Result<SweepResult, String> {
             let t = std::fs::read_to_string(&s).map_err(|e| format!("`{}`: {e}", s.display()))?;
             let v: serde_json::Value =
                 serde_json::from_str(&t).map_err(|e| format!("`{}`: {e}", s.display()))?;
-            for (m, (_, ptr, _)) in MEASURES.iter().enumerate() {
-                per_measure[m].push(v.pointer(ptr).and_then(|x| x.as_f64()).unwrap_or(f64::NAN));
+            for (m, x) in crate::compare::measures_of(&v).into_iter().enumerate() {
+                per_measure[m].push(x);
             }
         }
         let stats: Vec<(f64, f64)> = per_measure.iter().map(|v| mean_and_se(v)).collect();
