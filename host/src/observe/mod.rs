@@ -279,29 +279,17 @@ fn compute_and_write(
                 ));
             }
             atomic_write(&dir.join("brightness.csv"), csv.as_bytes()).map_err(|e| e.to_string())?;
-            e(draw_lines(
-                &LinePlot {
-                    title: format!(
-                        "{}: brightness above the limb, phase {:.0} deg",
-                        view.title,
-                        d.phase_angle.to_degrees()
-                    ),
-                    x_label: "altitude above the limb (km)".into(),
-                    y_label: "brightness 4 pi I (R)".into(),
-                    lines: vec![Line {
-                        label: g_note.clone(),
-                        x: samples.iter().map(|s| s.altitude_km).collect(),
-                        y: samples.iter().map(|s| s.brightness_r).collect(),
-                        y_err: None,
-                        style: LineStyle::Solid,
-                    }],
-                    markers: vec![],
-                    log_y: true,
-                    x_range: None,
-                    x_ticks: None,
-                },
+            brightness_plot(
+                format!(
+                    "{}: brightness above the limb, phase {:.0} deg",
+                    view.title,
+                    d.phase_angle.to_degrees()
+                ),
+                "altitude above the limb (km)",
+                &samples,
+                &g_note,
                 &plots.join("brightness_altitude.png"),
-            ))?;
+            )?;
             let img = distant_image(field, d);
             let edges = |c: &[f64]| -> Vec<f64> {
                 let step = if c.len() > 1 { c[1] - c[0] } else { 1.0 };
@@ -388,29 +376,47 @@ fn compute_and_write(
             }
             atomic_write(&dir.join("brightness.csv"), csv.as_bytes()).map_err(|e| e.to_string())?;
             if samples.len() > 1 {
-                e(draw_lines(
-                    &LinePlot {
-                        title: format!("{}: limb scan from {:.0} km", view.title, o.altitude / 1e3),
-                        x_label: "tangent altitude (km)".into(),
-                        y_label: "brightness 4 pi I (R)".into(),
-                        lines: vec![Line {
-                            label: g_note,
-                            x: samples.iter().map(|s| s.altitude_km).collect(),
-                            y: samples.iter().map(|s| s.brightness_r).collect(),
-                            y_err: None,
-                            style: LineStyle::Solid,
-                        }],
-                        markers: vec![],
-                        log_y: true,
-                        x_range: None,
-                        x_ticks: None,
-                    },
+                brightness_plot(
+                    format!("{}: limb scan from {:.0} km", view.title, o.altitude / 1e3),
+                    "tangent altitude (km)",
+                    &samples,
+                    &g_note,
                     &plots.join("brightness_altitude.png"),
-                ))?;
+                )?;
             }
             Ok((samples, "orbiter".into(), None, None))
         }
     }
+}
+
+/// Brightness (R, log axis) against the samples' altitude (km) as a PNG at `path`.
+fn brightness_plot(
+    title: String,
+    x_label: &str,
+    samples: &[Sample],
+    g_note: &str,
+    path: &Path,
+) -> Result<(), String> {
+    draw_lines(
+        &LinePlot {
+            title,
+            x_label: x_label.into(),
+            y_label: "brightness 4 pi I (R)".into(),
+            lines: vec![Line {
+                label: g_note.into(),
+                x: samples.iter().map(|s| s.altitude_km).collect(),
+                y: samples.iter().map(|s| s.brightness_r).collect(),
+                y_err: None,
+                style: LineStyle::Solid,
+            }],
+            markers: vec![],
+            log_y: true,
+            x_range: None,
+            x_ticks: None,
+        },
+        path,
+    )
+    .map_err(|e| e.to_string())
 }
 
 /// The default output directory of `observe`: `<run_dir>-observe`.
