@@ -6,17 +6,6 @@ use exobound::runtime::reference::run_reference_points;
 
 use crate::support::*;
 
-const STANDARD: [&str; 8] = [
-    "adsorbate-sputter",
-    "impact-vapor",
-    "ion-sputter",
-    "photoionization",
-    "photon-desorption",
-    "regolith-diffusion",
-    "surface-accommodation",
-    "thermal-desorption",
-];
-
 #[test]
 fn inspect_json_has_the_promised_fields() {
     for name in STANDARD {

@@ -176,3 +176,15 @@ pub fn loss_export(tail: &str) -> String {
     {tail})"#
     )
 }
+
+/// The eight standard process modules, by manifest name.
+pub const STANDARD: [&str; 8] = [
+    "adsorbate-sputter",
+    "impact-vapor",
+    "ion-sputter",
+    "photoionization",
+    "photon-desorption",
+    "regolith-diffusion",
+    "surface-accommodation",
+    "thermal-desorption",
+];

@@ -18,17 +18,6 @@ use exobound_sdk::{ManifestInfo, ReferenceInfo};
 
 use crate::support::*;
 
-const STANDARD: [&str; 8] = [
-    "adsorbate-sputter",
-    "impact-vapor",
-    "ion-sputter",
-    "photoionization",
-    "photon-desorption",
-    "regolith-diffusion",
-    "surface-accommodation",
-    "thermal-desorption",
-];
-
 fn options() -> VetOptions {
     VetOptions { cache_dir: None, ..VetOptions::default() }
 }
