@@ -28,6 +28,7 @@ pub mod species;
 pub mod surface;
 pub mod sweep;
 pub mod tally;
+pub mod text;
 pub mod transport;
 pub mod vec3;
 pub mod vet;
