@@ -12,6 +12,7 @@ use serde::Serialize;
 
 use crate::runtime::HostError;
 use crate::runtime::module::{self, ModuleHeader};
+use crate::text::printable;
 
 /// Largest manifest accepted when inspecting, bytes (the runtime's default).
 pub const MAX_MANIFEST: usize = 64 << 10;
@@ -66,48 +67,56 @@ fn from_header(path: &Path, h: ModuleHeader) -> Inspection {
 fn value(v: &Option<ParamValue>) -> String {
     match v {
         None => "(required)".to_string(),
-        Some(v) => v.to_string(),
+        Some(v) => printable(&v.to_string()).into_owned(),
     }
 }
 
-/// A human-readable report.
+/// Module-provided strings joined by `sep`, each made safe to print.
+fn list(items: &[String], sep: &str) -> String {
+    items.iter().map(|x| printable(x)).collect::<Vec<_>>().join(sep)
+}
+
+/// A human-readable report. Every string taken from the module (its
+/// manifest and file name) passes through [`printable`], so a manifest
+/// cannot send escape sequences or bidirectional controls to the terminal.
 pub fn render_text(i: &Inspection) -> String {
     let m = &i.manifest;
+    let p = |x: &str| printable(x).into_owned();
     let mut s = String::new();
-    s += &format!("{} {}  ({})\n", m.name, m.version, i.file);
-    s += &format!("  {}\n\n", m.description);
-    s += &format!("  roles:       {}\n", m.roles.join(", "));
-    if let Some(p) = &m.draws_on {
-        s += &format!("  draws on:    {p} pool\n");
+    s += &format!("{} {}  ({})\n", p(&m.name), p(&m.version), p(&i.file));
+    s += &format!("  {}\n\n", p(&m.description));
+    s += &format!("  roles:       {}\n", list(&m.roles, ", "));
+    if let Some(d) = &m.draws_on {
+        s += &format!("  draws on:    {} pool\n", p(d));
     }
     s += &format!("  ABI:         {}\n", i.abi);
     s += &format!("  sha256:      {}\n", i.sha256);
     s += &format!("  size:        {} bytes\n", i.size_bytes);
-    s += &format!("  law source:  {}\n", m.law_source);
-    s += &format!("  authors:     {} ({})\n", m.authors.join(", "), m.institution);
-    s += &format!("  licence:     {}\n", m.licence);
+    s += &format!("  law source:  {}\n", p(&m.law_source));
+    s += &format!("  authors:     {} ({})\n", list(&m.authors, ", "), p(&m.institution));
+    s += &format!("  licence:     {}\n", p(&m.licence));
     if !m.ledger_label.is_empty() {
-        s += &format!("  ledger:      {}\n", m.ledger_label);
+        s += &format!("  ledger:      {}\n", p(&m.ledger_label));
     }
-    s += &format!("  reads:       {}\n", m.inputs.join(", "));
+    s += &format!("  reads:       {}\n", list(&m.inputs, ", "));
     s += "\n  parameters:\n";
     if m.parameters.is_empty() {
         s += "    (none)\n";
     }
-    for p in &m.parameters {
-        let range = if p.choices.is_empty() {
-            format!("[{}, {}]", p.min.unwrap_or(f64::NEG_INFINITY), p.max.unwrap_or(f64::INFINITY))
+    for q in &m.parameters {
+        let range = if q.choices.is_empty() {
+            format!("[{}, {}]", q.min.unwrap_or(f64::NEG_INFINITY), q.max.unwrap_or(f64::INFINITY))
         } else {
-            format!("one of {}", p.choices.join(" | "))
+            format!("one of {}", list(&q.choices, " | "))
         };
         s += &format!(
             "    {:<22} {:<14} default {:<14} {}\n",
-            p.name,
-            p.unit_or_dimensionless(),
-            value(&p.default),
+            p(&q.name),
+            p(q.unit_or_dimensionless()),
+            value(&q.default),
             range
         );
-        s += &format!("    {:<22} {} (default: {})\n", "", p.description, p.default_origin);
+        s += &format!("    {:<22} {} (default: {})\n", "", p(&q.description), p(&q.default_origin));
     }
     s += "\n  reference points:\n";
     if m.reference_points.is_empty() {
@@ -116,7 +125,11 @@ pub fn render_text(i: &Inspection) -> String {
     for r in &m.reference_points {
         s += &format!(
             "    {}: {} = {:e} (rel. tol. {:e}); {}\n",
-            r.check, r.description, r.expected, r.tolerance, r.source
+            p(&r.check),
+            p(&r.description),
+            r.expected,
+            r.tolerance,
+            p(&r.source)
         );
     }
     s

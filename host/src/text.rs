@@ -9,7 +9,9 @@
 //! bidirectional controls could reorder what the user reads. [`printable`]
 //! turns every such character into a visible `\u{..}` escape and leaves all
 //! other text, non-ASCII letters included, as it is. The result is always a
-//! single line.
+//! single line. [`printable_lines`] does the same but keeps line breaks, for
+//! messages of several lines, and [`json_printable`] does it for JSON text
+//! while keeping it valid JSON with the same meaning.
 
 use std::borrow::Cow;
 
@@ -27,6 +29,44 @@ pub fn printable(s: &str) -> Cow<'_, str> {
     for c in s.chars() {
         if needs_escape(c) {
             out.push_str(&format!("\\u{{{:x}}}", c as u32));
+        } else {
+            out.push(c);
+        }
+    }
+    Cow::Owned(out)
+}
+
+/// Like [`printable`], but line feeds are kept, so that a message of several
+/// lines still prints as several lines; every other character that
+/// [`printable`] escapes is escaped.
+pub fn printable_lines(s: &str) -> Cow<'_, str> {
+    if !s.split('\n').any(|line| line.chars().any(needs_escape)) {
+        return Cow::Borrowed(s);
+    }
+    let lines: Vec<Cow<'_, str>> = s.split('\n').map(printable).collect();
+    Cow::Owned(lines.join("\n"))
+}
+
+/// JSON text (as written by `serde_json`) with every character that
+/// [`printable`] would escape and that JSON leaves raw (DEL, C1 controls,
+/// line and paragraph separators, invisible format characters) written as a
+/// JSON `\uXXXX` escape instead, as a surrogate pair above U+FFFF. Such
+/// characters can only occur inside JSON strings, where the escape decodes
+/// to the same character, so the document means exactly what it did. ASCII
+/// controls are left alone: `serde_json` already escapes them inside
+/// strings, and outside strings they are the layout of pretty-printed JSON.
+pub fn json_printable(json: &str) -> Cow<'_, str> {
+    let bad = |c: char| needs_escape(c) && (c == '\u{7f}' || !c.is_ascii());
+    if !json.chars().any(bad) {
+        return Cow::Borrowed(json);
+    }
+    let mut out = String::with_capacity(json.len() + 16);
+    for c in json.chars() {
+        if bad(c) {
+            let mut units = [0u16; 2];
+            for u in c.encode_utf16(&mut units) {
+                out.push_str(&format!("\\u{:04x}", u));
+            }
         } else {
             out.push(c);
         }
@@ -150,5 +190,31 @@ mod tests {
         assert!(!p.contains('\u{1b}') && !p.contains('\n') && !p.contains('\r'));
         // Printable characters survive in order.
         assert!(p.contains("ABCDEFG") && p.contains("àáâ"));
+    }
+
+    #[test]
+    fn printable_lines_keeps_line_feeds_only() {
+        assert!(matches!(printable_lines("a\nb"), Cow::Borrowed(_)));
+        assert_eq!(
+            printable_lines("one\ntwo\u{1b}[2J\r\n\u{202e}"),
+            "one\ntwo\\u{1b}[2J\\u{d}\n\\u{202e}"
+        );
+    }
+
+    #[test]
+    fn json_printable_escapes_hidden_characters_and_keeps_the_meaning() {
+        let v = serde_json::json!({
+            "description": "ok \u{1b}[2J \u{202e}evil \u{7f} \u{9b} \u{e0041} Å µ °",
+            "n": [1, 2],
+        });
+        let raw = serde_json::to_string_pretty(&v).unwrap();
+        let safe = json_printable(&raw);
+        assert!(!safe.chars().any(|c| needs_escape(c) && c != '\n'), "{safe}");
+        assert!(safe.contains("\\u202e") && safe.contains("\\udb40\\udc41"), "{safe}");
+        assert!(safe.contains("Å µ °"));
+        let back: serde_json::Value = serde_json::from_str(&safe).unwrap();
+        assert_eq!(back, v);
+        let plain = serde_json::to_string_pretty(&serde_json::json!({"a": "Å"})).unwrap();
+        assert!(matches!(json_printable(&plain), Cow::Borrowed(_)));
     }
 }

@@ -2,11 +2,13 @@
 //!
 //! Why this exists: clap and anyhow stay here, out of the library. Each
 //! subcommand maps to one library call; errors are printed with their
-//! cause chain and mapped to exit codes (0 success, 1 failure, 2 usage).
+//! cause chain (control and bidirectional characters escaped, see
+//! `exobound::text`) and mapped to exit codes (0 success, 1 failure, 2 usage).
 
 mod compare;
 mod fit;
 mod run;
+mod sandbox;
 mod share;
 mod sweep;
 
@@ -121,7 +123,9 @@ pub fn run(args: impl IntoIterator<Item = OsString>) -> ExitCode {
     match dispatch(cli) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("error: {e:#}");
+            // The last line of defence: whatever module, file or record an
+            // error quotes, no escape sequence reaches the terminal.
+            eprintln!("error: {}", exobound::text::printable_lines(&format!("{e:#}")));
             ExitCode::from(1)
         }
     }
@@ -166,7 +170,8 @@ fn dispatch(cli: Cli) -> Result<()> {
             ModuleAction::Inspect { file, json } => {
                 let report = inspect::inspect(&file)?;
                 if json {
-                    println!("{}", serde_json::to_string_pretty(&report)?);
+                    let json = serde_json::to_string_pretty(&report)?;
+                    println!("{}", exobound::text::json_printable(&json));
                 } else {
                     print!("{}", inspect::render_text(&report));
                 }

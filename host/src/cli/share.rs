@@ -3,7 +3,10 @@
 //!
 //! Why this exists: each command is one call into `exobound::vet` or
 //! `exobound::share`, plus printing; a failed vet, a bad signature or a
-//! changed module file is an error (exit code 1) after the report.
+//! changed module file is an error (exit code 1) after the report. Strings
+//! read from modules, signatures, catalogs and run records were written by
+//! others, so they are printed through `exobound::text` (escape sequences
+//! and bidirectional controls shown as visible escapes).
 
 use std::path::{Path, PathBuf};
 
@@ -11,7 +14,13 @@ use anyhow::{Context, Result, anyhow, bail};
 use clap::{Args, Subcommand};
 use exobound::share::catalog::{Catalog, parse_ref};
 use exobound::share::{keys, signature, trace};
+use exobound::text::{json_printable, printable};
 use exobound::vet::{self, VetReport};
+
+/// `value` as pretty JSON, safe to print (see `exobound::text::json_printable`).
+fn pretty_json(value: &impl serde::Serialize) -> Result<String> {
+    Ok(json_printable(&serde_json::to_string_pretty(value)?).into_owned())
+}
 
 /// `exobound module vet`.
 #[derive(Args)]
@@ -137,16 +146,15 @@ fn vet_or_read(file: &Path, report: &Option<PathBuf>) -> Result<VetReport> {
 pub fn vet(a: VetArgs) -> Result<()> {
     let report = vet::vet_file(&a.file)?;
     if let Some(out) = &a.out {
-        let json = serde_json::to_string_pretty(&report)?;
-        exobound::share::write_atomic(out, json.as_bytes(), false)?;
+        exobound::share::write_atomic(out, pretty_json(&report)?.as_bytes(), false)?;
     }
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&report)?);
+        println!("{}", pretty_json(&report)?);
     } else {
         print!("{}", vet::render_text(&report));
     }
     if !report.passed {
-        bail!("vet failed: {}", report.failed().join(", "));
+        bail!("vet failed: {}", printable(&report.failed().join(", ")));
     }
     Ok(())
 }
@@ -172,10 +180,10 @@ pub fn sign(a: SignArgs) -> Result<()> {
     signature::write(&out, &sig)?;
     println!(
         "signed {} {} (sha256 {}) as `{}` (key {}); wrote {}",
-        sig.module,
-        sig.version,
+        printable(&sig.module),
+        printable(&sig.version),
         sig.module_sha256,
-        sig.signer,
+        printable(&sig.signer),
         sig.key_id,
         out.display()
     );
@@ -198,17 +206,17 @@ pub fn verify(a: VerifyArgs) -> Result<()> {
         if !trusted {
             bail!(
                 "the signature is valid, but its signer `{}` (key {}) is none of the --trusted keys",
-                v.signer,
+                printable(&v.signer),
                 v.key_id
             );
         }
     }
     println!(
         "valid: {} {} (sha256 {}) signed by `{}` (key {}{}); the signed vet {}",
-        sig.module,
-        sig.version,
-        sig.module_sha256,
-        v.signer,
+        printable(&sig.module),
+        printable(&sig.version),
+        printable(&sig.module_sha256),
+        printable(&v.signer),
         v.key_id,
         if a.trusted.is_empty() { ", not checked against a trust list" } else { ", trusted" },
         if v.vet_passed { "passed" } else { "FAILED" }
@@ -225,7 +233,7 @@ pub fn catalog(action: CatalogAction) -> Result<()> {
             let e = cat.add(&file, &report, &sigs)?;
             println!(
                 "added {} (sha256 {}, vet {}, {} signature(s)) to {}",
-                e.reference(),
+                printable(&e.reference()),
                 e.sha256,
                 if e.vet_passed { "passed" } else { "FAILED" },
                 e.signatures.len(),
@@ -236,18 +244,19 @@ pub fn catalog(action: CatalogAction) -> Result<()> {
         CatalogAction::List { catalog, json } => {
             let cat = Catalog::open(&catalog)?;
             if json {
-                println!("{}", serde_json::to_string_pretty(&cat.index.modules)?);
+                println!("{}", pretty_json(&cat.index.modules)?);
                 return Ok(());
             }
             if cat.index.modules.is_empty() {
                 println!("{}: no modules", catalog.display());
             }
             for e in &cat.index.modules {
-                let signers: Vec<&str> = e.signatures.iter().map(|s| s.signer.as_str()).collect();
+                let signers: Vec<String> =
+                    e.signatures.iter().map(|s| printable(&s.signer).into_owned()).collect();
                 println!(
                     "{:<32} sha256 {}  vet {}  signed by: {}",
-                    e.reference(),
-                    &e.sha256[..16.min(e.sha256.len())],
+                    printable(&e.reference()),
+                    printable(e.sha256.get(..16).unwrap_or(&e.sha256)),
                     if e.vet_passed { "pass" } else { "FAIL" },
                     if signers.is_empty() { "(nobody)".to_string() } else { signers.join("; ") }
                 );
@@ -257,10 +266,14 @@ pub fn catalog(action: CatalogAction) -> Result<()> {
         CatalogAction::Show { catalog, module, json } => {
             let cat = Catalog::open(&catalog)?;
             let (name, version) = parse_ref(&module).ok_or_else(|| {
-                anyhow!("`{module}` is not name@version (e.g. photoionization@1.0.0)")
+                anyhow!("`{}` is not name@version (e.g. photoionization@1.0.0)", printable(&module))
             })?;
             let entry = cat.find(name, version).ok_or_else(|| {
-                anyhow!("`{module}` is not in `{}`; see `exobound catalog list`", catalog.display())
+                anyhow!(
+                    "`{}` is not in `{}`; see `exobound catalog list`",
+                    printable(&module),
+                    catalog.display()
+                )
             })?;
             let st = cat.standing(entry);
             if json {
@@ -276,11 +289,11 @@ pub fn catalog(action: CatalogAction) -> Result<()> {
                     "accepted": st.verdict.is_ok(),
                     "refusals": st.verdict.clone().err().unwrap_or_default(),
                 });
-                println!("{}", serde_json::to_string_pretty(&v)?);
+                println!("{}", pretty_json(&v)?);
             } else {
-                println!("{}  in {}", st.entry.reference(), catalog.display());
-                println!("  file:      {}", st.path.display());
-                println!("  sha256:    {} (index)", st.entry.sha256);
+                println!("{}  in {}", printable(&st.entry.reference()), catalog.display());
+                println!("  file:      {}", printable(&st.path.display().to_string()));
+                println!("  sha256:    {} (index)", printable(&st.entry.sha256));
                 println!(
                     "             {} (file now)",
                     st.sha256_now.as_deref().unwrap_or("(missing)")
@@ -288,13 +301,13 @@ pub fn catalog(action: CatalogAction) -> Result<()> {
                 println!(
                     "  vet:       {} ({})",
                     if st.entry.vet_passed { "passed" } else { "FAILED" },
-                    st.entry.vet_report
+                    printable(&st.entry.vet_report)
                 );
                 for (r, s) in st.entry.signatures.iter().zip(&st.signatures) {
                     match s {
                         Ok(v) => println!(
                             "  signature: `{}` key {}: valid{}",
-                            v.signer,
+                            printable(&v.signer),
                             v.key_id,
                             if cat.policy.trusts(v) {
                                 ", trusted"
@@ -304,7 +317,11 @@ pub fn catalog(action: CatalogAction) -> Result<()> {
                                 ", not trusted by the policy"
                             }
                         ),
-                        Err(e) => println!("  signature: {} ({}): INVALID: {e}", r.signer, r.file),
+                        Err(e) => println!(
+                            "  signature: {} ({}): INVALID: {e}",
+                            printable(&r.signer),
+                            printable(&r.file)
+                        ),
                     }
                 }
                 if cat.policy.is_open() {
@@ -312,14 +329,15 @@ pub fn catalog(action: CatalogAction) -> Result<()> {
                 }
                 match &st.verdict {
                     Ok(_) => println!("  verdict:   accepted by the catalog's trust policy"),
-                    Err(r) => println!("  verdict:   REFUSED: {}", r.join("; ")),
+                    Err(r) => println!("  verdict:   REFUSED: {}", printable(&r.join("; "))),
                 }
             }
             if let Err(r) = st.verdict {
                 bail!(
-                    "{module} does not meet the trust policy of {}: {}",
+                    "{} does not meet the trust policy of {}: {}",
+                    printable(&module),
                     catalog.display(),
-                    r.join("; ")
+                    printable(&r.join("; "))
                 );
             }
             Ok(())
@@ -331,7 +349,7 @@ pub fn catalog(action: CatalogAction) -> Result<()> {
 pub fn provenance(a: ProvenanceArgs) -> Result<()> {
     let t = trace::trace(&a.run_dir)?;
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&t)?);
+        println!("{}", pretty_json(&t)?);
     } else {
         print!("{}", trace::render_text(&t));
     }

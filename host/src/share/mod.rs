@@ -29,8 +29,10 @@ use std::path::Path;
 pub struct ShareError(pub String);
 
 impl std::fmt::Display for ShareError {
+    /// The message, with control and bidirectional characters escaped: it
+    /// may quote signature files, catalogs and manifests made by others.
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(&self.0)
+        f.write_str(&crate::text::printable_lines(&self.0))
     }
 }
 

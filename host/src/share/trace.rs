@@ -14,6 +14,7 @@ use serde::Serialize;
 use super::ShareError;
 use crate::output::PROVENANCE_FILE;
 use crate::runtime::module::sha256_hex;
+use crate::text::printable;
 
 /// What re-hashing a recorded module found.
 #[derive(Clone, Debug, PartialEq, Eq, Serialize)]
@@ -119,19 +120,31 @@ pub fn trace(run_dir: &Path) -> Result<Trace, ShareError> {
 
 /// The trace as text.
 pub fn render_text(t: &Trace) -> String {
+    // Every string here was read from `provenance.json`, which anyone may
+    // have edited, and names come from module manifests: print them safely.
+    let p = |x: &str| printable(x).into_owned();
     let mut s = format!(
         "run {} made by {} from {} (seed {})\n",
-        t.run_dir, t.engine, t.scenario_origin, t.seed
+        p(&t.run_dir),
+        p(&t.engine),
+        p(&t.scenario_origin),
+        t.seed
     );
     for m in &t.modules {
         let state = match &m.now {
             FileState::Same => "present, same digest".to_string(),
-            FileState::Changed(d) => format!("CHANGED: the file now has sha256 {d}"),
+            FileState::Changed(d) => format!("CHANGED: the file now has sha256 {}", p(d)),
             FileState::Missing => "not present (cannot re-verify)".to_string(),
         };
         s += &format!(
             "  {:<22} {:<8} {:<20} sha256 {}\n  {:<22} {} ({})\n",
-            m.name, m.version, m.role, m.sha256, "", m.path, state
+            p(&m.name),
+            p(&m.version),
+            p(&m.role),
+            p(&m.sha256),
+            "",
+            p(&m.path),
+            state
         );
     }
     s

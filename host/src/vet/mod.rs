@@ -49,6 +49,7 @@ use crate::runtime::reference::run_reference_points;
 use crate::runtime::{
     DomainError, HostError, LoadedModule, ProcessInstance, Runtime, RuntimeConfig,
 };
+use crate::text::printable;
 use envelope::Call;
 
 /// Version of the vet report layout.
@@ -376,28 +377,35 @@ fn reference_check(ctx: &Context) -> Check {
     }
 }
 
-/// The report as text, one block per check.
+/// The report as text, one block per check. Every string in the report
+/// passes through [`printable`]: names, summaries and details quote the
+/// module's manifest, and a report read from a file may come from anyone.
 pub fn render_text(r: &VetReport) -> String {
+    let p = |x: &str| printable(x).into_owned();
     let mut s = String::new();
     let who = if r.name.is_empty() {
         "(unreadable module)".to_string()
     } else {
-        format!("{} {}", r.name, r.version)
+        format!("{} {}", p(&r.name), p(&r.version))
     };
-    s += &format!("vet {who}  ({})\n", r.file);
-    s += &format!("  sha256: {}\n", r.sha256);
+    s += &format!("vet {who}  ({})\n", p(&r.file));
+    s += &format!("  sha256: {}\n", p(&r.sha256));
     if !r.base_parameters.is_empty() {
-        let p: Vec<String> = r.base_parameters.iter().map(|(k, v)| format!("{k} = {v}")).collect();
-        s += &format!("  base parameters (no default in the manifest): {}\n", p.join(", "));
+        let b: Vec<String> = r
+            .base_parameters
+            .iter()
+            .map(|(k, v)| format!("{} = {}", p(k), p(&v.to_string())))
+            .collect();
+        s += &format!("  base parameters (no default in the manifest): {}\n", b.join(", "));
     }
     s += "\n";
     for c in &r.checks {
-        s += &format!("  [{:<14}] {:<17} {}\n", c.status.as_str(), c.name, c.summary);
+        s += &format!("  [{:<14}] {:<17} {}\n", c.status.as_str(), p(&c.name), p(&c.summary));
         for d in &c.details {
-            s += &format!("  {:<16}   {d}\n", "");
+            s += &format!("  {:<16}   {}\n", "", p(d));
         }
         for (k, v) in &c.measured {
-            s += &format!("  {:<16}   {k} = {v:.6e}\n", "");
+            s += &format!("  {:<16}   {} = {v:.6e}\n", "", p(k));
         }
     }
     s += &format!(
