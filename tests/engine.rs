@@ -9,7 +9,7 @@ use exobound::body::Body;
 use exobound::engine::{Model, Processes, RunConfig, Simulation};
 use exobound::environment::SunGeometry;
 use exobound::runtime::backend::ModuleHandle;
-use exobound::runtime::{Runtime, RuntimeConfig};
+use exobound::runtime::{Runtime, RuntimeConfig, SandboxLimits};
 use exobound::species::Species;
 use exobound::surface::{Grid, Reservoir, TemperatureLaw};
 use exobound_sdk::ParamValue;
@@ -23,7 +23,8 @@ fn runtime() -> Arc<Runtime> {
 
 fn module(rt: &Arc<Runtime>, name: &str, p: &[(&str, ParamValue)]) -> ModuleHandle {
     let m = rt.load(&exobound::standard_module(name)).unwrap_or_else(|e| panic!("{name}: {e}"));
-    ModuleHandle::wasm(rt.clone(), m, params(p)).unwrap_or_else(|e| panic!("{name}: {e}"))
+    ModuleHandle::wasm(rt.clone(), m, params(p), SandboxLimits::default())
+        .unwrap_or_else(|e| panic!("{name}: {e}"))
 }
 
 fn num(x: f64) -> ParamValue {

@@ -6,7 +6,7 @@ use std::sync::Arc;
 use std::sync::atomic::{AtomicUsize, Ordering};
 use std::time::Duration;
 
-use exobound::runtime::{LoadedModule, Runtime, RuntimeConfig};
+use exobound::runtime::{LoadedModule, Runtime, RuntimeConfig, SandboxLimits};
 use exobound_sdk::{InFlight, ManifestInfo, ParamValue};
 
 /// A directory under the system temp dir, removed when dropped.
@@ -38,17 +38,19 @@ impl Drop for TempDir {
     }
 }
 
-/// The wall-time budget per call used by the sandbox tests.
-pub const TEST_BUDGET: Duration = Duration::from_millis(250);
+/// The fuel limits of the sandbox tests: a fiftieth of the defaults, still
+/// some ten times what the standard laws need per record.
+pub const TEST_LIMITS: SandboxLimits = SandboxLimits {
+    fuel_per_record: 20_000,
+    fuel_per_call: 1_000_000,
+    memory_cap: 64 << 20,
+    backstop: Duration::from_secs(300),
+};
 
-/// A runtime with a short call budget and no disk cache.
+/// A runtime with small fuel budgets and no disk cache.
 pub fn runtime() -> Runtime {
-    Runtime::new(RuntimeConfig {
-        call_budget: TEST_BUDGET,
-        cache_dir: None,
-        ..RuntimeConfig::default()
-    })
-    .expect("runtime")
+    Runtime::new(RuntimeConfig { limits: TEST_LIMITS, cache_dir: None, ..RuntimeConfig::default() })
+        .expect("runtime")
 }
 
 /// Parameters from (name, value) pairs.

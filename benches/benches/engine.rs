@@ -14,7 +14,7 @@ use exobound::body::Body;
 use exobound::engine::{Model, Processes, RunConfig, Simulation};
 use exobound::environment::SunGeometry;
 use exobound::runtime::backend::{ModuleHandle, NativeProcess};
-use exobound::runtime::{Runtime, RuntimeConfig};
+use exobound::runtime::{Runtime, RuntimeConfig, SandboxLimits};
 use exobound::species::Species;
 use exobound::surface::{Grid, Reservoir, TemperatureLaw};
 use exobound::transport::kepler::{Direction, Orbit};
@@ -63,7 +63,7 @@ fn processes(wasm: bool) -> Processes {
         let rt = Arc::new(Runtime::new(RuntimeConfig::default()).unwrap());
         let load = |name: &str, p: BTreeMap<String, ParamValue>| {
             let m = rt.load(&exobound::standard_module(name)).unwrap();
-            ModuleHandle::wasm(rt.clone(), m, p).unwrap()
+            ModuleHandle::wasm(rt.clone(), m, p, SandboxLimits::default()).unwrap()
         };
         Processes {
             sources: vec![load("thermal-desorption", td)],

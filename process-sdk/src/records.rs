@@ -18,32 +18,69 @@
 //! - surface densities in atoms cm^-2 and fluxes in cm^-2 s^-1, as the
 //!   laboratory and observing literature quote them; everything else SI.
 
-/// The key of one record's random stream (see [`crate::rng::Rng`]).
+/// The key of one record's random stream (see [`crate::rng::Rng`]): run
+/// seed, particle, event, stream and step.
+///
+/// The `stream` word holds two parts: the named stream in its low 8 bits
+/// (see [`stream`]) and the step number in its high 24 bits, so that
+/// draws of the same particle and event in different steps (in flight, a
+/// particle keeps its event counter from step to step) are distinct
+/// without folding the step into the seed. Build keys with
+/// [`RngKey::at_step`]; read the parts with [`RngKey::stream_id`] and
+/// [`RngKey::step`].
 #[repr(C)]
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 pub struct RngKey {
     /// Run seed chosen by the user, dimensionless.
     pub seed: u64,
-    /// Particle id, unique within the run (for cell-level events, the cell
-    /// index offset by the host), dimensionless.
+    /// Particle id, unique within the run and below 2^40 (for cell-level
+    /// host draws, source << 32 | cell), dimensionless.
     pub particle: u64,
     /// Event counter of this particle (0 at launch, +1 per landing), dimensionless.
     pub event: u32,
-    /// Named stream: see [`stream`]; only the low 8 bits are used.
+    /// Named stream in the low 8 bits (see [`stream`]), step number in the high 24.
     pub stream: u32,
 }
 
+impl RngKey {
+    /// The key of (run seed, particle, event, named stream, step); the step
+    /// is taken modulo 2^24 (the host refuses runs of more steps).
+    pub const fn at_step(seed: u64, particle: u64, event: u32, stream: u32, step: u64) -> RngKey {
+        RngKey { seed, particle, event, stream: (stream & 0xFF) | ((step as u32 & 0xFF_FFFF) << 8) }
+    }
+
+    /// The named stream, see [`stream`].
+    pub const fn stream_id(&self) -> u32 {
+        self.stream & 0xFF
+    }
+
+    /// The step number, dimensionless.
+    pub const fn step(&self) -> u32 {
+        self.stream >> 8
+    }
+}
+
 /// Named random streams, so that launch, flight and surface draws of one
-/// event never share numbers.
+/// event never share numbers. Streams 1-3 are handed to modules with their
+/// records; streams from 0x80 up are the host's own and are never handed
+/// to a module, so a module's draws cannot be correlated with the host's.
 pub mod stream {
-    /// Launch velocity of a newly released particle.
+    /// Launch velocity of a newly released particle (modules).
     pub const LAUNCH: u32 = 1;
-    /// Draws made in flight (e.g. a stochastic loss).
+    /// Draws made in flight, e.g. by a stochastic loss (modules).
     pub const FLIGHT: u32 = 2;
-    /// Surface interaction at landing (stick, bounce, lost).
+    /// Surface interaction at landing: stick, bounce, lost (modules).
     pub const SURFACE: u32 = 3;
-    /// Host-side draws: stochastic rounding of released atoms into particles.
-    pub const RELEASE: u32 = 4;
+    /// Host: stochastic rounding of released atoms into particles, and
+    /// each new particle's launch point and time.
+    pub const HOST_RELEASE: u32 = 0x81;
+    /// Host: survival of a flight segment against the in-flight losses, and
+    /// which loss took the atom.
+    pub const HOST_SURVIVAL: u32 = 0x82;
+    /// The streams handed to modules.
+    pub const MODULE_STREAMS: [u32; 3] = [LAUNCH, FLIGHT, SURFACE];
+    /// The host's own streams.
+    pub const HOST_STREAMS: [u32; 2] = [HOST_RELEASE, HOST_SURVIVAL];
 }
 
 /// The state of one surface cell, as seen by `Source::release_rate` and

@@ -12,8 +12,11 @@
 //! The generator is Philox4x32-10 (Salmon, Moraes, Dror & Shaw 2011,
 //! "Parallel random numbers: as easy as 1, 2, 3", SC'11): a keyed bijection
 //! of a 128-bit counter, built from 32-bit multiplies so that it is cheap
-//! on wasm32. The 64-bit key is the run seed; the counter words are
-//! `[block | stream << 24, event, particle low, particle high]`.
+//! on wasm32. The 64-bit Philox key is the run seed; the counter words are
+//! `[block | stream << 24, event, particle low, particle high | step << 8]`:
+//! particle ids below 2^40 ([`MAX_PARTICLE_ID`]) and steps below 2^24 each
+//! have their own bits, so every (particle, event, stream, step) names its
+//! own sequence of 2^24 blocks.
 
 use crate::records::RngKey;
 
@@ -25,6 +28,10 @@ const W1: u32 = 0xBB67_AE85;
 /// Number of 128-bit blocks one key can produce before its counter would
 /// run into the next stream: 2^24 blocks, i.e. 2^25 64-bit draws.
 pub const BLOCKS_PER_KEY: u32 = 1 << 24;
+
+/// Particle ids must stay below this (2^40) so that they do not overlap
+/// the step's bits in the counter, dimensionless.
+pub const MAX_PARTICLE_ID: u64 = 1 << 40;
 
 #[inline(always)]
 fn mulhilo(a: u32, b: u32) -> (u32, u32) {
@@ -74,10 +81,11 @@ impl Rng {
     /// A generator positioned at the first number of the stream named by `key`.
     #[inline]
     pub fn new(key: RngKey) -> Rng {
-        let stream = (key.stream & 0xFF) << 24;
+        let stream = key.stream_id() << 24;
+        let high = ((key.particle >> 32) as u32 & 0xFF) | (key.step() << 8);
         Rng {
             key: [key.seed as u32, (key.seed >> 32) as u32],
-            ctr: [stream, key.event, key.particle as u32, (key.particle >> 32) as u32],
+            ctr: [stream, key.event, key.particle as u32, high],
             w0: 0,
             w1: 0,
             left: 0,
@@ -165,6 +173,9 @@ mod tests {
             RngKey { particle: 12, ..k },
             RngKey { event: 4, ..k },
             RngKey { stream: 2, ..k },
+            RngKey::at_step(7, 11, 3, 1, 1),
+            RngKey::at_step(7, 11, 3, 1, 0xFF_FFFF),
+            RngKey { particle: 11 | (1 << 32), ..k },
         ] {
             let mut r = Rng::new(other);
             let c: Vec<u64> = (0..16).map(|_| r.next_u64()).collect();
@@ -191,5 +202,26 @@ mod tests {
         assert!((mean - 0.5).abs() < 3.0 * (1.0 / 12.0f64 / n as f64).sqrt());
         assert!((var - 1.0 / 12.0).abs() < 3.0 * (1.0 / 180.0f64 / n as f64).sqrt());
         assert!(xs.iter().all(|&x| x > 0.0 && x < 1.0));
+    }
+
+    #[test]
+    fn step_and_stream_are_separate_parts_of_the_key() {
+        let k = RngKey::at_step(5, 9, 2, crate::records::stream::FLIGHT, 1234);
+        assert_eq!(k.stream_id(), crate::records::stream::FLIGHT);
+        assert_eq!(k.step(), 1234);
+        // Step 0 is the plain key of ABI 1.0: old records keep their streams.
+        assert_eq!(
+            RngKey::at_step(5, 9, 2, 3, 0),
+            RngKey { seed: 5, particle: 9, event: 2, stream: 3 }
+        );
+        // The step and the high particle bits have separate counter bits.
+        let a = Rng::new(RngKey::at_step(5, MAX_PARTICLE_ID - 1, 0, 1, 0)).next_u64();
+        let b = Rng::new(RngKey::at_step(5, (1 << 32) - 1, 0, 1, 1)).next_u64();
+        assert_ne!(a, b);
+        // No host stream is ever a module stream.
+        for h in crate::records::stream::HOST_STREAMS {
+            assert!(!crate::records::stream::MODULE_STREAMS.contains(&h));
+            assert!(h < 0x100);
+        }
     }
 }

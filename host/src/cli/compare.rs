@@ -37,10 +37,14 @@ pub struct CompareArgs {
     /// With no scenario file: use the demo's quick preset.
     #[arg(long)]
     quick: bool,
+    /// Limits of every module call.
+    #[command(flatten)]
+    sandbox: super::sandbox::SandboxArgs,
 }
 
 /// Run `exobound compare`.
-pub fn run(args: CompareArgs) -> Result<()> {
+pub fn run(mut args: CompareArgs) -> Result<()> {
+    args.set.extend(args.sandbox.overrides());
     let mut variants: Vec<Variant> = Vec::new();
     if args.variants.is_empty() {
         if args.scenarios.len() < 2 {

@@ -40,10 +40,14 @@ pub struct FitArgs {
     /// With no scenario file: the demo's quick preset.
     #[arg(long)]
     quick: bool,
+    /// Limits of every module call.
+    #[command(flatten)]
+    sandbox: super::sandbox::SandboxArgs,
 }
 
 /// Run `exobound fit`.
-pub fn run(args: FitArgs) -> Result<()> {
+pub fn run(mut args: FitArgs) -> Result<()> {
+    args.set.extend(args.sandbox.overrides());
     if args.free.is_empty() {
         bail!("give at least one --free KEY=LO..HI UNIT");
     }

@@ -43,6 +43,9 @@ pub struct RunArgs {
     /// Renew the module digests pinned in `exobound.lock` next to the scenario.
     #[arg(long, conflicts_with = "resume")]
     update_lock: bool,
+    /// Limits of every module call.
+    #[command(flatten)]
+    sandbox: super::sandbox::SandboxArgs,
     /// Continue the interrupted run whose output directory is DIR.
     #[arg(long, value_name = "DIR", conflicts_with_all = ["scenario", "quick", "seed", "set"])]
     resume: Option<PathBuf>,
@@ -60,6 +63,7 @@ pub fn run(args: RunArgs) -> Result<()> {
     if let Some(c) = &args.checkpoint_every {
         overrides.push(format!("run.checkpoint_every=\"{}\"", c.replace('"', "")));
     }
+    overrides.extend(args.sandbox.overrides());
     let runtime = Arc::new(
         Runtime::new(RuntimeConfig::default()).context("starting the WebAssembly runtime")?,
     );

@@ -44,6 +44,10 @@ pub struct SweepArgs {
     /// With --emit-slurm: partition.
     #[arg(long)]
     partition: Option<String>,
+    /// Limits of every module call (local runs; for Slurm shards put
+    /// `sandbox.KEY=VALUE` in the plan's `set` list).
+    #[command(flatten)]
+    sandbox: super::sandbox::SandboxArgs,
 }
 
 #[derive(Subcommand)]
@@ -69,7 +73,16 @@ pub fn run(args: SweepArgs) -> Result<()> {
     let Some(plan_path) = &args.plan else {
         bail!("give a plan file (exobound sweep PLAN.toml) or `exobound sweep collect DIR`");
     };
-    let plan = sweep::plan::read(plan_path).map_err(anyhow::Error::msg)?;
+    let mut plan = sweep::plan::read(plan_path).map_err(anyhow::Error::msg)?;
+    let sandbox = args.sandbox.overrides();
+    if args.emit_slurm.is_some() && !sandbox.is_empty() {
+        bail!(
+            "the sandbox flags apply to local runs only; for Slurm shards put them in the \
+             plan's `set` list, e.g. set = [\"sandbox.fuel_per_record=1e7\"]"
+        );
+    }
+    // The limits never change a result, so they are not part of the plan's digest.
+    plan.set.extend(sandbox);
     if let Some(dir) = &args.emit_slurm {
         let shards = args.shards.unwrap_or(plan.points.len().min(1000)).max(1);
         std::fs::create_dir_all(dir.join("logs"))

@@ -180,8 +180,8 @@ impl StepContext<'_> {
         let boundary = self.config.boundary_radius;
         let seed = self.config.seed;
         // Flight draws must differ from step to step for the same particle
-        // and event, so the step is folded into their key's seed.
-        let flight_seed = seed ^ self.step.wrapping_mul(0x9E37_79B9_7F4A_7C15);
+        // and event, so the step is a part of every key.
+        let step = self.step;
         let mass = self.model.species.mass;
         let n = chunk.id.len();
         let mut books = ChunkBooks { losses: vec![0.0; n_losses], ..Default::default() };
@@ -278,12 +278,13 @@ impl StepContext<'_> {
                     let (lat, lon_bci) = frames::lat_lon(r1);
                     let lon = frames::inertial_to_fixed_longitude(lon_bci, spin, t_at);
                     records.push(InFlight {
-                        key: RngKey {
-                            seed: flight_seed,
-                            particle: chunk.id[i],
-                            event: chunk.event[i],
-                            stream: stream::FLIGHT,
-                        },
+                        key: RngKey::at_step(
+                            seed,
+                            chunk.id[i],
+                            chunk.event[i],
+                            stream::FLIGHT,
+                            step,
+                        ),
                         altitude: norm(r1) - radius,
                         latitude: lat,
                         local_time: self.model.sun.local_time_hours(body, lon, t_at),
@@ -322,7 +323,14 @@ impl StepContext<'_> {
                     // probability exp(-beta tau); if not, the loss that took it
                     // is drawn in proportion to the rates.
                     let survive = exobound_sdk::math::exp(-beta * seg_time[k]);
-                    let mut rng = Rng::new(records[k].key);
+                    // The host's own stream: never the key a loss module got.
+                    let mut rng = Rng::new(RngKey::at_step(
+                        seed,
+                        chunk.id[i],
+                        chunk.event[i],
+                        stream::HOST_SURVIVAL,
+                        step,
+                    ));
                     let u = rng.uniform();
                     if u < survive {
                         continue;
@@ -365,12 +373,13 @@ impl StepContext<'_> {
                         books.landed += chunk.weight[i];
                         books.hops += 1;
                         impacts.push(Impact {
-                            key: RngKey {
+                            key: RngKey::at_step(
                                 seed,
-                                particle: chunk.id[i],
-                                event: chunk.event[i],
-                                stream: stream::SURFACE,
-                            },
+                                chunk.id[i],
+                                chunk.event[i],
+                                stream::SURFACE,
+                                step,
+                            ),
                             cell: cell as u32,
                             flags: if cos_sza > 0.0 { flags::SUNLIT } else { 0 },
                             latitude: lat,

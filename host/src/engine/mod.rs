@@ -28,6 +28,10 @@ use crate::surface::{Grid, Reservoir, TemperatureLaw};
 use crate::tally::{DensityTally, Ledger, LedgerRow};
 use crate::transport::frames;
 
+/// Most steps of one run: the step number has 24 bits of the random-number
+/// key (see `exobound_sdk::RngKey`), dimensionless.
+pub const MAX_STEPS: u64 = 1 << 24;
+
 /// Why a run could not go on.
 #[derive(Debug)]
 pub enum EngineError {
@@ -35,6 +39,16 @@ pub enum EngineError {
     Module(ModuleError),
     /// The configuration is unusable; the message names the setting.
     Config(String),
+    /// A quantity became infinite or NaN: the run stops rather than write
+    /// products that hold it.
+    Numeric {
+        /// The step in which it happened, from 0.
+        step: u64,
+        /// What overflowed, with the numbers that led to it and their units.
+        quantity: String,
+        /// The module or modules whose output led to it.
+        modules: String,
+    },
 }
 
 impl std::fmt::Display for EngineError {
@@ -42,6 +56,13 @@ impl std::fmt::Display for EngineError {
         match self {
             EngineError::Module(e) => write!(f, "{e}"),
             EngineError::Config(m) => write!(f, "invalid run configuration: {m}"),
+            EngineError::Numeric { step, quantity, modules } => write!(
+                f,
+                "step {step}: {quantity} is not a finite number; it follows from the output of \
+                 {modules}. The run was stopped and no products were written; check that \
+                 module's rates and the scenario's fluxes and reservoir for values far outside \
+                 the physical range"
+            ),
         }
     }
 }
@@ -433,6 +454,12 @@ impl Simulation {
 
     /// Advance one step of `dt`.
     pub fn step(&mut self) -> Result<&LedgerRow, EngineError> {
+        if self.step >= MAX_STEPS {
+            return Err(EngineError::Config(format!(
+                "the run has reached {MAX_STEPS} steps, the most the random-number keys can \
+                 tell apart; raise run.dt or shorten run.duration"
+            )));
+        }
         let dt = self.config.dt;
         let t_mid = self.time + 0.5 * dt;
         let stock_before = self.bank.total_weight() + self.model.reservoir.total();
@@ -461,9 +488,51 @@ impl Simulation {
         row.adsorbed = self.model.reservoir.total();
         row.particles = self.bank.len() as u64;
         row.close(stock_before);
+        self.check_finite(&row)?;
         self.adapt_budget(present, row.launched);
         self.ledger.rows.push(row);
         Ok(self.ledger.rows.last().expect("just pushed"))
+    }
+
+    /// Stop the run if the step's ledger row or the tally holds a value
+    /// that is not finite, naming the quantity and the modules behind it.
+    fn check_finite(&self, row: &LedgerRow) -> Result<(), EngineError> {
+        let names = |ms: &[&ModuleHandle]| {
+            let v: Vec<String> = ms.iter().map(|m| format!("module `{}`", m.name())).collect();
+            if v.is_empty() { "the scenario's initial state".to_string() } else { v.join(", ") }
+        };
+        let p = &self.processes;
+        let sources: Vec<&ModuleHandle> = p.sources.iter().collect();
+        let numeric = |quantity: String, modules: String| {
+            Err(EngineError::Numeric { step: row.step, quantity, modules })
+        };
+        if let Some((name, index, value)) = row.first_non_finite() {
+            let (label, modules) = match (name, index) {
+                ("losses", Some(i)) => (format!("losses[{i}]"), names(&[&p.losses[i]])),
+                ("removed", Some(k)) => (format!("removed[{k}]"), names(&[&p.reservoir[k]])),
+                ("supplied_from_bulk", _) => {
+                    let mut ms = sources.clone();
+                    ms.extend(p.reservoir.iter());
+                    (name.to_string(), names(&ms))
+                }
+                ("released" | "released_from_adsorbed", _) => (name.to_string(), names(&sources)),
+                _ => {
+                    let mut ms = sources.clone();
+                    ms.push(&p.surface);
+                    ms.extend(p.losses.iter());
+                    ms.extend(p.reservoir.iter());
+                    (name.to_string(), names(&ms))
+                }
+            };
+            return numeric(format!("the ledger's `{label}` ({value} atoms)"), modules);
+        }
+        if let Some((what, index, value)) = self.tally.first_non_finite() {
+            return numeric(
+                format!("the density tally's {what} {index} ({value} atoms)"),
+                names(&sources),
+            );
+        }
+        Ok(())
     }
 
     /// Heliocentric distance at time `t`, AU.
@@ -510,7 +579,18 @@ impl Simulation {
         for k in 0..self.reservoir.len() {
             call(self.reservoir[k].exchange(&self.cells, &mut rates))?;
             for (c, &rate) in rates.iter().enumerate() {
-                let atoms = rate * self.model.grid.area_cm2(c) * dt;
+                let area = self.model.grid.area_cm2(c);
+                let atoms = rate * area * dt;
+                if !atoms.is_finite() {
+                    return Err(EngineError::Numeric {
+                        step: self.step,
+                        quantity: format!(
+                            "the atoms exchanged with the adsorbed pool of cell {c} (rate \
+                             {rate:e} atoms cm^-2 s^-1 x area {area:e} cm^2 x dt {dt} s)"
+                        ),
+                        modules: format!("module `{}`", self.processes.reservoir[k].name()),
+                    });
+                }
                 let pool = &mut self.model.reservoir.adsorbed[c];
                 if atoms >= 0.0 {
                     row.supplied_from_bulk += atoms;

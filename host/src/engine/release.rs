@@ -37,6 +37,26 @@ impl Simulation {
             };
             let total: f64 =
                 (0..n_cells).map(|c| expected(c, self.model.reservoir.adsorbed[c])).sum();
+            if !total.is_finite() {
+                // Caught at its source: rate x area x dt overflowed in a cell,
+                // or the sum over cells did.
+                let cell = (0..n_cells)
+                    .find(|&c| !expected(c, self.model.reservoir.adsorbed[c]).is_finite());
+                let quantity = match cell {
+                    Some(c) => format!(
+                        "the atoms released in cell {c} (release rate {:e} atoms cm^-2 s^-1 x \
+                         cell area {:e} cm^2 x dt {dt} s)",
+                        rates[c],
+                        self.model.grid.area_cm2(c)
+                    ),
+                    None => "the atoms released, summed over the cells".to_string(),
+                };
+                return Err(EngineError::Numeric {
+                    step: self.step,
+                    quantity,
+                    modules: format!("module `{}`", self.processes.sources[s].name()),
+                });
+            }
             if !(total > 0.0) {
                 continue;
             }
@@ -49,12 +69,15 @@ impl Simulation {
                 if !(atoms > 0.0) {
                     continue;
                 }
-                let mut rng = Rng::new(RngKey {
-                    seed: self.config.seed,
-                    particle: ((s as u64) << 40) | c as u64,
-                    event: self.step as u32,
-                    stream: stream::RELEASE,
-                });
+                // A host stream, keyed by source and cell (in the particle
+                // slot: source << 32 | cell) and by the step.
+                let mut rng = Rng::new(RngKey::at_step(
+                    self.config.seed,
+                    ((s as u64) << 32) | c as u64,
+                    0,
+                    stream::HOST_RELEASE,
+                    self.step,
+                ));
                 let n = atoms / w;
                 let mut k = n.floor() + if rng.uniform() < n - n.floor() { 1.0 } else { 0.0 };
                 if from_pool {
@@ -80,14 +103,15 @@ impl Simulation {
                     let cos_sza = self.model.sun.cos_sza(&self.model.body, lat, lon, t_launch);
                     let r_au = self.model.body.orbit.distance_au(t_launch);
                     let id = self.next_id;
+                    if id >= exobound_sdk::rng::MAX_PARTICLE_ID {
+                        return Err(EngineError::Config(format!(
+                            "the run has launched {id} particles, the most the random-number \
+                             keys can tell apart; lower run.particles or run.duration"
+                        )));
+                    }
                     self.next_id += 1;
                     requests.push(LaunchRequest {
-                        key: RngKey {
-                            seed: self.config.seed,
-                            particle: id,
-                            event: 0,
-                            stream: stream::LAUNCH,
-                        },
+                        key: RngKey::at_step(self.config.seed, id, 0, stream::LAUNCH, self.step),
                         cell: c as u32,
                         flags: if cos_sza > 0.0 { flags::SUNLIT } else { 0 },
                         latitude: lat,

@@ -42,8 +42,8 @@ pub fn dataset(
         body.orbit.radial_velocity(sim.time()) / 1e3,
     );
     ds.set_attribute("scenario_origin", prov.scenario_origin.clone());
-    // The thread count and the checkpoint interval never change the
-    // results, so they are left out here (a run resumed with other values
+    // The thread count, the checkpoint interval and the sandbox limits never
+    // change the results, so they are left out here (a run resumed with other values
     // must give the same file); provenance.json keeps every override as given.
     let overrides: Vec<&str> = prov
         .overrides
@@ -51,7 +51,9 @@ pub fn dataset(
         .map(String::as_str)
         .filter(|o| {
             let o = o.trim_start();
-            !o.starts_with("run.threads") && !o.starts_with("run.checkpoint_every")
+            !o.starts_with("run.threads")
+                && !o.starts_with("run.checkpoint_every")
+                && !o.starts_with("sandbox.")
         })
         .collect();
     ds.set_attribute("overrides", overrides.join("; "));

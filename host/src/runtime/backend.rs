@@ -17,7 +17,7 @@ use exobound_sdk::{
 };
 
 use super::error::{DomainError, HostError, ModuleError};
-use super::{LoadedModule, ProcessInstance, Runtime, validate};
+use super::{LoadedModule, ProcessInstance, Runtime, SandboxLimits, validate};
 
 /// The outcome of one batch call: a host failure, a domain refusal, or success.
 pub type CallResult = Result<Result<(), DomainError>, HostError>;
@@ -195,18 +195,20 @@ pub struct ModuleHandle {
 }
 
 impl ModuleHandle {
-    /// A handle on a wasm module with `params`; checks the parameters now.
+    /// A handle on a wasm module with `params`, run under `limits` (the
+    /// scenario's `[sandbox]`); checks the parameters now.
     pub fn wasm(
         runtime: Arc<Runtime>,
         module: Arc<LoadedModule>,
         params: BTreeMap<String, ParamValue>,
+        limits: SandboxLimits,
     ) -> Result<ModuleHandle, ModuleError> {
         // Instantiate once now, so a bad parameter is reported before the run.
-        runtime.instantiate(&module, &params)??;
+        runtime.instantiate_with(&module, &params, &limits)??;
         let manifest = Arc::new(module.manifest().clone());
         let digest = module.sha256().to_string();
         let factory = move || -> Result<Box<dyn ProcessCalls>, ModuleError> {
-            Ok(Box::new(runtime.instantiate(&module, &params)??))
+            Ok(Box::new(runtime.instantiate_with(&module, &params, &limits)??))
         };
         Ok(ModuleHandle { manifest, digest, factory: Arc::new(factory) })
     }

@@ -111,19 +111,22 @@ pub enum HostError {
         /// wasmtime's reason.
         detail: String,
     },
-    /// A call ran past its wall-time budget and was interrupted.
+    /// A call ran past the wall-time backstop and was interrupted.
     Timeout {
         /// Where.
         site: CallSite,
-        /// The budget, wall time.
+        /// The backstop, wall time.
         budget: Duration,
     },
     /// A call used up its fuel budget.
     OutOfFuel {
         /// Where.
         site: CallSite,
-        /// The budget, fuel units (about one per wasm instruction).
+        /// The budget of this call, fuel units (about one per wasm instruction).
         fuel: u64,
+        /// The scenario key whose value sized this budget
+        /// (`sandbox.fuel_per_record` for batch calls, `sandbox.fuel_per_call` otherwise).
+        key: &'static str,
     },
     /// The module tried to grow its memory past the cap.
     MemoryLimit {
@@ -131,6 +134,18 @@ pub enum HostError {
         site: CallSite,
         /// The cap, bytes.
         limit: usize,
+    },
+    /// The module's shape exceeds a compile limit (checked before compiling),
+    /// or its compilation ran past the compile backstop.
+    CompileLimit {
+        /// Module name.
+        module: String,
+        /// What was counted, with its unit, e.g. `functions`.
+        what: &'static str,
+        /// The count found.
+        found: u64,
+        /// The limit.
+        limit: u64,
     },
     /// The module trapped (unreachable, out-of-bounds access, division by zero, ...).
     Trap {
@@ -210,6 +225,7 @@ impl HostError {
             HostError::MissingExport { .. } => "missing-export",
             HostError::RoleNotDeclared { .. } => "role-not-declared",
             HostError::Compile { .. } => "compile",
+            HostError::CompileLimit { .. } => "compile-limit",
             HostError::Timeout { .. } => "timeout",
             HostError::OutOfFuel { .. } => "out-of-fuel",
             HostError::MemoryLimit { .. } => "memory-limit",
@@ -275,23 +291,37 @@ impl fmt::Display for HostError {
             HostError::Compile { module, detail } => {
                 write!(f, "module `{module}` could not be compiled or instantiated: {detail}")
             }
+            HostError::CompileLimit { module, what, found, limit } => write!(
+                f,
+                "module `{module}` was refused before compiling: {what} is {found}, above the \
+                 limit of {limit}; a process law needs far less (the standard modules have a \
+                 few hundred functions of at most a few KiB), so reduce the module or split it"
+            ),
             HostError::Timeout { site, budget } => write!(
                 f,
-                "{site}: did not finish within its wall-time budget of {:.3} s and was \
-                 stopped (an endless loop, or a law far too slow); fix the module, or raise \
-                 the per-call budget if the law is legitimately slow",
-                budget.as_secs_f64()
+                "{site}: was still running after the wall-time backstop of {:.0} s and was \
+                 stopped (the fuel budget, not wall time, normally decides; a call this slow \
+                 is a law far too slow or a stuck host); fix the module, or raise `{}` in the \
+                 scenario's [sandbox] table (or --set {}=\"20 min\")",
+                budget.as_secs_f64(),
+                super::limits::KEY_BACKSTOP,
+                super::limits::KEY_BACKSTOP
             ),
-            HostError::OutOfFuel { site, fuel } => write!(
+            HostError::OutOfFuel { site, fuel, key } => write!(
                 f,
-                "{site}: used up its fuel budget of {fuel} units and was stopped; fix the \
-                 module, or raise the fuel budget"
+                "{site}: used up its fuel budget of {fuel} units (about one per wasm \
+                 instruction; the same on every machine) and was stopped: an endless loop, or \
+                 a law that needs more compute per record; fix the module, or raise `{key}` in \
+                 the scenario's [sandbox] table (or --set {key}=...)"
             ),
             HostError::MemoryLimit { site, limit } => write!(
                 f,
                 "{site}: tried to grow its memory beyond the cap of {} MiB and was stopped; \
-                 fix the module's memory use, or raise the memory cap",
-                limit / (1 << 20)
+                 fix the module's memory use, or raise `{}` in the scenario's [sandbox] table \
+                 (or --set {}=\"256 MiB\")",
+                limit / (1 << 20),
+                super::limits::KEY_MEMORY_CAP,
+                super::limits::KEY_MEMORY_CAP
             ),
             HostError::Trap { site, trap, message } => {
                 write!(f, "{site}: trapped: {trap}")?;
@@ -319,12 +349,9 @@ impl fmt::Display for HostError {
                 "{site}: output record {index} is invalid: {detail}; this is a bug in the \
                  module or the law is used outside its validity"
             ),
-            HostError::Cache { path, detail } => write!(
-                f,
-                "compiled-module cache at {}: {detail}; delete the file or set \
-                 EXOBOUND_CACHE_DIR to a writable directory",
-                path.display()
-            ),
+            HostError::Cache { path, detail } => {
+                write!(f, "compiled-module cache at {}: {detail}", path.display())
+            }
         }
     }
 }

@@ -5,8 +5,8 @@
 //! buffers in the module's memory (inputs and outputs), allocated once and
 //! grown only when a larger batch arrives, so the hot loop allocates
 //! nothing and crosses the boundary once per batch. Every call is armed
-//! with a deadline (and, optionally, fuel); every failure becomes a typed
-//! error; after a host-side failure the instance is rebuilt before the next
+//! with a fuel budget sized to its batch (and a wall-time backstop); every
+//! failure becomes a typed error; after a host-side failure the instance is rebuilt before the next
 //! call, so one bad batch never poisons the rest of a run.
 
 use std::sync::Arc;
@@ -18,6 +18,7 @@ use exobound_sdk::{
 use wasmtime::{Engine, Instance, Memory, ResourceLimiter, Store, Trap, TypedFunc};
 
 use super::error::{CallSite, DomainError, HostError};
+use super::limits::{KEY_FUEL_PER_CALL, KEY_FUEL_PER_RECORD, SandboxLimits};
 use super::{LoadedModule, Runtime, validate};
 
 /// Longest error message read back from a module, bytes.
@@ -96,9 +97,9 @@ pub struct ProcessInstance {
     params: Vec<u8>,
     poisoned: bool,
     ticks: u64,
-    fuel: Option<u64>,
-    budget: std::time::Duration,
-    memory_limit: usize,
+    limits: SandboxLimits,
+    /// Fuel armed for the current call, units, and the key that sized it.
+    armed: (u64, &'static str),
     max_speed: f64,
     max_batch: usize,
 }
@@ -108,18 +109,12 @@ impl ProcessInstance {
         runtime: &Runtime,
         module: Arc<LoadedModule>,
         params: Vec<u8>,
+        limits: &SandboxLimits,
     ) -> Result<Result<ProcessInstance, DomainError>, HostError> {
         let cfg = runtime.config();
         let engine = runtime.engine().clone();
-        let ticks = runtime.ticks_for_budget();
-        let (store, exports) = match instantiate(
-            &engine,
-            &module,
-            cfg.memory_limit,
-            ticks,
-            cfg.fuel,
-            cfg.call_budget,
-        )? {
+        let ticks = runtime.ticks_for(limits.backstop);
+        let (store, exports) = match instantiate(&engine, &module, limits, ticks)? {
             Ok(v) => v,
             Err(d) => return Ok(Err(d)),
         };
@@ -133,9 +128,8 @@ impl ProcessInstance {
             params,
             poisoned: false,
             ticks,
-            fuel: cfg.fuel,
-            budget: cfg.call_budget,
-            memory_limit: cfg.memory_limit,
+            limits: *limits,
+            armed: (limits.fuel_for(0), KEY_FUEL_PER_CALL),
             max_speed: cfg.max_speed,
             max_batch: cfg.max_batch.max(1),
         };
@@ -205,20 +199,33 @@ impl ProcessInstance {
         self.exports.memory.data_size(&self.store)
     }
 
-    /// Fuel left after the last call when a fuel budget is configured (the
-    /// budget is re-armed before every call), in wasm fuel units; `None`
-    /// when fuel is off.
-    pub fn fuel_left(&self) -> Option<u64> {
-        self.fuel.and_then(|_| self.store.get_fuel().ok())
+    /// Fuel used by the last call (the budget is re-armed before every
+    /// call), wasm fuel units; for a batch split into sub-batches, the last
+    /// sub-batch's.
+    pub fn fuel_used(&self) -> u64 {
+        self.armed.0.saturating_sub(self.store.get_fuel().unwrap_or(0))
+    }
+
+    /// The limits this instance runs under.
+    pub fn limits(&self) -> &SandboxLimits {
+        &self.limits
     }
 
     fn site(&self, call: &'static str, batch: usize) -> CallSite {
         CallSite { module: self.module.name().to_string(), call, batch }
     }
 
-    /// Arm the deadline (and fuel) for the next call.
+    /// Arm the backstop and the fixed fuel budget for a call without records.
     fn arm(&mut self) {
-        arm(&mut self.store, self.ticks, self.fuel);
+        self.arm_for(0);
+    }
+
+    /// Arm the backstop and the fuel budget for a call over `records` records.
+    fn arm_for(&mut self, records: usize) {
+        let fuel = self.limits.fuel_for(records);
+        let key = if records == 0 { KEY_FUEL_PER_CALL } else { KEY_FUEL_PER_RECORD };
+        self.armed = (fuel, key);
+        arm(&mut self.store, self.ticks, fuel);
     }
 
     /// Turn a failed call into the right host error, and mark the instance
@@ -226,11 +233,13 @@ impl ProcessInstance {
     fn classify(&mut self, e: wasmtime::Error, site: CallSite) -> HostError {
         self.poisoned = true;
         if self.store.data().refused {
-            return HostError::MemoryLimit { site, limit: self.memory_limit };
+            return HostError::MemoryLimit { site, limit: self.limits.memory_cap };
         }
         match e.downcast_ref::<Trap>() {
-            Some(Trap::Interrupt) => HostError::Timeout { site, budget: self.budget },
-            Some(Trap::OutOfFuel) => HostError::OutOfFuel { site, fuel: self.fuel.unwrap_or(0) },
+            Some(Trap::Interrupt) => HostError::Timeout { site, budget: self.limits.backstop },
+            Some(Trap::OutOfFuel) => {
+                HostError::OutOfFuel { site, fuel: self.armed.0, key: self.armed.1 }
+            }
             Some(t) => {
                 let trap = t.to_string();
                 let message = self.read_message().filter(|m| !m.is_empty());
@@ -248,7 +257,9 @@ impl ProcessInstance {
         let k = len.min(MAX_MESSAGE) as usize;
         let data = self.exports.memory.data(&self.store);
         let bytes = data.get(buf as usize..buf as usize + k)?;
-        let mut s = String::from_utf8_lossy(bytes).to_string();
+        // Module text is untrusted: escape control characters before it can
+        // reach a terminal or a text product.
+        let mut s = crate::text::printable(&String::from_utf8_lossy(bytes)).into_owned();
         if len > MAX_MESSAGE {
             s.push_str(" [...]");
         }
@@ -287,7 +298,7 @@ impl ProcessInstance {
         if ptr == 0 {
             self.poisoned = true;
             if self.store.data().refused {
-                return Err(HostError::MemoryLimit { site: site(), limit: self.memory_limit });
+                return Err(HostError::MemoryLimit { site: site(), limit: self.limits.memory_cap });
             }
             return Err(HostError::BadPointer {
                 site: site(),
@@ -369,14 +380,7 @@ impl ProcessInstance {
     /// Rebuild the instance after a host-side failure.
     fn rebuild(&mut self) -> Result<(), HostError> {
         let module = self.module.clone();
-        let (store, exports) = match instantiate(
-            &self.engine,
-            &module,
-            self.memory_limit,
-            self.ticks,
-            self.fuel,
-            self.budget,
-        )? {
+        let (store, exports) = match instantiate(&self.engine, &module, &self.limits, self.ticks)? {
             Ok(v) => v,
             Err(d) => {
                 return Err(HostError::Compile {
@@ -442,7 +446,7 @@ impl ProcessInstance {
                     needed_for: format!("the role `{}`", role.as_str()),
                 });
             };
-            self.arm();
+            self.arm_for(k);
             let rc = match func.call(&mut self.store, (in_ptr, k as u32, out_ptr)) {
                 Ok(rc) => rc,
                 Err(e) => return Err(self.classify(e, site)),
@@ -472,12 +476,10 @@ impl ProcessInstance {
     }
 }
 
-fn arm(store: &mut Store<MemoryGuard>, ticks: u64, fuel: Option<u64>) {
+fn arm(store: &mut Store<MemoryGuard>, ticks: u64, fuel: u64) {
     store.set_epoch_deadline(ticks);
-    if let Some(f) = fuel {
-        // Fuel is enabled on the engine whenever a budget is configured.
-        let _ = store.set_fuel(f);
-    }
+    // Fuel is always enabled on the engine (see `Runtime::new`), so this cannot fail.
+    let _ = store.set_fuel(fuel);
 }
 
 /// A new store and instance of `module`, with its exports resolved.
@@ -485,12 +487,13 @@ fn arm(store: &mut Store<MemoryGuard>, ticks: u64, fuel: Option<u64>) {
 fn instantiate(
     engine: &Engine,
     module: &LoadedModule,
-    memory_limit: usize,
+    limits: &SandboxLimits,
     ticks: u64,
-    fuel: Option<u64>,
-    budget: std::time::Duration,
 ) -> Result<Result<(Store<MemoryGuard>, Exports), DomainError>, HostError> {
     let name = module.name().to_string();
+    let memory_limit = limits.memory_cap;
+    let fuel = limits.fuel_for(0);
+    let budget = limits.backstop;
     let mut store = Store::new(engine, MemoryGuard { limit: memory_limit, refused: false });
     store.limiter(|g| g as &mut dyn ResourceLimiter);
     arm(&mut store, ticks, fuel);
@@ -503,7 +506,9 @@ fn instantiate(
             }
             return Err(match e.downcast_ref::<Trap>() {
                 Some(Trap::Interrupt) => HostError::Timeout { site, budget },
-                Some(Trap::OutOfFuel) => HostError::OutOfFuel { site, fuel: fuel.unwrap_or(0) },
+                Some(Trap::OutOfFuel) => {
+                    HostError::OutOfFuel { site, fuel, key: KEY_FUEL_PER_CALL }
+                }
                 _ => HostError::Compile { module: name, detail: format!("{e:#}") },
             });
         }

@@ -3,25 +3,36 @@
 //!
 //! Why this exists: every process law reaches the engine only through this
 //! module. It is the one place that decides what a module may do (nothing
-//! but compute on the batches it is handed), how long it may take (an epoch
-//! deadline per call, or optionally a fuel budget), how much memory it may
-//! use (a cap enforced by a resource limiter), and what counts as a valid
-//! answer (finite, in range, one output per input).
+//! but compute on the batches it is handed), how much it may compute (a
+//! fuel budget per call, proportional to the batch), how much memory it may
+//! use (a cap enforced by a resource limiter), how large a module may be
+//! before it is compiled, and what counts as a valid answer (finite, in
+//! range, one output per input).
+//!
+//! Whether a call succeeds depends only on the module, its inputs and its
+//! parameters: fuel counts wasm instructions, so the same batch uses the
+//! same fuel on any machine under any load. A wall-clock deadline (epoch
+//! interruption) remains only as a backstop of minutes against a host that
+//! is itself stuck; it never decides a healthy run.
 //!
 //! What the sandbox guarantees: a module cannot read or write host memory,
 //! files, the network or the clock (ABI v1 grants no imports at all); a
 //! trap, a runaway loop or a memory bomb becomes a typed [`HostError`]
-//! naming the module, the call and the batch; outputs that are NaN,
-//! infinite, negative where a rate must be positive, faster than the speed
-//! bound, or of an unknown outcome code are refused. What it does not
-//! guarantee: that the law is physically right, that it is fast, or that
-//! a module is not subtly wrong within the bounds; that is what reference
-//! points, `vet` and review are for.
+//! naming the module, the call, the batch and the scenario key that raises
+//! the limit; outputs that are NaN, infinite, negative where a rate must be
+//! positive, faster than the speed bound, or of an unknown outcome code are
+//! refused; a compiled-module cache entry is verified against a keyed
+//! digest before its native code is loaded. What it does not guarantee:
+//! that the law is physically right, that it is fast, or that a module is
+//! not subtly wrong within the bounds; that is what reference points,
+//! `vet` and review are for. Nor does it protect against a user who can
+//! already write to the cache directory and read its key.
 
 pub mod backend;
 pub mod cache;
 pub mod error;
 pub mod instance;
+pub mod limits;
 pub mod module;
 pub mod reference;
 pub mod validate;
@@ -37,6 +48,7 @@ use wasmtime::{Config, Engine, OptLevel};
 
 pub use error::{CallSite, DomainError, HostError, ModuleError, flatten};
 pub use instance::ProcessInstance;
+pub use limits::{CompileLimits, SandboxLimits};
 pub use module::{AbiVersion, ModuleHeader};
 
 use watchdog::Watchdog;
@@ -44,13 +56,11 @@ use watchdog::Watchdog;
 /// Limits and options of the sandbox.
 #[derive(Clone, Debug)]
 pub struct RuntimeConfig {
-    /// Largest linear memory a module may grow to, bytes (default 64 MiB).
-    pub memory_limit: usize,
-    /// Wall-time budget of one call, enforced by epoch interruption (default 1 s).
-    pub call_budget: Duration,
-    /// Fuel budget of one call (about one unit per wasm instruction); `None`
-    /// (the default) turns fuel counting off, which makes calls 20-40% faster.
-    pub fuel: Option<u64>,
+    /// Default per-call limits (fuel, memory cap, wall-time backstop); a
+    /// scenario's `[sandbox]` table overrides them per module instance.
+    pub limits: SandboxLimits,
+    /// Limits on a module's shape and compilation, checked before and while compiling.
+    pub compile: CompileLimits,
     /// Largest launch or re-emission speed accepted from a module, m s^-1 (default 1e5).
     pub max_speed: f64,
     /// Largest number of records passed in one call, dimensionless (default 8192).
@@ -59,21 +69,20 @@ pub struct RuntimeConfig {
     pub max_manifest: usize,
     /// Directory of the compiled-module cache; `None` compiles in memory only.
     pub cache_dir: Option<PathBuf>,
-    /// Period of the watchdog's epoch tick, wall time (default 10 ms).
+    /// Period of the watchdog's epoch tick, wall time (default 50 ms).
     pub epoch_tick: Duration,
 }
 
 impl Default for RuntimeConfig {
     fn default() -> Self {
         RuntimeConfig {
-            memory_limit: 64 << 20,
-            call_budget: Duration::from_secs(1),
-            fuel: None,
+            limits: SandboxLimits::default(),
+            compile: CompileLimits::default(),
             max_speed: 1.0e5,
             max_batch: 8192,
             max_manifest: 64 << 10,
             cache_dir: cache::default_dir(),
-            epoch_tick: Duration::from_millis(10),
+            epoch_tick: Duration::from_millis(50),
         }
     }
 }
@@ -112,30 +121,47 @@ pub struct Runtime {
     engine: Engine,
     config: RuntimeConfig,
     watchdog: Arc<Watchdog>,
+    cache: Option<cache::Cache>,
     modules: Mutex<HashMap<String, Arc<LoadedModule>>>,
+    notices: Mutex<Vec<String>>,
 }
 
 impl Runtime {
-    /// A runtime with the given limits.
+    /// A runtime with the given limits. A cache directory that another user
+    /// owns or others can write is refused here, naming it and the fix.
     pub fn new(config: RuntimeConfig) -> Result<Runtime, HostError> {
+        let cache = config.cache_dir.as_deref().map(cache::Cache::open).transpose()?;
         let mut c = Config::new();
         c.cranelift_opt_level(OptLevel::Speed);
         // Let Cranelift inline small guest functions (libm helpers, samplers):
         // measured 6% faster launches at batch 1024.
         c.compiler_inlining(wasmtime::Inlining::Yes);
+        // Fuel is the budget that decides; the epoch is the wall-time backstop.
         c.epoch_interruption(true);
-        c.consume_fuel(config.fuel.is_some());
+        c.consume_fuel(true);
         let engine = Engine::new(&c).map_err(|e| HostError::Compile {
             module: "(engine)".to_string(),
             detail: e.to_string(),
         })?;
         let watchdog = Arc::new(Watchdog::start(engine.clone(), config.epoch_tick));
-        Ok(Runtime { engine, config, watchdog, modules: Mutex::new(HashMap::new()) })
+        Ok(Runtime {
+            engine,
+            config,
+            watchdog,
+            cache,
+            modules: Mutex::new(HashMap::new()),
+            notices: Mutex::new(Vec::new()),
+        })
     }
 
     /// The runtime's limits.
     pub fn config(&self) -> &RuntimeConfig {
         &self.config
+    }
+
+    /// Warnings raised so far (e.g. a rejected cache entry), one line each.
+    pub fn notices(&self) -> Vec<String> {
+        self.notices.lock().unwrap_or_else(|p| p.into_inner()).clone()
     }
 
     /// Load, check and compile the module file at `path` (compiled once per
@@ -149,16 +175,23 @@ impl Runtime {
     pub fn load_bytes(&self, origin: &str, bytes: &[u8]) -> Result<Arc<LoadedModule>, HostError> {
         let label = module::label_of(Path::new(origin));
         let header = module::read_header(&label, bytes, self.config.max_manifest)?;
+        limits::check_shape(&header.manifest.name, bytes, &self.config.compile)?;
         if let Some(m) = self.modules.lock().unwrap_or_else(|p| p.into_inner()).get(&header.sha256)
         {
             return Ok(m.clone());
         }
+        let notice = |text: String| {
+            eprintln!("exobound: warning: {text}");
+            self.notices.lock().unwrap_or_else(|p| p.into_inner()).push(text);
+        };
         let compiled = cache::compile_cached(
             &self.engine,
-            self.config.cache_dir.as_deref(),
+            self.cache.as_ref(),
             &header.manifest.name,
             &header.sha256,
             bytes,
+            &self.config.compile,
+            &notice,
         )?;
         let loaded = Arc::new(LoadedModule { origin: origin.to_string(), header, compiled });
         self.modules
@@ -169,11 +202,22 @@ impl Runtime {
     }
 
     /// A fresh instance of `module`, initialised with `params` (validated
-    /// against the manifest first, so the error names the parameter).
+    /// against the manifest first, so the error names the parameter), under
+    /// the runtime's default limits.
     pub fn instantiate(
         &self,
         module: &Arc<LoadedModule>,
         params: &BTreeMap<String, ParamValue>,
+    ) -> Result<Result<ProcessInstance, DomainError>, HostError> {
+        self.instantiate_with(module, params, &self.config.limits)
+    }
+
+    /// As [`Runtime::instantiate`], under `limits` (a scenario's `[sandbox]`).
+    pub fn instantiate_with(
+        &self,
+        module: &Arc<LoadedModule>,
+        params: &BTreeMap<String, ParamValue>,
+        limits: &SandboxLimits,
     ) -> Result<Result<ProcessInstance, DomainError>, HostError> {
         if let Err(error) = exobound_sdk::Params::validate(params, &module.manifest().parameters) {
             return Ok(Err(DomainError {
@@ -182,14 +226,15 @@ impl Runtime {
                 error,
             }));
         }
-        ProcessInstance::new(self, module.clone(), exobound_sdk::Params::encode(params))
+        ProcessInstance::new(self, module.clone(), exobound_sdk::Params::encode(params), limits)
     }
 
     pub(crate) fn engine(&self) -> &Engine {
         &self.engine
     }
 
-    pub(crate) fn ticks_for_budget(&self) -> u64 {
-        self.watchdog.ticks_for(self.config.call_budget)
+    /// Epoch ticks that cover the wall-time backstop `backstop`.
+    pub(crate) fn ticks_for(&self, backstop: Duration) -> u64 {
+        self.watchdog.ticks_for(backstop)
     }
 }

@@ -38,6 +38,38 @@ pub struct ScenarioFile {
     /// Tally grids, averaging window and products.
     #[serde(default)]
     pub outputs: OutputsSection,
+    /// Limits of every module call (fuel, memory cap, wall-time backstop).
+    #[serde(default, skip_serializing_if = "SandboxSection::is_empty")]
+    pub sandbox: SandboxSection,
+}
+
+/// `[sandbox]`: the limits every module call runs under. They decide
+/// whether a misbehaving module is stopped, never the results of a healthy
+/// run, so a run resumed with other values continues unchanged.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SandboxSection {
+    /// Fuel per record of a batch call, wasm fuel units (about one per
+    /// instruction; default 1e6).
+    #[serde(default)]
+    pub fuel_per_record: Option<f64>,
+    /// Fuel of every call on top of the per-record share, and of calls
+    /// without records, fuel units (default 5e7).
+    #[serde(default)]
+    pub fuel_per_call: Option<f64>,
+    /// Largest linear memory of one module instance, e.g. "64 MiB" (default).
+    #[serde(default)]
+    pub memory_cap: Option<String>,
+    /// Wall-time backstop of one call, e.g. "5 min" (default).
+    #[serde(default)]
+    pub backstop: Option<String>,
+}
+
+impl SandboxSection {
+    /// Whether no key is set.
+    pub fn is_empty(&self) -> bool {
+        *self == SandboxSection::default()
+    }
 }
 
 /// `[body]`.

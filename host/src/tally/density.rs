@@ -161,6 +161,15 @@ impl DensityTally {
         self.radius
     }
 
+    /// The first accumulated weight that is not finite, as (which sum, index,
+    /// value), atoms; `None` when every sum is finite.
+    pub fn first_non_finite(&self) -> Option<(&'static str, usize, f64)> {
+        let find = |v: &[f64]| v.iter().position(|w| !w.is_finite()).map(|i| (i, v[i]));
+        find(&self.weight)
+            .map(|(i, w)| ("density bin weight", i, w))
+            .or_else(|| find(&self.column_weight).map(|(i, w)| ("column weight", i, w)))
+    }
+
     /// Forget all snapshots (start a new averaging window).
     pub fn reset(&mut self) {
         self.weight.iter_mut().for_each(|w| *w = 0.0);

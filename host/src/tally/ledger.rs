@@ -75,6 +75,33 @@ impl LedgerRow {
             + self.removed.iter().sum::<f64>()
     }
 
+    /// The first quantity of the row that is not finite, as (its name, the
+    /// loss or removal index for those columns, value); `None` when all are finite.
+    pub fn first_non_finite(&self) -> Option<(&'static str, Option<usize>, f64)> {
+        let scalars = [
+            ("supplied_from_bulk", self.supplied_from_bulk),
+            ("released", self.released),
+            ("released_from_adsorbed", self.released_from_adsorbed),
+            ("landed", self.landed),
+            ("stuck", self.stuck),
+            ("bounced", self.bounced),
+            ("escaped", self.escaped),
+            ("buried", self.buried),
+            ("in_flight", self.in_flight),
+            ("adsorbed", self.adsorbed),
+        ];
+        if let Some(&(name, x)) = scalars.iter().find(|(_, x)| !x.is_finite()) {
+            return Some((name, None, x));
+        }
+        if let Some(i) = self.losses.iter().position(|x| !x.is_finite()) {
+            return Some(("losses", Some(i), self.losses[i]));
+        }
+        if let Some(i) = self.removed.iter().position(|x| !x.is_finite()) {
+            return Some(("removed", Some(i), self.removed[i]));
+        }
+        (!self.closure_error.is_finite()).then_some(("closure_error", None, self.closure_error))
+    }
+
     /// Set `closure_error` from the stocks before the step, atoms.
     pub fn close(&mut self, stock_before: f64) {
         let stock_after = self.in_flight + self.adsorbed;

@@ -47,7 +47,7 @@ use serde::{Deserialize, Serialize};
 use crate::runtime::module::{self, ModuleHeader};
 use crate::runtime::reference::run_reference_points;
 use crate::runtime::{
-    DomainError, HostError, LoadedModule, ProcessInstance, Runtime, RuntimeConfig,
+    DomainError, HostError, LoadedModule, ProcessInstance, Runtime, RuntimeConfig, SandboxLimits,
 };
 use crate::text::printable;
 use envelope::Call;
@@ -177,10 +177,11 @@ pub struct VetOptions {
     pub sampler_draws: usize,
     /// Records per timed batch in the throughput check.
     pub throughput_records: usize,
-    /// Fuel given to each call (about one unit per wasm instruction).
-    pub fuel_per_call: u64,
-    /// Wall-time budget of one call.
-    pub call_budget: Duration,
+    /// Limits of every call: the same fuel, memory cap and backstop as a run's defaults.
+    pub limits: SandboxLimits,
+    /// Wall time after which no further check is started, s (default 600 s);
+    /// the checks left are reported as not run.
+    pub time_limit: Duration,
     /// Most fuel a record may take on average before `throughput` fails.
     pub max_fuel_per_record: f64,
     /// Directory of the compiled-module cache (`None`: compile in memory).
@@ -194,8 +195,8 @@ impl Default for VetOptions {
             determinism_records: 256,
             sampler_draws: 20_000,
             throughput_records: 1024,
-            fuel_per_call: 4_000_000_000,
-            call_budget: Duration::from_secs(2),
+            limits: SandboxLimits::default(),
+            time_limit: Duration::from_secs(600),
             max_fuel_per_record: throughput::MAX_FUEL_PER_RECORD,
             cache_dir: crate::runtime::cache::default_dir(),
         }
@@ -289,8 +290,7 @@ pub fn vet_bytes(file: &str, bytes: &[u8], options: &VetOptions) -> VetReport {
     report.version = header.manifest.version.clone();
     report.abi = header.abi.to_string();
     let runtime = match Runtime::new(RuntimeConfig {
-        fuel: Some(options.fuel_per_call),
-        call_budget: options.call_budget,
+        limits: options.limits,
         cache_dir: options.cache_dir.clone(),
         ..RuntimeConfig::default()
     }) {
@@ -320,12 +320,43 @@ pub fn vet_bytes(file: &str, bytes: &[u8], options: &VetOptions) -> VetReport {
         options,
     };
     report.base_parameters = ctx.base.clone();
+    // Each check is bounded by the fuel budgets; the time limit bounds the
+    // whole vet, however many calls a check makes.
+    let over = |report: &mut VetReport, names: &[&str]| -> bool {
+        if t0.elapsed() <= options.time_limit {
+            return false;
+        }
+        for name in names {
+            report.checks.push(Check::new(
+                name,
+                Status::NotRun,
+                format!(
+                    "not run: vet's time limit of {:.0} s was reached",
+                    options.time_limit.as_secs_f64()
+                ),
+            ));
+        }
+        true
+    };
     report.checks.push(reference_check(&ctx));
+    let rest = ["determinism", "bounds", "sampler", "distribution", "throughput"];
+    if over(&mut report, &rest) {
+        return finish(report, t0);
+    }
     report.checks.push(determinism::check(&ctx));
+    if over(&mut report, &rest[1..]) {
+        return finish(report, t0);
+    }
     report.checks.push(bounds::check(&ctx));
+    if over(&mut report, &rest[2..]) {
+        return finish(report, t0);
+    }
     let (sampler, distribution) = sampler::check(&ctx);
     report.checks.push(sampler);
     report.checks.push(distribution);
+    if over(&mut report, &rest[4..]) {
+        return finish(report, t0);
+    }
     report.checks.push(throughput::check(&ctx));
     finish(report, t0)
 }
