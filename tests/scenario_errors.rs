@@ -2,9 +2,12 @@
 //! malformed TOML (file:line:column), unknown keys (with the nearest valid
 //! one), a missing module file (its path), a parameter out of range (name,
 //! value, range, unit), an unreadable or malformed map (file and problem),
-//! and a checkpoint from another version.
+//! a checkpoint from another version, values outside their physical or
+//! practical bounds (key and range), and values of the wrong type (key,
+//! what it takes, an example), in the file and from `--set`.
 
-use std::path::Path;
+use std::path::{Path, PathBuf};
+use std::process::Command;
 use std::sync::Arc;
 
 use exobound::runtime::{Runtime, RuntimeConfig};
@@ -145,4 +148,271 @@ fn checkpoint_from_another_version_is_refused() {
     };
     let e = exobound::driver::resume(&out, &runtime(), &[], session).unwrap_err().to_string();
     assert!(e.contains("exobound 0.0.1") && e.contains("cannot continue it"), "{e}");
+}
+
+/// The quick demo with `overrides`; the error.
+fn refuse_set(overrides: &[&str]) -> String {
+    let o: Vec<String> = overrides.iter().map(|s| s.to_string()).collect();
+    match Scenario::demo(true, &o, &runtime()) {
+        Ok(_) => panic!("{overrides:?} was accepted"),
+        Err(e) => e.to_string(),
+    }
+}
+
+#[test]
+fn a_run_of_too_many_steps_is_refused() {
+    // Issue 12: "1e308 s" was accepted and ran forever.
+    let tmp = TempDir::new("huge-duration");
+    let e = refuse(tmp.path(), |t| t.replace("duration = \"1.5 d\"", "duration = \"1e308 s\""));
+    assert!(e.contains("run.duration / run.dt gives 1.1111111111111111e305 steps"), "{e}");
+    assert!(e.contains("at most 10000000 are allowed"), "{e}");
+    assert!(e.contains("raise run.dt or shorten run.duration"), "{e}");
+    // Just above the cap at the quick demo's 900 s step: 1e7 + 1 steps.
+    let e = refuse_set(&["run.duration=9000000900 s"]);
+    assert!(e.contains("gives 10000001 steps; at most 10000000"), "{e}");
+    // Numbers that overflow, as written or on conversion, name the key.
+    let e = refuse_set(&["run.duration=1e309 s"]);
+    assert!(e.contains("run.duration: `1e309 s` is not a finite number"), "{e}");
+    let e = refuse_set(&["run.duration=1e308 d"]);
+    assert!(e.contains("run.duration: `1e308 d` is too large"), "{e}");
+}
+
+#[test]
+fn a_bad_time_step_blames_run_dt() {
+    // Issue 12: a tiny dt was blamed on run.spin_up.
+    let tmp = TempDir::new("tiny-dt");
+    let e = refuse(tmp.path(), |t| t.replace("dt = \"900 s\"", "dt = \"1e-9 s\""));
+    assert!(e.contains("run.dt: 1e-9 s is outside the allowed range [1, 1e6] s"), "{e}");
+    assert!(!e.contains("spin_up"), "{e}");
+    let e = refuse_set(&["run.dt=2e6 s"]);
+    assert!(e.contains("run.dt: 2e6 s is outside the allowed range [1, 1e6] s"), "{e}");
+    // Longer than the run (1.5 d) while within its own range.
+    let e = refuse_set(&["run.dt=2 d"]);
+    assert!(e.contains("run.dt: 172800 s is longer than run.duration = 129600 s"), "{e}");
+    assert!(e.contains("lower run.dt or lengthen run.duration"), "{e}");
+    // The bounds themselves are accepted: 1 s over a minute, and one step of 1e6 s.
+    let rt = runtime();
+    let o = |v: &[&str]| v.iter().map(|s| s.to_string()).collect::<Vec<_>>();
+    let short = o(&["run.dt=1 s", "run.duration=60 s", "run.spin_up=0 s", "outputs.window=60 s"]);
+    let s = Scenario::demo(true, &short, &rt).unwrap();
+    assert_eq!((s.config.dt, s.plan.steps), (1.0, 60));
+    let long =
+        o(&["run.dt=1e6 s", "run.duration=1e6 s", "run.spin_up=0 s", "outputs.window=1e6 s"]);
+    let s = Scenario::demo(true, &long, &rt).unwrap();
+    assert_eq!(s.plan.steps, 1);
+}
+
+#[test]
+fn spin_up_checkpoints_and_windows_lie_within_the_run() {
+    let e = refuse_set(&["run.spin_up=2 d"]);
+    assert!(
+        e.contains("run.spin_up: 172800 s is outside the allowed range [0, run.duration)"),
+        "{e}"
+    );
+    let e = refuse_set(&["run.spin_up=-1 h"]);
+    assert!(e.contains("run.spin_up: -3600 s is outside"), "{e}");
+    let e = refuse_set(&["run.checkpoint_every=10 d"]);
+    assert!(
+        e.contains("run.checkpoint_every: 864000 s is outside the allowed range [900, 129600] s"),
+        "{e}"
+    );
+    assert!(e.contains("leave the key out"), "{e}");
+    let e = refuse_set(&["run.checkpoint_every=1 min"]);
+    assert!(e.contains("run.checkpoint_every: 60 s is outside"), "{e}");
+    let e = refuse_set(&["outputs.window=3 d"]);
+    assert!(
+        e.contains("outputs.window: 259200 s is outside the allowed range [900, 129600] s"),
+        "{e}"
+    );
+    let e = refuse_set(&["run.duration=12 h", "outputs.window=1 d"]);
+    assert!(
+        e.contains("outputs.window: 86400 s is outside the allowed range [900, 43200] s"),
+        "{e}"
+    );
+    // Left out, the window is one day, shortened to a run shorter than that.
+    let tmp = TempDir::new("default-window");
+    demo::write(tmp.path()).unwrap();
+    let path = tmp.path().join("demo-quick.toml");
+    let text = std::fs::read_to_string(&path).unwrap().replace("window = \"6 h\"\n", "");
+    std::fs::write(&path, text).unwrap();
+    let s = Scenario::load(&path, &["run.duration=12 h".into()], &runtime()).unwrap();
+    assert_eq!((s.plan.window_steps, s.plan.steps), (48, 48));
+}
+
+#[test]
+fn a_million_threads_are_refused() {
+    // Issue 12: threads = 1000000 spent minutes creating threads.
+    let cores = std::thread::available_parallelism().map_or(1, |n| n.get());
+    let tmp = TempDir::new("threads");
+    let e = refuse(tmp.path(), |t| t.replace("threads = 0", "threads = 1000000"));
+    assert!(
+        e.contains(&format!(
+            "run.threads: 1000000 threads is outside the allowed range 0 to {}",
+            4 * cores
+        )),
+        "{e}"
+    );
+    assert!(e.contains("results do not depend on the thread count"), "{e}");
+    // The cap itself is accepted (as `--threads N` sets it).
+    let s = Scenario::demo(true, &[format!("run.threads={}", 4 * cores)], &runtime()).unwrap();
+    assert_eq!(s.config.threads, 4 * cores);
+}
+
+#[test]
+fn environment_values_outside_their_bounds_name_key_and_range() {
+    // Issue 12: a flux of 1e308 was accepted and gave NaN everywhere.
+    let tmp = TempDir::new("flux");
+    let e = refuse(tmp.path(), |t| t.replace("\"2e8 cm^-2 s^-1\"", "\"1e308 cm^-2 s^-1\""));
+    assert!(
+        e.contains("environment.solar_wind_flux: 1e308 cm^-2 s^-1 is outside the allowed range [0, 1e13] cm^-2 s^-1"),
+        "{e}"
+    );
+    assert!(e.contains("1 AU"), "{e}");
+    let e = refuse_set(&["environment.solar_wind_flux=-1 cm^-2 s^-1"]);
+    assert!(e.contains("environment.solar_wind_flux: -1 cm^-2 s^-1 is outside"), "{e}");
+    let e = refuse_set(&["environment.meteoroid_factor=1e7"]);
+    assert!(
+        e.contains("environment.meteoroid_factor: 1e7 is outside the allowed range [0, 1e6]"),
+        "{e}"
+    );
+    let e = refuse_set(&["environment.solar_wind.0.factor=-0.5"]);
+    assert!(
+        e.contains("environment.solar_wind[0].factor: -0.5 is outside the allowed range [0, 1e6]"),
+        "{e}"
+    );
+    let e = refuse_set(&["environment.solar_wind.0.start=1e309 d"]);
+    assert!(e.contains("environment.solar_wind[0].start: `1e309 d` is not a finite number"), "{e}");
+    let e = refuse_set(&["environment.heliocentric_distance=1000 AU"]);
+    assert!(
+        e.contains(
+            "environment.heliocentric_distance: 1000 AU is outside the allowed range [0.1, 100] AU"
+        ),
+        "{e}"
+    );
+    let e = refuse_set(&["surface.temperature.reference_distance=0.01 AU"]);
+    assert!(e.contains("surface.temperature.reference_distance: 0.01 AU is outside"), "{e}");
+    let e = refuse_set(&["surface.temperature.subsolar=5000 K"]);
+    assert!(
+        e.contains(
+            "surface.temperature.subsolar: 5000 K is outside the allowed range [10, 2000] K"
+        ),
+        "{e}"
+    );
+    let e = refuse_set(&["surface.temperature.night=1 K"]);
+    assert!(e.contains("surface.temperature.night: 1 K is outside"), "{e}");
+    let e = refuse_set(&["run.boundary_radii=5000"]);
+    assert!(
+        e.contains("run.boundary_radii: 5000 body radii is outside the allowed range (1, 1000]"),
+        "{e}"
+    );
+    let e = refuse_set(&["run.particles=50"]);
+    assert!(
+        e.contains("run.particles: 50 particles is outside the allowed range 100 to 100000000"),
+        "{e}"
+    );
+}
+
+#[test]
+fn a_bare_number_for_a_quantity_names_the_key_and_an_example() {
+    // Issue 12: "invalid type: integer" without the key or the fix.
+    let tmp = TempDir::new("bare-number");
+    let line_of = |needle: &str| {
+        demo::scenario_text(true).lines().position(|l| l.starts_with(needle)).unwrap() + 1
+    };
+    let e = refuse(tmp.path(), |t| t.replace("dt = \"900 s\"", "dt = 900"));
+    assert!(
+        e.contains(&format!("demo-quick.toml:{}:6: run.dt needs a quantity with a unit in quotes, e.g. dt = \"600 s\"", line_of("dt ="))),
+        "{e}"
+    );
+    assert!(e.contains("got the bare number 900") && e.ends_with("(in [run])"), "{e}");
+    let e = refuse(tmp.path(), |t| t.replace("duration = \"1.5 d\"", "duration = 86400"));
+    assert!(e.contains("run.duration needs a quantity with a unit") && e.contains("86400"), "{e}");
+    let e = refuse(tmp.path(), |t| t.replace("\"2e8 cm^-2 s^-1\"", "2e8"));
+    assert!(
+        e.contains(&format!("demo-quick.toml:{}:", line_of("solar_wind_flux")))
+            && e.contains("environment.solar_wind_flux needs a quantity with a unit")
+            && e.contains("e.g. solar_wind_flux = \"2e8 cm^-2 s^-1\""),
+        "{e}"
+    );
+    let e = refuse(tmp.path(), |t| t.replace("subsolar = \"390 K\"", "subsolar = 390"));
+    assert!(
+        e.contains("surface.temperature.subsolar needs a quantity with a unit")
+            && e.contains("(in [surface.temperature])"),
+        "{e}"
+    );
+    // The same from --set, where the file has no line to point at.
+    let e = refuse_set(&["run.dt=600"]);
+    assert!(e.starts_with("--set run.dt=600: run.dt needs a quantity with a unit"), "{e}");
+    assert!(e.contains("e.g. --set run.dt=\"600 s\"") && e.contains("no unit"), "{e}");
+    let e = refuse_set(&["environment.solar_wind.0.end=19"]);
+    assert!(e.contains("environment.solar_wind.0.end needs a quantity with a unit"), "{e}");
+}
+
+#[test]
+fn text_where_a_number_belongs_names_the_key() {
+    let tmp = TempDir::new("text-number");
+    let e = refuse(tmp.path(), |t| t.replace("seed = 20261202", "seed = \"7\""));
+    assert!(
+        e.contains("run.seed takes a plain whole number, without quotes")
+            && e.contains("e.g. seed = 7"),
+        "{e}"
+    );
+    let e = refuse(tmp.path(), |t| t.replace("particles = 8000", "particles = \"1e5\""));
+    assert!(
+        e.contains("run.particles takes a plain whole number") && e.contains("the text \"1e5\""),
+        "{e}"
+    );
+    let e = refuse(tmp.path(), |t| t.replace("meteoroid_factor = 1.0", "meteoroid_factor = \"1\""));
+    assert!(
+        e.contains("environment.meteoroid_factor takes a plain number, without quotes or unit"),
+        "{e}"
+    );
+    let e = refuse_set(&["run.particles=1e5"]);
+    assert!(e.contains("--set run.particles=1e5: run.particles takes a plain whole number"), "{e}");
+}
+
+/// The `exobound` binary of this build, (re)built first: the test crate
+/// does not depend on it, and a stale one would test old code.
+fn exobound_binary() -> PathBuf {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).parent().unwrap();
+    let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".into());
+    let out = Command::new(cargo)
+        .args(["build", "--release", "--quiet", "-p", "exobound", "--bin", "exobound"])
+        .current_dir(root)
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    // This test binary lies in <target>/release/deps/.
+    let exe = std::env::current_exe().unwrap();
+    let bin = exe.parent().unwrap().parent().unwrap().join("exobound");
+    assert!(bin.is_file(), "{}", bin.display());
+    bin
+}
+
+#[test]
+fn a_refused_scenario_exits_with_failure_and_writes_nothing() {
+    let tmp = TempDir::new("refused-binary");
+    demo::write(tmp.path()).unwrap();
+    let bin = exobound_binary();
+    for (set, key) in [
+        ("environment.solar_wind_flux=1e308 cm^-2 s^-1", "environment.solar_wind_flux"),
+        ("run.dt=600", "run.dt"),
+    ] {
+        let out_dir = tmp.path().join("out");
+        let run = Command::new(&bin)
+            .arg("run")
+            .arg(tmp.path().join("demo-quick.toml"))
+            .arg("--out")
+            .arg(&out_dir)
+            .args(["--set", set])
+            .output()
+            .unwrap();
+        let stderr = String::from_utf8_lossy(&run.stderr);
+        let code = run.status.code().unwrap_or(-1);
+        assert!((1..=99).contains(&code), "{set}: exit {code}: {stderr}");
+        assert!(stderr.contains(key), "{set}: {stderr}");
+        assert!(!out_dir.exists(), "{set}: {} exists", out_dir.display());
+        let partial = exobound::output::staging_path(&out_dir);
+        assert!(!partial.exists(), "{set}: {} exists", partial.display());
+    }
 }

@@ -9,6 +9,7 @@
 //! Every error names the file and the key, and says how to fix it; no
 //! output exists yet when one is raised.
 
+pub mod bounds;
 pub mod demo;
 pub mod file;
 pub mod keys;
@@ -257,25 +258,11 @@ impl Validator<'_> {
             .ok_or_else(|| self.err("surface", "cannot build the surface grid"))?;
         let t = &s.temperature;
         let temperature = TemperatureLaw {
-            subsolar: self.positive(
-                "surface.temperature.subsolar",
-                self.q("surface.temperature.subsolar", &t.subsolar, Kind::Temperature)?,
-                "K",
-            )?,
-            night: self.positive(
-                "surface.temperature.night",
-                self.q("surface.temperature.night", &t.night, Kind::Temperature)?,
-                "K",
-            )?,
-            reference_distance: self.positive(
+            subsolar: self.temperature("surface.temperature.subsolar", &t.subsolar)?,
+            night: self.temperature("surface.temperature.night", &t.night)?,
+            reference_distance: self.helio_distance(
                 "surface.temperature.reference_distance",
-                self.q_or(
-                    "surface.temperature.reference_distance",
-                    &t.reference_distance,
-                    "1 AU",
-                    Kind::HelioDistance,
-                )?,
-                "AU",
+                t.reference_distance.as_deref().unwrap_or("1 AU"),
             )?,
         };
         if temperature.night > temperature.subsolar {
@@ -306,18 +293,23 @@ impl Validator<'_> {
             return Err(self.err("body.subsolar_latitude", "must lie within [-90, 90] deg"));
         }
         let e = &file.environment;
-        let flux = self.q_or(
+        let flux = self.within(
             "environment.solar_wind_flux",
-            &e.solar_wind_flux,
-            "2e8 cm^-2 s^-1",
-            Kind::Flux,
+            self.q_or(
+                "environment.solar_wind_flux",
+                &e.solar_wind_flux,
+                "2e8 cm^-2 s^-1",
+                Kind::Flux,
+            )?,
+            bounds::SOLAR_WIND_FLUX,
+            "cm^-2 s^-1",
+            "it is the unshielded flux at 1 AU, observed to be about 1e8 to 1e9 cm^-2 s^-1 \
+             (default 2e8); scale it in time with [[environment.solar_wind]] factors",
         )?;
-        if !(flux >= 0.0) {
-            return Err(self.err("environment.solar_wind_flux", "must not be negative"));
-        }
         let mut schedule = Vec::new();
         for (i, iv) in e.solar_wind.iter().enumerate() {
             let key = format!("environment.solar_wind[{i}]");
+            // quantity::parse gives finite values only.
             let start = self.q(&format!("{key}.start"), &iv.start, Kind::Time)?;
             let end = self.q(&format!("{key}.end"), &iv.end, Kind::Time)?;
             if !(end > start) {
@@ -325,15 +317,22 @@ impl Validator<'_> {
                     self.err(&key, format!("end ({end} s) must come after start ({start} s)"))
                 );
             }
-            if !(iv.factor >= 0.0 && iv.factor.is_finite()) {
-                return Err(self.err(&format!("{key}.factor"), "must be a number >= 0"));
-            }
-            schedule.push(FluxInterval { start, end, factor: iv.factor });
+            let factor = self.within(
+                &format!("{key}.factor"),
+                iv.factor,
+                bounds::FACTOR,
+                "",
+                "it multiplies environment.solar_wind_flux: 0 for shielded, 1 for nominal",
+            )?;
+            schedule.push(FluxInterval { start, end, factor });
         }
-        let meteoroid_factor = e.meteoroid_factor.unwrap_or(1.0);
-        if !(meteoroid_factor >= 0.0 && meteoroid_factor.is_finite()) {
-            return Err(self.err("environment.meteoroid_factor", "must be a number >= 0"));
-        }
+        let meteoroid_factor = self.within(
+            "environment.meteoroid_factor",
+            e.meteoroid_factor.unwrap_or(1.0),
+            bounds::FACTOR,
+            "",
+            "it is the meteoroid flux relative to nominal: 1 for the nominal flux",
+        )?;
         let model = Model {
             body,
             species,
@@ -417,8 +416,7 @@ impl Validator<'_> {
             }
         }
         if let Some(d) = &file.environment.heliocentric_distance {
-            let r = self.q("environment.heliocentric_distance", d, Kind::HelioDistance)?;
-            self.positive("environment.heliocentric_distance", r, "AU")?;
+            let r = self.helio_distance("environment.heliocentric_distance", d)?;
             body.orbit = HelioOrbit::Constant { distance_au: r };
         }
         Ok(body)
@@ -659,46 +657,121 @@ impl Validator<'_> {
         let r = &file.run;
         let o = &file.outputs;
         let mut c = RunConfig::for_body(body);
-        c.dt = self.positive("run.dt", self.q_or("run.dt", &r.dt, "300 s", Kind::Time)?, "s")?;
+        // The time step first, so that a bad one is blamed on run.dt and
+        // not on the step counts derived from it.
+        c.dt = self.within(
+            "run.dt",
+            self.q_or("run.dt", &r.dt, "300 s", Kind::Time)?,
+            bounds::DT_S,
+            "s",
+            "choose a time step between 1 s and 1e6 s (11.6 d), e.g. \"600 s\"",
+        )?;
         let duration =
             self.positive("run.duration", self.q("run.duration", &r.duration, Kind::Time)?, "s")?;
-        let spin_up = self.q_or("run.spin_up", &r.spin_up, "0 s", Kind::Time)?;
-        let steps_of = |t: f64| (t / c.dt).round() as u64;
-        let steps = steps_of(duration);
-        if steps == 0 {
-            return Err(self.err("run.duration", "is shorter than one time step `run.dt`"));
-        }
-        let spin_up_steps = steps_of(spin_up);
-        if !(spin_up >= 0.0) || spin_up_steps >= steps {
+        if c.dt > duration {
             return Err(self.err(
-                "run.spin_up",
-                format!("must lie in [0, duration): got {spin_up} s of {duration} s"),
+                "run.dt",
+                format!(
+                    "{} s is longer than run.duration = {} s, so the run would have no step; \
+                     lower run.dt or lengthen run.duration",
+                    bounds::shown(c.dt),
+                    bounds::shown(duration)
+                ),
             ));
         }
+        // At least 1, as dt <= duration; checked against the cap before
+        // the conversion to an integer.
+        let steps = (duration / c.dt).round();
+        if !(steps <= bounds::MAX_STEPS as f64) {
+            return Err(ScenarioError(format!(
+                "{}: run.duration / run.dt gives {} steps; at most {} are allowed; \
+                 raise run.dt or shorten run.duration",
+                self.origin,
+                if steps < 1.0e15 { format!("{steps}") } else { bounds::shown(steps) },
+                bounds::MAX_STEPS
+            )));
+        }
+        let steps = steps as u64;
+        // Every time below lies in [0, duration], so its count of steps
+        // lies in [0, steps].
+        let steps_of = |t: f64| (t / c.dt).round() as u64;
+        let spin_up = self.q_or("run.spin_up", &r.spin_up, "0 s", Kind::Time)?;
+        if !(spin_up >= 0.0 && spin_up < duration) || steps_of(spin_up) >= steps {
+            return Err(self.err(
+                "run.spin_up",
+                format!(
+                    "{} s is outside the allowed range [0, run.duration) = [0, {} s), \
+                     counted in whole steps of run.dt = {} s with at least one step left after it; \
+                     shorten run.spin_up (it is part of run.duration) or lengthen run.duration",
+                    bounds::shown(spin_up),
+                    bounds::shown(duration),
+                    bounds::shown(c.dt)
+                ),
+            ));
+        }
+        let spin_up_steps = steps_of(spin_up);
         c.seed = r.seed.unwrap_or(1);
         c.target_in_flight = r.particles.unwrap_or(100_000);
         if !(100..=100_000_000).contains(&c.target_in_flight) {
-            return Err(self.err("run.particles", "use between 100 and 100000000 particles"));
+            return Err(self.err(
+                "run.particles",
+                format!(
+                    "{} particles is outside the allowed range 100 to 100000000; \
+                     use between 100 and 100000000 particles",
+                    c.target_in_flight
+                ),
+            ));
         }
+        let cores = std::thread::available_parallelism().map_or(1, |n| n.get());
+        let max_threads = bounds::THREADS_PER_CORE * cores;
         c.threads = match r.threads.unwrap_or(0) {
-            0 => std::thread::available_parallelism().map_or(1, |n| n.get()),
-            n => n,
+            0 => cores,
+            n if n <= max_threads => n,
+            n => {
+                return Err(self.err(
+                    "run.threads",
+                    format!(
+                        "{n} threads is outside the allowed range 0 to {max_threads} \
+                         ({} per core on this machine's {cores} cores); use 0 for one per core, \
+                         or fewer threads: results do not depend on the thread count",
+                        bounds::THREADS_PER_CORE
+                    ),
+                ));
+            }
         };
         c.radiation_pressure = r.radiation_pressure.unwrap_or(false);
         let radii = r.boundary_radii.unwrap_or(20.0);
-        if !(radii > 1.0 && radii.is_finite()) {
-            return Err(self.err("run.boundary_radii", "must exceed 1 (body radii)"));
+        if !(radii > 1.0 && radii <= bounds::BOUNDARY_RADII_MAX) {
+            return Err(self.err(
+                "run.boundary_radii",
+                format!(
+                    "{} body radii is outside the allowed range (1, {}] body radii; \
+                     the default is 20",
+                    bounds::shown(radii),
+                    bounds::shown(bounds::BOUNDARY_RADII_MAX)
+                ),
+            ));
         }
         c.boundary_radius = radii * body.radius;
+        let whole_steps = format!(
+            "[run.dt, run.duration] = [{} s, {} s]",
+            bounds::shown(c.dt),
+            bounds::shown(duration)
+        );
         let checkpoint_steps = match &r.checkpoint_every {
             None => None,
             Some(t) => {
-                let dt = self.positive(
+                let every = self.within(
                     "run.checkpoint_every",
                     self.q("run.checkpoint_every", t, Kind::Time)?,
+                    c.dt..=duration,
                     "s",
+                    &format!(
+                        "checkpoints fall on whole steps within the run: give a time in \
+                         {whole_steps}, or leave the key out for no periodic checkpoints"
+                    ),
                 )?;
-                Some(steps_of(dt).max(1))
+                Some(steps_of(every).max(1))
             }
         };
         c.alt_edges = match &o.altitude_edges {
@@ -712,10 +785,12 @@ impl Validator<'_> {
         if c.alt_edges.len() < 2
             || c.alt_edges[0] < 0.0
             || c.alt_edges.windows(2).any(|w| !(w[1] > w[0]))
+            || c.alt_edges.iter().any(|e| !e.is_finite())
         {
-            return Err(
-                self.err("outputs.altitude_edges", "need at least two edges, increasing from >= 0")
-            );
+            return Err(self.err(
+                "outputs.altitude_edges",
+                "need at least two finite edges, increasing from >= 0",
+            ));
         }
         c.n_local_time = o.local_time_bins.unwrap_or(24);
         c.n_latitude = o.latitude_bins.unwrap_or(18);
@@ -725,11 +800,17 @@ impl Validator<'_> {
                 "use 4-1440 local-time bins and 2-720 latitude bins",
             ));
         }
-        let window = self.positive(
-            "outputs.window",
-            self.q_or("outputs.window", &o.window, "1 d", Kind::Time)?,
-            "s",
-        )?;
+        let window = match &o.window {
+            Some(w) => self.within(
+                "outputs.window",
+                self.q("outputs.window", w, Kind::Time)?,
+                c.dt..=duration,
+                "s",
+                &format!("an averaging window spans whole steps: give a time in {whole_steps}"),
+            )?,
+            // The default, one day, shortened to the run or lengthened to one step.
+            None => 86_400.0f64.min(duration).max(c.dt),
+        };
         let window_steps = steps_of(window).max(1);
         let band = self.q_or("outputs.equator_band", &o.equator_band, "10 deg", Kind::Angle)?;
         if !(band > 0.0 && band < core::f64::consts::FRAC_PI_2) {
@@ -764,6 +845,53 @@ impl Validator<'_> {
                 products,
             },
         ))
+    }
+
+    /// `x` (in `unit`, "" if dimensionless) if it lies in `range`, else a
+    /// message naming `key`, the value, the range and `fix`.
+    fn within(
+        &self,
+        key: &str,
+        x: f64,
+        range: std::ops::RangeInclusive<f64>,
+        unit: &str,
+        fix: &str,
+    ) -> Result<f64, ScenarioError> {
+        if range.contains(&x) {
+            return Ok(x);
+        }
+        let u = if unit.is_empty() { String::new() } else { format!(" {unit}") };
+        Err(self.err(
+            key,
+            format!(
+                "{}{u} is outside the allowed range [{}, {}]{u}; {fix}",
+                bounds::shown(x),
+                bounds::shown(*range.start()),
+                bounds::shown(*range.end())
+            ),
+        ))
+    }
+
+    /// A surface temperature at `key`, K, within [`bounds::TEMPERATURE_K`].
+    fn temperature(&self, key: &str, text: &str) -> Result<f64, ScenarioError> {
+        self.within(
+            key,
+            self.q(key, text, Kind::Temperature)?,
+            bounds::TEMPERATURE_K,
+            "K",
+            "the lunar subsolar point is about 390 K and its night about 100 K",
+        )
+    }
+
+    /// A heliocentric distance at `key`, AU, within [`bounds::HELIO_DISTANCE_AU`].
+    fn helio_distance(&self, key: &str, text: &str) -> Result<f64, ScenarioError> {
+        self.within(
+            key,
+            self.q(key, text, Kind::HelioDistance)?,
+            bounds::HELIO_DISTANCE_AU,
+            "AU",
+            "the Moon is at 1 AU, Mercury between 0.307 and 0.467 AU",
+        )
     }
 }
 

@@ -112,7 +112,11 @@ pub fn parse(text: &str, kind: Kind) -> Result<f64, String> {
         ));
     };
     if !x.is_finite() {
-        return Err(format!("`{text}` is not a finite number"));
+        return Err(format!(
+            "`{text}` is not a finite number; write a finite {} with its unit, e.g. \"1 {}\"",
+            kind.name(),
+            kind.units()[0].0
+        ));
     }
     if unit.is_empty() {
         return Err(format!(
@@ -122,7 +126,14 @@ pub fn parse(text: &str, kind: Kind) -> Result<f64, String> {
         ));
     }
     match kind.units().iter().find(|(u, _)| *u == unit) {
-        Some((_, factor)) => Ok(x * factor),
+        // A finite number can still overflow on conversion ("1e308 d").
+        Some((_, factor)) if (x * factor).is_finite() => Ok(x * factor),
+        Some(_) => Err(format!(
+            "`{text}` is too large: in {} it exceeds the largest number ({:e}); write a smaller {}",
+            kind.internal_unit(),
+            f64::MAX,
+            kind.name()
+        )),
         None => Err(format!(
             "unknown unit `{unit}` for a {}; use one of {}",
             kind.name(),
@@ -162,5 +173,16 @@ mod tests {
         let e = parse("soon", Kind::Time).unwrap_err();
         assert!(e.contains("not a duration"), "{e}");
         assert!(parse("inf K", Kind::Temperature).is_err());
+    }
+
+    #[test]
+    fn every_parsed_value_is_finite() {
+        // "1e309" reads as infinity in Rust; "1e308 d" overflows on conversion.
+        for t in ["1e309 s", "-1e309 s", "NaN s", "inf s", "1e308 d", "-1e308 d"] {
+            let e = parse(t, Kind::Time).unwrap_err();
+            assert!(e.contains("finite") || e.contains("too large"), "{t}: {e}");
+            assert!(e.contains(&format!("`{t}`")), "{t}: {e}");
+        }
+        assert_eq!(parse("1e308 s", Kind::Time).unwrap(), 1e308);
     }
 }
