@@ -190,3 +190,21 @@ pub const STANDARD: [&str; 8] = [
     "surface-accommodation",
     "thermal-desorption",
 ];
+
+/// The `exobound` binary of this build, (re)built first: the test crate
+/// does not depend on it, and a stale one would test old code.
+pub fn exobound_binary() -> PathBuf {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).parent().unwrap();
+    let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".into());
+    let out = std::process::Command::new(cargo)
+        .args(["build", "--release", "--quiet", "-p", "exobound", "--bin", "exobound"])
+        .current_dir(root)
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    // This test binary lies in <target>/release/deps/.
+    let exe = std::env::current_exe().unwrap();
+    let bin = exe.parent().unwrap().parent().unwrap().join("exobound");
+    assert!(bin.is_file(), "{}", bin.display());
+    bin
+}
