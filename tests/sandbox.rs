@@ -367,3 +367,70 @@ fn fuel_budget_stops_a_loop_reproducibly() {
     // A good module still runs under the same fuel budget.
     assert_host_still_works(&rt);
 }
+
+/// A loss module with `extra` small functions beside its exports.
+fn many_functions(extra: usize) -> Vec<u8> {
+    let m = loss_manifest();
+    let mut body = loss_export("(local.get $n)");
+    for i in 0..extra {
+        body.push_str(&format!("\n(func $f{i} (result i32) (i32.const {i}))"));
+    }
+    wat(Some("1.0.0"), Some(&m), "", &body)
+}
+
+#[test]
+fn a_module_of_a_hundred_thousand_functions_is_refused_before_compiling() {
+    // Such a module once took 30-40 s and 5-6 GiB to compile, in `run` and
+    // in `module vet`; the shape check refuses it before the compiler runs.
+    let bytes = many_functions(100_000);
+    let rt = runtime();
+    let e = rt.load_bytes("many.wasm", &bytes).unwrap_err();
+    assert!(matches!(e, HostError::CompileLimit { what: "functions", limit: 20_000, .. }), "{e}");
+    assert!(e.to_string().contains("wat-fixture") && e.to_string().contains("20000"), "{e}");
+    assert_eq!(e.kind(), "compile-limit");
+    // vet reports it as a failed check, without compiling either.
+    let report = exobound::vet::vet_bytes("many.wasm", &bytes, &Default::default());
+    assert!(!report.passed);
+    let abi = report.check("abi").expect("abi check");
+    assert!(abi.summary.contains("functions"), "{}", abi.summary);
+    // A module of ordinary size still loads under the same limits.
+    rt.load_bytes("few.wasm", &many_functions(200)).unwrap();
+}
+
+#[test]
+fn vet_ends_when_a_modules_error_message_export_loops() {
+    // The law refuses every batch (code -6), and its message export never
+    // returns: each read of the message is stopped by its own small fuel
+    // budget, so vet finishes and reports the module as failing.
+    let m = loss_manifest();
+    let text = wat_text(Some("1.0.0"), Some(&m), "", &loss_export("(i32.const -6)"));
+    let looping = text.replace(
+        "(memory.copy (local.get $buf) (i32.const 16) (i32.const 39))\n    (i32.const 39))",
+        "(loop $l (br $l)) (i32.const 0))",
+    );
+    assert_ne!(looping, text, "the fixture's message export was replaced");
+    let bytes = ::wat::parse_str(&looping).unwrap();
+    let report = exobound::vet::vet_bytes("loop-message.wasm", &bytes, &Default::default());
+    assert!(!report.passed);
+    // And the run-time call reports the law's refusal without its message.
+    let rt = runtime();
+    let module = rt.load_bytes("loop-message.wasm", &bytes).unwrap();
+    let mut inst = rt.instantiate(&module, &BTreeMap::new()).unwrap().unwrap();
+    let ps = particles(4);
+    let mut out = vec![0.0; 4];
+    let refusal = inst.loss_rate(&ps, &mut out).unwrap().unwrap_err();
+    assert_eq!(refusal.error.code, ErrorCode::Law);
+}
+
+#[test]
+fn vet_stops_starting_checks_past_its_time_limit() {
+    let path = exobound::standard_module("photoionization");
+    let options = exobound::vet::VetOptions { time_limit: Duration::ZERO, ..Default::default() };
+    let report = exobound::vet::vet_file_with(&path, &options).unwrap();
+    assert!(!report.passed);
+    for name in ["determinism", "bounds", "sampler", "distribution", "throughput"] {
+        let c = report.check(name).unwrap_or_else(|| panic!("{name} listed"));
+        assert_eq!(c.status, exobound::vet::Status::NotRun, "{name}");
+        assert!(c.summary.contains("time limit"), "{}", c.summary);
+    }
+}

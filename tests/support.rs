@@ -126,6 +126,12 @@ pub fn wat_bytes(b: &[u8]) -> String {
 /// A hand-written WAT module: a bump allocator, no-op init and last_error,
 /// plus `body` (the role exports), with the given sections and imports.
 pub fn wat(abi: Option<&str>, manifest: Option<&[u8]>, imports: &str, body: &str) -> Vec<u8> {
+    let text = wat_text(abi, manifest, imports, body);
+    wat::parse_str(&text).unwrap_or_else(|e| panic!("fixture WAT does not assemble: {e}\n{text}"))
+}
+
+/// The text of the module [`wat`] assembles.
+pub fn wat_text(abi: Option<&str>, manifest: Option<&[u8]>, imports: &str, body: &str) -> String {
     let mut sections = String::new();
     if let Some(a) = abi {
         sections += &format!("(@custom \"exobound:abi\" \"{a}\")\n");
@@ -133,7 +139,7 @@ pub fn wat(abi: Option<&str>, manifest: Option<&[u8]>, imports: &str, body: &str
     if let Some(m) = manifest {
         sections += &format!("(@custom \"exobound:manifest\" \"{}\")\n", wat_bytes(m));
     }
-    let text = format!(
+    format!(
         r#"(module
   {imports}
   (memory (export "memory") 2)
@@ -159,8 +165,7 @@ pub fn wat(abi: Option<&str>, manifest: Option<&[u8]>, imports: &str, body: &str
   {body}
   {sections}
 )"#
-    );
-    wat::parse_str(&text).unwrap_or_else(|e| panic!("fixture WAT does not assemble: {e}\n{text}"))
+    )
 }
 
 /// A loss export whose body writes 1e-6 s^-1 into every output and then

@@ -3,7 +3,9 @@
 //!
 //! `engine/hop/native`: Kepler hops (orbit from state, then the landing time
 //! and state in one solve, as the step loop does) per second on one core. `engine/step/{wasm,native}/T`: one
-//! step of a Moon scenario with about 1e5 particles in flight, T threads.
+//! step of a Moon scenario with about 1e5 particles in flight, T threads;
+//! `engine/step/wasm-nofuel/1` is the same with fuel metering off, to
+//! measure what the deterministic budgets cost.
 
 use std::collections::BTreeMap;
 use std::sync::Arc;
@@ -55,12 +57,29 @@ fn num(x: f64) -> ParamValue {
     ParamValue::Number(x)
 }
 
-fn processes(wasm: bool) -> Processes {
+/// How the step's modules run.
+#[derive(Clone, Copy, PartialEq)]
+enum Build {
+    /// In wasm, as in a run: fuel metered.
+    Wasm,
+    /// In wasm without fuel metering: what metering costs.
+    WasmNoFuel,
+    /// Linked natively.
+    Native,
+}
+
+fn processes(build: Build) -> Processes {
     let td = BTreeMap::from([("binding_energy".to_string(), num(1.1))]);
     let sa = BTreeMap::from([("sticking".to_string(), num(0.3))]);
     let pi = BTreeMap::new();
-    if wasm {
-        let rt = Arc::new(Runtime::new(RuntimeConfig::default()).unwrap());
+    if build != Build::Native {
+        let rt = Arc::new(
+            Runtime::new(RuntimeConfig {
+                fuel_metering: build == Build::Wasm,
+                ..RuntimeConfig::default()
+            })
+            .unwrap(),
+        );
         let load = |name: &str, p: BTreeMap<String, ParamValue>| {
             let m = rt.load(&exobound::standard_module(name)).unwrap();
             ModuleHandle::wasm(rt.clone(), m, p, SandboxLimits::default()).unwrap()
@@ -88,7 +107,7 @@ fn processes(wasm: bool) -> Processes {
 }
 
 /// A Moon simulation spun up to about 1e5 particles in flight.
-pub fn moon_simulation(wasm: bool, threads: usize) -> Simulation {
+fn moon_simulation(build: Build, threads: usize) -> Simulation {
     let body = Body::moon();
     let grid = Grid::new(36, 72, body.radius).unwrap();
     let reservoir = Reservoir::uniform(&grid, 3.0e10);
@@ -106,7 +125,7 @@ pub fn moon_simulation(wasm: bool, threads: usize) -> Simulation {
     config.dt = 300.0;
     config.target_in_flight = 100_000;
     config.threads = threads;
-    let mut sim = Simulation::new(model, processes(wasm), config).unwrap();
+    let mut sim = Simulation::new(model, processes(build), config).unwrap();
     while sim.particles().len() < 100_000 && sim.steps() < 200 {
         sim.step().unwrap();
     }
@@ -117,8 +136,13 @@ fn step(c: &mut Criterion) {
     let mut group = c.benchmark_group("engine/step");
     group.sample_size(10).measurement_time(Duration::from_secs(8));
     for threads in [1, 2] {
-        for (label, wasm) in [("wasm", true), ("native", false)] {
-            let mut sim = moon_simulation(wasm, threads);
+        for (label, build) in
+            [("wasm", Build::Wasm), ("wasm-nofuel", Build::WasmNoFuel), ("native", Build::Native)]
+        {
+            if threads == 2 && build == Build::WasmNoFuel {
+                continue;
+            }
+            let mut sim = moon_simulation(build, threads);
             eprintln!(
                 "engine/step/{label}/{threads}: {} particles in flight, {} bytes of state each",
                 sim.particles().len(),

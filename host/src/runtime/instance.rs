@@ -23,6 +23,8 @@ use super::{LoadedModule, Runtime, validate};
 
 /// Longest error message read back from a module, bytes.
 const MAX_MESSAGE: u32 = 4096;
+/// Fuel allowed to `exobound_last_error`, fuel units.
+const MESSAGE_FUEL: u64 = 1_000_000;
 /// Alignment of the host's batch buffers in guest memory, bytes.
 const BUFFER_ALIGN: u32 = 8;
 
@@ -252,7 +254,11 @@ impl ProcessInstance {
     /// The module's last error message, if it can be read back safely.
     fn read_message(&mut self) -> Option<String> {
         let buf = self.ensure(Which::Output, MAX_MESSAGE as usize, "exobound_last_error").ok()?;
-        self.arm();
+        // Copying a message of at most 4 KiB takes thousands of instructions;
+        // a module whose message export loops is stopped after this much.
+        let fuel = self.limits.fuel_per_call.min(MESSAGE_FUEL);
+        self.armed = (fuel, KEY_FUEL_PER_CALL);
+        arm(&mut self.store, self.ticks, fuel);
         let len = self.exports.last_error.call(&mut self.store, (buf, MAX_MESSAGE)).ok()?;
         let k = len.min(MAX_MESSAGE) as usize;
         let data = self.exports.memory.data(&self.store);
@@ -478,7 +484,8 @@ impl ProcessInstance {
 
 fn arm(store: &mut Store<MemoryGuard>, ticks: u64, fuel: u64) {
     store.set_epoch_deadline(ticks);
-    // Fuel is always enabled on the engine (see `Runtime::new`), so this cannot fail.
+    // This fails only when fuel metering is off (benches), and then no
+    // budget applies.
     let _ = store.set_fuel(fuel);
 }
 

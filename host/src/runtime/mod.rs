@@ -71,6 +71,10 @@ pub struct RuntimeConfig {
     pub cache_dir: Option<PathBuf>,
     /// Period of the watchdog's epoch tick, wall time (default 50 ms).
     pub epoch_tick: Duration,
+    /// Count fuel (default true). Off only to measure what metering costs
+    /// (`benches/engine.rs`): without it no fuel budget applies and only
+    /// the wall-time backstop stops a runaway call. No command turns it off.
+    pub fuel_metering: bool,
 }
 
 impl Default for RuntimeConfig {
@@ -83,6 +87,7 @@ impl Default for RuntimeConfig {
             max_manifest: 64 << 10,
             cache_dir: cache::default_dir(),
             epoch_tick: Duration::from_millis(50),
+            fuel_metering: true,
         }
     }
 }
@@ -138,7 +143,7 @@ impl Runtime {
         c.compiler_inlining(wasmtime::Inlining::Yes);
         // Fuel is the budget that decides; the epoch is the wall-time backstop.
         c.epoch_interruption(true);
-        c.consume_fuel(true);
+        c.consume_fuel(config.fuel_metering);
         let engine = Engine::new(&c).map_err(|e| HostError::Compile {
             module: "(engine)".to_string(),
             detail: e.to_string(),
