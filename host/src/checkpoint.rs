@@ -21,8 +21,10 @@ use crate::engine::EngineState;
 use crate::runtime::Runtime;
 use crate::scenario::{Inputs, Scenario, ScenarioError};
 
-/// Checkpoint layout version; bump on any change to what is saved.
-pub const FORMAT: u32 = 1;
+/// Checkpoint layout version; bump on any change to what is saved or to
+/// how a saved state continues (format 2: random keys carry the step, so a
+/// format-1 state would not continue as its run would have).
+pub const FORMAT: u32 = 2;
 
 /// How to rebuild the scenario of a run.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
