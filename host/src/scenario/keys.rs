@@ -66,9 +66,10 @@ pub(crate) fn describe_scenario(origin: &str, text: &str, e: &toml::de::Error) -
     let mut path = Vec::new();
     let Some(value) = find_value(doc.get_ref(), &span, &mut path) else { return plain };
     let key = display_key(&path);
+    // An entry of a list is shown as a bare value.
     let leaf = match path.last() {
         Some(Seg::Key(k)) => k.clone(),
-        _ => key.clone(),
+        _ => String::new(),
     };
     let message = match takes(&pattern_key(&path)) {
         Some(t) => wrong_type(&key, t, &Given::of_de(value), &Place::File { leaf: &leaf }),
@@ -335,7 +336,7 @@ impl Given {
 
 /// Where the value was written, which decides how the example is spelled.
 enum Place<'a> {
-    /// In the file, as `leaf = value`.
+    /// In the file, as `leaf = value` (as `value` if `leaf` is empty).
     File { leaf: &'a str },
     /// On the command line, as `--set KEY=VALUE`.
     Set,
@@ -345,6 +346,7 @@ enum Place<'a> {
 fn wrong_type(key: &str, t: Takes, given: &Given, place: &Place<'_>) -> Option<String> {
     // How to write `value` (`toml` in the file, `cli` after --set).
     let example = |toml: &str, cli: &str| match place {
+        Place::File { leaf: "" } => toml.to_string(),
         Place::File { leaf } => format!("{leaf} = {toml}"),
         Place::Set => format!("--set {key}={cli}"),
     };
@@ -620,6 +622,13 @@ mod tests {
         let e = parse_file(&text, "s.toml", &[]).unwrap_err().0;
         assert!(e.contains("environment.solar_wind[0].start needs a quantity"), "{e}");
         assert!(e.contains("e.g. start = \"12 d\""), "{e}");
+        // An entry of a list is named by its index; the example is a value.
+        let text = demo().replace("products = [\"netcdf\",", "products = [1,");
+        let e = parse_file(&text, "s.toml", &[]).unwrap_err().0;
+        assert!(
+            e.contains("outputs.products[0] takes text in quotes, e.g. \"csv\"; got the number 1"),
+            "{e}"
+        );
     }
 
     #[test]
