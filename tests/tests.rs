@@ -13,6 +13,7 @@ mod observe_compare;
 mod output_lock;
 mod parameters;
 mod run_outputs;
+mod safe_text;
 mod sandbox;
 mod scaffold;
 mod scenario_errors;

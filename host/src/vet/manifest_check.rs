@@ -5,14 +5,16 @@
 //! anything; vet turns those refusals into named, failed checks, and adds
 //! what the runtime does not demand but a receiving group needs: a unit on
 //! every number parameter written in a grammar the host can read, a
-//! published source for the law, and reference points that exercise every
-//! role the module declares, each with its own source.
+//! published source for the law, reference points that exercise every
+//! role the module declares, each with its own source, and text that prints
+//! as it reads (no terminal control or invisible formatting characters).
 
-use exobound_sdk::{ManifestInfo, Role};
+use exobound_sdk::{ManifestInfo, ParamValue, Role};
 
 use super::{Check, Status};
 use crate::runtime::HostError;
 use crate::runtime::module::{ModuleHeader, SUPPORTED_ABI_MAJOR, role_exports};
+use crate::text::{needs_escape, printable};
 
 /// Unit symbols the unit grammar accepts (each may carry an integer power,
 /// e.g. `cm^-2`, and be joined by spaces or one `/`).
@@ -151,6 +153,16 @@ pub fn completeness(m: &ManifestInfo) -> Check {
                 .push(format!("reference point `{}` has tolerance {}", r.description, r.tolerance));
         }
     }
+    for (field, value) in texts(m) {
+        if let Some(c) = value.chars().find(|&c| needs_escape(c)) {
+            problems.push(format!(
+                "`{field}` holds U+{:04X}, a control or invisible formatting character that \
+                 would act on the reader's terminal (the text, escaped: {}); write plain text",
+                c as u32,
+                printable(value)
+            ));
+        }
+    }
     if let Ok(roles) = m.parsed_roles() {
         for role in roles {
             let wanted = role_checks(role);
@@ -179,9 +191,113 @@ pub fn completeness(m: &ManifestInfo) -> Check {
     }
 }
 
+/// Every string of the manifest with the field it sits in, e.g.
+/// `parameters[0].description`.
+fn texts(m: &ManifestInfo) -> Vec<(String, &str)> {
+    let mut out: Vec<(String, &str)> = vec![
+        ("name".into(), &m.name),
+        ("version".into(), &m.version),
+        ("description".into(), &m.description),
+        ("institution".into(), &m.institution),
+        ("licence".into(), &m.licence),
+        ("law_source".into(), &m.law_source),
+        ("ledger_label".into(), &m.ledger_label),
+    ];
+    if let Some(d) = &m.draws_on {
+        out.push(("draws_on".into(), d));
+    }
+    for (list, field) in [(&m.roles, "roles"), (&m.authors, "authors"), (&m.inputs, "inputs")] {
+        out.extend(list.iter().enumerate().map(|(i, s)| (format!("{field}[{i}]"), s.as_str())));
+    }
+    for (i, p) in m.parameters.iter().enumerate() {
+        let at = |f: &str| format!("parameters[{i}].{f}");
+        out.push((at("name"), &p.name));
+        out.push((at("unit"), &p.unit));
+        out.push((at("description"), &p.description));
+        out.push((at("default_origin"), &p.default_origin));
+        if let Some(ParamValue::Text(t)) = &p.default {
+            out.push((at("default"), t));
+        }
+        out.extend(
+            p.choices.iter().enumerate().map(|(j, c)| (at(&format!("choices[{j}]")), c.as_str())),
+        );
+    }
+    for (i, r) in m.reference_points.iter().enumerate() {
+        let at = |f: &str| format!("reference_points[{i}].{f}");
+        out.push((at("description"), &r.description));
+        out.push((at("check"), &r.check));
+        out.push((at("source"), &r.source));
+        for (name, v) in &r.parameters {
+            out.push((at("parameters"), name));
+            if let ParamValue::Text(t) = v {
+                out.push((at(&format!("parameters.{name}")), t));
+            }
+        }
+        out.extend(r.input.iter().map(|(name, _)| (at("input"), name.as_str())));
+    }
+    out
+}
+
 #[cfg(test)]
 mod tests {
     use super::unit_problem;
+
+    #[test]
+    fn hidden_characters_anywhere_in_the_manifest_fail_the_check_naming_the_field() {
+        use super::{Status, completeness};
+        use exobound_sdk::{ManifestInfo, ParamInfo, ParamValue, ReferenceInfo};
+        let clean = ManifestInfo {
+            name: "clean".into(),
+            version: "1.0.0".into(),
+            description: "Na loss by photoionization, 5 µm–1 Å, 90°".into(),
+            roles: vec!["loss".into()],
+            authors: vec!["Åsa Öberg".into()],
+            institution: "Institut für Exosphären".into(),
+            licence: "Apache-2.0".into(),
+            law_source: "Huebner & Mukherjee (2015)".into(),
+            draws_on: None,
+            ledger_label: "photoionization".into(),
+            inputs: vec![],
+            parameters: vec![ParamInfo {
+                name: "mode".into(),
+                unit: String::new(),
+                description: "which branch".into(),
+                default: Some(ParamValue::Text("quiet".into())),
+                min: None,
+                max: None,
+                choices: vec!["quiet".into(), "active".into()],
+                default_origin: "common practice".into(),
+            }],
+            reference_points: vec![ReferenceInfo {
+                description: "1 AU".into(),
+                check: "loss-rate".into(),
+                parameters: vec![("mode".into(), ParamValue::Text("quiet".into()))],
+                input: vec![("helio_distance".into(), 1.0)],
+                expected: 1e-5,
+                tolerance: 1e-9,
+                source: "a table".into(),
+            }],
+        };
+        assert_eq!(completeness(&clean).status, Status::Pass, "{:?}", completeness(&clean));
+        type Edit = fn(&mut ManifestInfo);
+        let edits: [(&str, Edit); 5] = [
+            ("description", |m| m.description.push_str("\u{1b}[2J")),
+            ("authors[0]", |m| m.authors[0].push('\r')),
+            ("parameters[0].choices[1]", |m| m.parameters[0].choices[1].push('\u{202e}')),
+            ("reference_points[0].parameters.mode", |m| {
+                m.reference_points[0].parameters[0].1 = ParamValue::Text("quiet\u{7}".into())
+            }),
+            ("ledger_label", |m| m.ledger_label.push('\u{9b}')),
+        ];
+        for (field, edit) in edits {
+            let mut m = clean.clone();
+            edit(&mut m);
+            let c = completeness(&m);
+            assert_eq!(c.status, Status::Fail, "{field}");
+            assert!(c.summary.contains(&format!("`{field}` holds U+")), "{field}: {}", c.summary);
+            assert!(!c.summary.chars().any(crate::text::needs_escape), "{}", c.summary);
+        }
+    }
 
     #[test]
     fn the_units_of_the_standard_modules_read() {
