@@ -6,14 +6,14 @@
 //! practical bounds (key and range), and values of the wrong type (key,
 //! what it takes, an example), in the file and from `--set`.
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::Command;
 use std::sync::Arc;
 
 use exobound::runtime::{Runtime, RuntimeConfig};
 use exobound::scenario::{Inputs, Scenario, demo};
 
-use crate::support::TempDir;
+use crate::support::{TempDir, exobound_binary};
 
 fn runtime() -> Arc<Runtime> {
     Arc::new(Runtime::new(RuntimeConfig { cache_dir: None, ..RuntimeConfig::default() }).unwrap())
@@ -369,24 +369,6 @@ fn text_where_a_number_belongs_names_the_key() {
     );
     let e = refuse_set(&["run.particles=1e5"]);
     assert!(e.contains("--set run.particles=1e5: run.particles takes a plain whole number"), "{e}");
-}
-
-/// The `exobound` binary of this build, (re)built first: the test crate
-/// does not depend on it, and a stale one would test old code.
-fn exobound_binary() -> PathBuf {
-    let root = Path::new(env!("CARGO_MANIFEST_DIR")).parent().unwrap();
-    let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".into());
-    let out = Command::new(cargo)
-        .args(["build", "--release", "--quiet", "-p", "exobound", "--bin", "exobound"])
-        .current_dir(root)
-        .output()
-        .unwrap();
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
-    // This test binary lies in <target>/release/deps/.
-    let exe = std::env::current_exe().unwrap();
-    let bin = exe.parent().unwrap().parent().unwrap().join("exobound");
-    assert!(bin.is_file(), "{}", bin.display());
-    bin
 }
 
 #[test]
