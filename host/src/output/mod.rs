@@ -285,7 +285,10 @@ pub fn write_all(
     let prov = provenance::Provenance::of(scenario, source);
     let summary = summary::Summary::of(scenario, sim, record, perf);
     let write_json = |name: &str, v: &serde_json::Value| -> Result<(), String> {
-        let mut text = serde_json::to_string_pretty(v).map_err(|e| e.to_string())?;
+        let text = serde_json::to_string_pretty(v).map_err(|e| e.to_string())?;
+        // Ledger labels and other module text stay escaped when the file is
+        // printed with `cat` (same JSON values; see `text::json_printable`).
+        let mut text = crate::text::json_printable(&text).into_owned();
         text.push('\n');
         atomic_write(&dir.join(name), text.as_bytes())
             .map_err(|e| format!("cannot write `{name}`: {e}"))
