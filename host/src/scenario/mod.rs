@@ -15,6 +15,7 @@ pub mod file;
 pub mod keys;
 pub mod maps;
 pub mod quantity;
+pub mod sandbox;
 
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -498,6 +499,7 @@ impl Validator<'_> {
         runtime: &Arc<Runtime>,
     ) -> Result<Vec<ModuleUse>, ScenarioError> {
         let mut out = Vec::new();
+        let limits = sandbox::limits(&file.sandbox).map_err(|m| self.err("[sandbox]", m))?;
         for (i, entry) in file.processes.iter().enumerate() {
             let key = format!("processes[{i}]");
             let role = Role::parse(&entry.role).ok_or_else(|| {
@@ -546,8 +548,9 @@ impl Validator<'_> {
                 ));
             }
             let parameters = self.parameters(&label, &entry.parameters, &info.parameters)?;
-            let handle = ModuleHandle::wasm(runtime.clone(), loaded.clone(), parameters.clone())
-                .map_err(|e| self.err(&format!("{label}.parameters"), e))?;
+            let handle =
+                ModuleHandle::wasm(runtime.clone(), loaded.clone(), parameters.clone(), limits)
+                    .map_err(|e| self.err(&format!("{label}.parameters"), e))?;
             out.push(ModuleUse {
                 index: i,
                 role,
