@@ -3,8 +3,10 @@
 //! `abi/launch/native/B` calls the thermal-desorption law directly;
 //! `abi/launch/wasm/B` calls the same source compiled to wasm through the
 //! runtime, with the sandbox as shipped (epoch interruption on, memory cap,
-//! output validation). Both draw Maxwellian-flux speeds and cosine-law
-//! directions for batches of B records. Compare the per-element times of
+//! output validation, fuel metered); `abi/launch/wasm-nofuel/B` is the
+//! same with fuel metering off, to measure what the deterministic budgets
+//! cost. All draw Maxwellian-flux speeds and cosine-law directions for
+//! batches of B records. Compare the per-element times of
 //! the two IDs from one run: the ratio is the cost of the sandbox.
 
 use std::collections::BTreeMap;
@@ -25,6 +27,11 @@ fn launch(c: &mut Criterion) {
     let rt = Runtime::new(RuntimeConfig::default()).expect("runtime");
     let module = rt.load(&exobound::standard_module("thermal-desorption")).expect("module built");
     let mut wasm = rt.instantiate(&module, &BTreeMap::new()).unwrap().unwrap();
+    let rt_nofuel =
+        Runtime::new(RuntimeConfig { fuel_metering: false, ..RuntimeConfig::default() }).unwrap();
+    let module_nofuel =
+        rt_nofuel.load(&exobound::standard_module("thermal-desorption")).expect("module built");
+    let mut wasm_nofuel = rt_nofuel.instantiate(&module_nofuel, &BTreeMap::new()).unwrap().unwrap();
 
     let mut group = c.benchmark_group("abi/launch");
     for b in BATCHES {
@@ -36,6 +43,9 @@ fn launch(c: &mut Criterion) {
         });
         group.bench_with_input(BenchmarkId::new("wasm", b), &b, |bench, _| {
             bench.iter(|| wasm.launch(&reqs, &mut out).unwrap().unwrap())
+        });
+        group.bench_with_input(BenchmarkId::new("wasm-nofuel", b), &b, |bench, _| {
+            bench.iter(|| wasm_nofuel.launch(&reqs, &mut out).unwrap().unwrap())
         });
     }
     group.finish();
