@@ -201,12 +201,14 @@ fn start(bin: &Path, out: &Path, seed: u64, extra: &[&str], log: &Path) -> Child
         .unwrap()
 }
 
-/// Wait until `cond` holds, failing if `child` exits first or a minute passes.
+/// Wait until `cond` holds, failing if `child` exits first; ten minutes is
+/// only a guard against a hung test (the machine may be heavily loaded by
+/// `under_load`), never what decides the outcome.
 fn wait_for(child: &mut Child, what: &str, cond: impl Fn() -> bool) {
     let t0 = Instant::now();
     while !cond() {
         assert!(child.try_wait().unwrap().is_none(), "the run ended before {what}");
-        assert!(t0.elapsed() < Duration::from_secs(60), "no {what} within a minute");
+        assert!(t0.elapsed() < Duration::from_secs(600), "no {what} within ten minutes");
         std::thread::sleep(Duration::from_millis(5));
     }
 }

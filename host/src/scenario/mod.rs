@@ -203,7 +203,10 @@ struct Validator<'a> {
 
 impl Validator<'_> {
     fn err(&self, key: &str, msg: impl std::fmt::Display) -> ScenarioError {
-        ScenarioError(format!("{}: {key}: {msg}", self.origin))
+        // Messages may quote a module's manifest (choices, units): escape
+        // its control characters here, where every refusal passes.
+        let text = format!("{}: {key}: {msg}", self.origin);
+        ScenarioError(crate::text::printable_lines(&text).into_owned())
     }
 
     fn q(&self, key: &str, text: &str, kind: Kind) -> Result<f64, ScenarioError> {
