@@ -17,15 +17,9 @@ use crate::support::*;
 /// cell and whose launches go straight up at 1 km/s.
 fn source_module(name: &str, rate: &str) -> Vec<u8> {
     let m = manifest_bytes(name, &["source"]);
+    let release = constant_rate_export("exobound_release_rate", rate);
     let body = format!(
-        r#"(func (export "exobound_release_rate") (param $in i32) (param $n i32) (param $out i32) (result i32)
-    (local $i i32)
-    (block $done (loop $fill
-        (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
-        (f64.store (i32.add (local.get $out) (i32.mul (local.get $i) (i32.const 8))) (f64.const {rate}))
-        (local.set $i (i32.add (local.get $i) (i32.const 1)))
-        (br $fill)))
-    (local.get $n))
+        r#"{release}
   (func (export "exobound_launch") (param $in i32) (param $n i32) (param $out i32) (result i32)
     (local $i i32) (local $p i32)
     (block $done (loop $fill

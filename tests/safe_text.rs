@@ -13,7 +13,7 @@ use std::process::{Command, Output};
 use exobound::text::printable;
 use exobound_sdk::{ManifestInfo, ParamInfo, ParamValue, ReferenceInfo};
 
-use crate::support::{TempDir, exobound_binary, particles, runtime, wat_bytes};
+use crate::support::{TempDir, exobound_binary, particles, runtime, wat_text_with_message};
 
 /// Clear the screen and home the cursor.
 const CLEAR: &str = "\u{1b}[2J";
@@ -67,37 +67,11 @@ fn hostile_manifest() -> Vec<u8> {
 /// A loss module that refuses every batch (code -2, outside validity) and
 /// reports [`hostile_message`] as its reason.
 fn hostile_module() -> Vec<u8> {
+    let body =
+        r#"(func (export "exobound_loss_rate") (param i32 i32 i32) (result i32) (i32.const -2))"#;
+    let m = hostile_manifest();
     let msg = hostile_message();
-    let text = format!(
-        r#"(module
-  (memory (export "memory") 2)
-  (global $heap (mut i32) (i32.const 4096))
-  (func (export "exobound_alloc") (param $size i32) (param $align i32) (result i32)
-    (local $p i32)
-    (local.set $p (i32.and
-      (i32.add (global.get $heap) (i32.sub (local.get $align) (i32.const 1)))
-      (i32.sub (i32.const 0) (local.get $align))))
-    (global.set $heap (i32.add (local.get $p) (local.get $size)))
-    (block $ok
-      (loop $grow
-        (br_if $ok (i32.le_u (global.get $heap) (i32.mul (memory.size) (i32.const 65536))))
-        (if (i32.eq (memory.grow (i32.const 1)) (i32.const -1)) (then (return (i32.const 0))))
-        (br $grow)))
-    (local.get $p))
-  (func (export "exobound_free") (param i32 i32 i32))
-  (func (export "exobound_init") (param i32 i32) (result i32) (i32.const 0))
-  (data (i32.const 16) "{data}")
-  (func (export "exobound_last_error") (param $buf i32) (param $cap i32) (result i32)
-    (memory.copy (local.get $buf) (i32.const 16) (i32.const {len}))
-    (i32.const {len}))
-  (func (export "exobound_loss_rate") (param i32 i32 i32) (result i32) (i32.const -2))
-  (@custom "exobound:abi" "1.0.0")
-  (@custom "exobound:manifest" "{manifest}")
-)"#,
-        data = wat_bytes(msg.as_bytes()),
-        len = msg.len(),
-        manifest = wat_bytes(&hostile_manifest()),
-    );
+    let text = wat_text_with_message(Some("1.0.0"), Some(&m), "", body, msg.as_bytes());
     wat::parse_str(&text).unwrap_or_else(|e| panic!("fixture WAT does not assemble: {e}"))
 }
 

@@ -132,6 +132,20 @@ pub fn wat(abi: Option<&str>, manifest: Option<&[u8]>, imports: &str, body: &str
 
 /// The text of the module [`wat`] assembles.
 pub fn wat_text(abi: Option<&str>, manifest: Option<&[u8]>, imports: &str, body: &str) -> String {
+    wat_text_with_message(abi, manifest, imports, body, b"the law refuses: input outside validity")
+}
+
+/// As [`wat_text`], with `message` as what `exobound_last_error` reports.
+pub fn wat_text_with_message(
+    abi: Option<&str>,
+    manifest: Option<&[u8]>,
+    imports: &str,
+    body: &str,
+    message: &[u8],
+) -> String {
+    // The bump allocator starts past the message, on a 1 KiB boundary.
+    let heap = (16 + message.len()).div_ceil(1024) * 1024;
+    let (data, len) = (wat_bytes(message), message.len());
     let mut sections = String::new();
     if let Some(a) = abi {
         sections += &format!("(@custom \"exobound:abi\" \"{a}\")\n");
@@ -143,7 +157,7 @@ pub fn wat_text(abi: Option<&str>, manifest: Option<&[u8]>, imports: &str, body:
         r#"(module
   {imports}
   (memory (export "memory") 2)
-  (global $heap (mut i32) (i32.const 1024))
+  (global $heap (mut i32) (i32.const {heap}))
   (func (export "exobound_alloc") (param $size i32) (param $align i32) (result i32)
     (local $p i32)
     (local.set $p (i32.and
@@ -158,10 +172,10 @@ pub fn wat_text(abi: Option<&str>, manifest: Option<&[u8]>, imports: &str, body:
     (local.get $p))
   (func (export "exobound_free") (param i32 i32 i32))
   (func (export "exobound_init") (param i32 i32) (result i32) (i32.const 0))
-  (data (i32.const 16) "the law refuses: input outside validity")
+  (data (i32.const 16) "{data}")
   (func (export "exobound_last_error") (param $buf i32) (param $cap i32) (result i32)
-    (memory.copy (local.get $buf) (i32.const 16) (i32.const 39))
-    (i32.const 39))
+    (memory.copy (local.get $buf) (i32.const 16) (i32.const {len}))
+    (i32.const {len}))
   {body}
   {sections}
 )"#
@@ -212,4 +226,19 @@ pub fn exobound_binary() -> PathBuf {
     let bin = exe.parent().unwrap().parent().unwrap().join("exobound");
     assert!(bin.is_file(), "{}", bin.display());
     bin
+}
+
+/// A batch export `name` that writes `value` into every f64 output (e.g. a
+/// constant release rate, atoms cm^-2 s^-1, or loss rate, s^-1).
+pub fn constant_rate_export(name: &str, value: &str) -> String {
+    format!(
+        r#"(func (export "{name}") (param $in i32) (param $n i32) (param $out i32) (result i32)
+    (local $i i32)
+    (block $done (loop $fill
+      (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
+      (f64.store (i32.add (local.get $out) (i32.mul (local.get $i) (i32.const 8))) (f64.const {value}))
+      (local.set $i (i32.add (local.get $i) (i32.const 1)))
+      (br $fill)))
+    (local.get $n))"#
+    )
 }

@@ -129,15 +129,9 @@ fn keyed_wrongly() -> Vec<u8> {
         &["source"],
         vec![point("release-rate", &[], 1.0), point("mean-launch-speed", &[], mean)],
     );
-    let body = r#"
-  (func (export "exobound_release_rate") (param $in i32) (param $n i32) (param $out i32) (result i32)
-    (local $i i32)
-    (block $done (loop $fill
-      (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
-      (f64.store (i32.add (local.get $out) (i32.mul (local.get $i) (i32.const 8))) (f64.const 1))
-      (local.set $i (i32.add (local.get $i) (i32.const 1)))
-      (br $fill)))
-    (local.get $n))
+    let release = constant_rate_export("exobound_release_rate", "1");
+    let body = release
+        + r#"
   (func (export "exobound_launch") (param $in i32) (param $n i32) (param $out i32) (result i32)
     (local $i i32) (local $o i32)
     (block $done (loop $fill
@@ -154,7 +148,7 @@ fn keyed_wrongly() -> Vec<u8> {
       (local.set $i (i32.add (local.get $i) (i32.const 1)))
       (br $fill)))
     (local.get $n))"#;
-    wat(Some("1.0.0"), Some(&encode(&m)), "", body)
+    wat(Some("1.0.0"), Some(&encode(&m)), "", &body)
 }
 
 #[test]

@@ -179,7 +179,7 @@ impl Cache {
         }
         let (tag, artifact) = rest.split_at(TAG_LEN);
         if !tags_equal(tag, &self.tag(sha256, engine_key, artifact)) {
-            return Err("its keyed digest does not match (corrupted, or not made for this module)");
+            return Err("its keyed digest does not match: corrupted, or not made for this module");
         }
         Ok(artifact)
     }
