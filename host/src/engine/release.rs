@@ -37,12 +37,12 @@ impl Simulation {
             };
             let total: f64 =
                 (0..n_cells).map(|c| expected(c, self.model.reservoir.adsorbed[c])).sum();
-            if !total.is_finite() {
-                // Caught at its source: rate x area x dt overflowed in a cell,
-                // or the sum over cells did.
-                let cell = (0..n_cells)
-                    .find(|&c| !expected(c, self.model.reservoir.adsorbed[c]).is_finite());
-                let quantity = match cell {
+            // Caught at its source: rate x area x dt overflowing in a cell
+            // (before the pool caps it), or the sum over the cells.
+            let overflow =
+                (0..n_cells).find(|&c| !(rates[c] * self.model.grid.area_cm2(c) * dt).is_finite());
+            if overflow.is_some() || !total.is_finite() {
+                let quantity = match overflow {
                     Some(c) => format!(
                         "the atoms released in cell {c} (release rate {:e} atoms cm^-2 s^-1 x \
                          cell area {:e} cm^2 x dt {dt} s)",

@@ -6,8 +6,9 @@
 //! grown only when a larger batch arrives, so the hot loop allocates
 //! nothing and crosses the boundary once per batch. Every call is armed
 //! with a fuel budget sized to its batch (and a wall-time backstop); every
-//! failure becomes a typed error; after a host-side failure the instance is rebuilt before the next
-//! call, so one bad batch never poisons the rest of a run.
+//! failure becomes a typed error; after a host-side failure the instance
+//! is rebuilt before the next call, so one bad batch never poisons the
+//! rest of a run.
 
 use std::sync::Arc;
 
