@@ -379,6 +379,8 @@ fn a_refused_scenario_exits_with_failure_and_writes_nothing() {
     for (set, key) in [
         ("environment.solar_wind_flux=1e308 cm^-2 s^-1", "environment.solar_wind_flux"),
         ("run.dt=600", "run.dt"),
+        ("run.duration=1e308 s", "run.duration"),
+        ("run.threads=1000000", "run.threads"),
     ] {
         let out_dir = tmp.path().join("out");
         let run = Command::new(&bin)
