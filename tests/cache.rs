@@ -172,3 +172,17 @@ fn a_cache_directory_of_another_user_is_refused() {
     assert!(msg.contains(&format!("user id {owner}")), "{msg}");
     assert!(msg.contains("EXOBOUND_CACHE_DIR"), "{msg}");
 }
+
+#[test]
+fn a_cache_directory_that_cannot_be_made_means_no_cache_not_no_run() {
+    // A read-only home on a cluster node, say: here, a path below a file.
+    let dir = TempDir::new("cache-unusable");
+    let file = dir.path().join("a-file");
+    std::fs::write(&file, b"not a directory").unwrap();
+    let rt = Runtime::new(config(&file.join("modules"))).expect("runs without a cache");
+    let notices = rt.notices();
+    assert_eq!(notices.len(), 1, "{notices:?}");
+    assert!(notices[0].contains("EXOBOUND_CACHE_DIR"), "{notices:?}");
+    rt.load(&exobound::standard_module("photoionization")).unwrap();
+    assert_host_still_works(&rt);
+}

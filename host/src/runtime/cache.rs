@@ -128,28 +128,41 @@ fn current_uid() -> u32 {
 
 impl Cache {
     /// Open (creating at mode 0700 if needed) the cache directory `dir`,
-    /// refusing one that another user owns or that others may write, and
-    /// read or make its key.
-    pub fn open(dir: &Path) -> Result<Cache, HostError> {
-        let err = |detail: String| HostError::Cache { path: dir.to_path_buf(), detail };
+    /// and read or make its key. A directory that another user owns or
+    /// that others may write is refused (the outer error); one that cannot
+    /// be created or read (a read-only home on a cluster node, say) gives
+    /// the inner error, a reason to run without a cache.
+    pub fn open(dir: &Path) -> Result<Result<Cache, String>, HostError> {
+        let unusable = |what: &str, e: std::io::Error| {
+            Ok(Err(format!(
+                "compiled-module cache at {}: {what}: {e}; modules are compiled in memory for \
+                 this run (set EXOBOUND_CACHE_DIR to a writable directory to keep them)",
+                dir.display()
+            )))
+        };
         if !dir.exists() {
-            if let Some(parent) = dir.parent().filter(|p| !p.as_os_str().is_empty()) {
-                std::fs::create_dir_all(parent)
-                    .map_err(|e| err(format!("cannot create its parent directory: {e}")))?;
+            if let Some(parent) = dir.parent().filter(|p| !p.as_os_str().is_empty())
+                && let Err(e) = std::fs::create_dir_all(parent)
+            {
+                return unusable("cannot create its parent directory", e);
             }
             match std::fs::DirBuilder::new().mode(0o700).create(dir) {
                 Ok(()) => {}
                 Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => {}
-                Err(e) => return Err(err(format!("cannot create the directory: {e}"))),
+                Err(e) => return unusable("cannot create the directory", e),
             }
         }
-        let meta = std::fs::metadata(dir).map_err(|e| err(format!("cannot read it: {e}")))?;
+        let meta = match std::fs::metadata(dir) {
+            Ok(m) => m,
+            Err(e) => return unusable("cannot read it", e),
+        };
         if !meta.is_dir() {
-            return Err(err("is not a directory".to_string()));
+            let e = std::io::Error::new(std::io::ErrorKind::NotADirectory, "not a directory");
+            return unusable("it is not a directory", e);
         }
         check_private(dir, &meta, "directory", 0o022, 0o700)?;
         let key = read_or_make_key(dir)?;
-        Ok(Cache { dir: dir.to_path_buf(), key })
+        Ok(Ok(Cache { dir: dir.to_path_buf(), key }))
     }
 
     /// The directory.

@@ -135,7 +135,16 @@ impl Runtime {
     /// A runtime with the given limits. A cache directory that another user
     /// owns or others can write is refused here, naming it and the fix.
     pub fn new(config: RuntimeConfig) -> Result<Runtime, HostError> {
-        let cache = config.cache_dir.as_deref().map(cache::Cache::open).transpose()?;
+        let mut notices = Vec::new();
+        let cache = match config.cache_dir.as_deref().map(cache::Cache::open).transpose()? {
+            Some(Ok(c)) => Some(c),
+            Some(Err(why)) => {
+                eprintln!("exobound: warning: {why}");
+                notices.push(why);
+                None
+            }
+            None => None,
+        };
         let mut c = Config::new();
         c.cranelift_opt_level(OptLevel::Speed);
         // Let Cranelift inline small guest functions (libm helpers, samplers):
@@ -155,7 +164,7 @@ impl Runtime {
             watchdog,
             cache,
             modules: Mutex::new(HashMap::new()),
-            notices: Mutex::new(Vec::new()),
+            notices: Mutex::new(notices),
         })
     }
 
