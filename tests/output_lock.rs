@@ -9,7 +9,7 @@
 
 use std::path::{Path, PathBuf};
 use std::process::{Child, Command, Stdio};
-use std::time::{Duration, Instant};
+use std::time::Duration;
 
 use exobound::output::lock::{OutputLock, lock_path};
 use exobound::output::{CHECKPOINT_FILE, PROVENANCE_FILE, Staging, staged, staging_path};
@@ -201,14 +201,11 @@ fn start(bin: &Path, out: &Path, seed: u64, extra: &[&str], log: &Path) -> Child
         .unwrap()
 }
 
-/// Wait until `cond` holds, failing if `child` exits first; ten minutes is
-/// only a guard against a hung test (the machine may be heavily loaded by
-/// `under_load`), never what decides the outcome.
+/// Wait until `cond` holds, failing if `child` exits first. No clock
+/// decides: on a loaded machine the wait is simply longer.
 fn wait_for(child: &mut Child, what: &str, cond: impl Fn() -> bool) {
-    let t0 = Instant::now();
     while !cond() {
         assert!(child.try_wait().unwrap().is_none(), "the run ended before {what}");
-        assert!(t0.elapsed() < Duration::from_secs(600), "no {what} within ten minutes");
         std::thread::sleep(Duration::from_millis(5));
     }
 }

@@ -9,7 +9,7 @@
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
-use std::time::{Duration, Instant};
+use std::time::Duration;
 
 const BIN: &str = env!("CARGO_BIN_EXE_exobound");
 
@@ -92,8 +92,8 @@ fn resume_after_sigkill_equals_an_uninterrupted_run() {
         .unwrap();
     let ck = exobound::output::staging_path(&killed).join(exobound::output::CHECKPOINT_FILE);
     // Wait for the second checkpoint (the file is replaced by rename), then
-    // kill between it and the next one.
-    let start = Instant::now();
+    // kill between it and the next one. No clock decides: the wait ends
+    // when the checkpoint is replaced, or fails when the run ends first.
     let mut seen = None;
     loop {
         if let Ok(m) = std::fs::metadata(&ck) {
@@ -105,7 +105,6 @@ fn resume_after_sigkill_equals_an_uninterrupted_run() {
             }
         }
         assert!(child.try_wait().unwrap().is_none(), "the run finished before it could be killed");
-        assert!(start.elapsed() < Duration::from_secs(120), "no checkpoint appeared");
         std::thread::sleep(Duration::from_millis(5));
     }
     child.kill().unwrap(); // SIGKILL on Unix
