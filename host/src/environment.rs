@@ -143,7 +143,7 @@ mod tests {
     fn moon_subsolar_point_returns_after_one_solar_day() {
         let moon = Body::moon();
         let sun = noon_at(1.0);
-        // check-values §1, F: lunar solar day = synodic month 29.53 d. By
+        // NASA Moon fact sheet: lunar solar day = synodic month 29.53 d. By
         // construction the subsolar point moves west by 2 pi per solar day.
         let back = sun.subsolar_longitude(&moon, 29.53 * DAY);
         assert!(wrap_pi(back - 1.0).abs() < 1e-9, "{back}");
@@ -199,7 +199,7 @@ mod tests {
     fn mercury_subsolar_point_repeats_every_two_orbits() {
         let mercury = Body::mercury();
         let sun = noon_at(0.0);
-        // check-values §1, F (NASA fact sheet): orbital period 87.969257 d,
+        // NASA Mercury fact sheet: orbital period 87.969257 d,
         // sidereal rotation 58.6463 d (the 3:2 spin-orbit resonance:
         // 3 x 58.6463 d = 175.9389 d vs 2 x 87.969257 d = 175.938514 d).
         let p_orb = 87.969_257 * DAY;
@@ -215,7 +215,7 @@ mod tests {
         // The brief's tolerance, 1e-3 rad, is met with margin: the honest
         // floor from 6-figure periods is the 4.1e-5 rad above.
         assert!(miss.abs() < 1e-4);
-        // check-values §1, F: the mean solar day 175.9421 d, 1e-4 rel. From
+        // NASA Mercury fact sheet: the mean solar day 175.9421 d, 1e-4 rel. From
         // the two periods, 1/P_sol = 1/P_sid - 1/P_orb gives 175.9385 d.
         let p_sol = 1.0 / (1.0 / p_sid - 1.0 / p_orb);
         assert!((p_sol / (175.9421 * DAY) - 1.0).abs() < 1e-4);

@@ -42,7 +42,7 @@ pub struct Species {
 }
 
 impl Species {
-    /// Atomic sodium, with sources beside each value (check-values §2).
+    /// Atomic sodium, with sources beside each value.
     pub fn sodium() -> Species {
         Species {
             name: "Na".to_string(),
@@ -62,7 +62,7 @@ impl Species {
         }
     }
 
-    /// Atomic potassium, with sources beside each value (check-values §2).
+    /// Atomic potassium, with sources beside each value.
     pub fn potassium() -> Species {
         Species {
             name: "K".to_string(),
@@ -130,10 +130,10 @@ mod tests {
     fn masses_and_lines_match_check_values() {
         let na = Species::sodium();
         let k = Species::potassium();
-        // check-values §2, F: IUPAC atomic weights.
+        // IUPAC standard atomic weights (CIAAW).
         assert!(rel(na.mass / ATOMIC_MASS, 22.98976928) < 1e-9);
         assert!(rel(k.mass / ATOMIC_MASS, 39.0983) < 1e-6);
-        // check-values §2, F: NIST/VALD and Banerjee et al. 2004 wavelengths.
+        // Vacuum wavelengths: NIST Atomic Spectra Database (Na), Banerjee et al. 2004 (K).
         assert!(rel(na.lines[0].wavelength, 589.158e-9) < 1e-5);
         assert!(rel(na.lines[1].wavelength, 589.756e-9) < 1e-5);
         assert!(rel(k.lines[0].wavelength, 766.702e-9) < 1e-5);
@@ -145,8 +145,8 @@ mod tests {
 
     #[test]
     fn momentum_per_photon_matches_check_values() {
-        // check-values §2, C: h/(m lambda) = 2.946 cm s^-1 per photon s^-1 (Na D2),
-        // 1.325 (K D1); the sheet prints 4 figures, so 1e-3 relative.
+        // Closed form h/(m lambda) with CODATA 2022 h and u: 2.946 cm s^-1 per
+        // photon s^-1 (Na D2), 1.325 (K D1); 4 figures, so 1e-3 relative.
         let na = Species::sodium();
         let k = Species::potassium();
         assert!(rel(na.radiation_acceleration(1.0, 589.158e-9) * 100.0, 2.946) < 1e-3);
@@ -166,14 +166,15 @@ mod tests {
         let moon = Body::moon();
         let mercury = Body::mercury();
         let a_moon = na.radiation_acceleration_at(1.0);
-        // check-values §2, C: Na at the Moon 1.5-6 cm s^-2 (1-4 % of g0), factor 2.
+        // h/(m lambda) g with the at-rest g of Killen, Shemansky & Mouawad 2009
+        // (from memory): Na at the Moon 1.5-6 cm s^-2 (1-4 % of g0), factor 2.
         assert!(a_moon > 1.5e-2 && a_moon < 6e-2, "{a_moon}");
         assert!(a_moon / moon.surface_gravity() > 0.01 && a_moon / moon.surface_gravity() < 0.04);
         // At perihelion (0.3075 AU) and at rest the push is a few per cent of
         // g0; the Doppler shift out of the solar Fraunhofer line raises g by
-        // 3-5x (check-values §2, M: Killen, Shemansky & Mouawad 2009, from
+        // 3-5x (Killen, Shemansky & Mouawad 2009, ApJS 181, 351, from
         // memory), and 5x the at-rest value must then lie within the factor
-        // 2 of "up to ~54 % of g0" (check-values §2, F: Mercury tail literature).
+        // 2 of "up to ~54 % of g0" (from memory: the Mercury sodium-tail literature).
         let frac = na.radiation_acceleration_at(0.3075) / mercury.surface_gravity();
         assert!(frac < 0.54, "{frac}");
         assert!(5.0 * frac > 0.54 / 2.0 && 5.0 * frac < 0.54 * 2.0, "{frac}");
@@ -189,12 +190,12 @@ mod tests {
     #[test]
     fn photoionization_scales_with_inverse_square() {
         let na = Species::sodium();
-        // check-values §2, M (from memory, Huebner et al. 1992): 5.92e-6 s^-1,
+        // From memory: Huebner, Keady & Lyon 1992 (Astrophys. Space Sci. 195): 5.92e-6 s^-1,
         // lifetime 1.69e5 s at 1 AU.
         assert!(rel(1.0 / na.photoionization_rate(1.0), 1.69e5) < 1e-3);
-        // check-values §2, law: rate(r) = rate(1 AU) / r^2.
+        // The inverse-square law of the solar photon flux: rate(r) = rate(1 AU) / r^2.
         assert!(rel(na.photoionization_rate(0.387098), 5.92e-6 / (0.387098 * 0.387098)) < 1e-15);
-        // check-values §2, M (from memory, low confidence): K ~2-3e-5 s^-1.
+        // From memory (Huebner et al. 1992, low confidence): K ~2-3e-5 s^-1.
         let k = Species::potassium().photoionization_rate(1.0);
         assert!((2e-5..=3e-5).contains(&k));
     }

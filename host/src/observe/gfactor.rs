@@ -36,7 +36,8 @@ pub struct GFactorTable {
 impl GFactorTable {
     /// The built-in table for sodium (D2 + D1 together). From memory: the
     /// shape of Killen, Shemansky & Mouawad (2009, ApJS 181, 351), about
-    /// 0.8 photons s^-1 atom^-1 at rest at 1 AU (check-values: D2 0.3-0.6
+    /// 0.8 photons s^-1 atom^-1 at rest at 1 AU (from memory, Killen, Shemansky
+    /// & Mouawad 2009, ApJS 181, 351: D2 0.3-0.6
     /// plus D1 0.2-0.35) rising about four-fold by 10 km s^-1 as the line
     /// leaves the Fraunhofer core; symmetric in the velocity. Good to a
     /// factor of about 2: supply a table for quantitative work.
@@ -186,7 +187,8 @@ mod tests {
     fn rayleigh_conversion() {
         // Hunten, Roach & Chamberlain (1956): 1 R = 10^6 / (4 pi) photons
         // cm^-2 s^-1 sr^-1, so 4 pi I [R] = g N / 10^6. Worked example from
-        // check-values §8: N = 1e11 cm^-2, g = 5 gives 5.0e5 R.
+        // Hunten, Roach & Chamberlain 1956 (J. Atmos. Terr. Phys. 8), from memory:
+        // 4 pi I [R] = g N / 1e6, so N = 1e11 cm^-2, g = 5 gives 5.0e5 R.
         assert!((brightness_rayleigh(5.0, 1.0e11) - 5.0e5).abs() < 1e-6);
         // One rayleigh of emission: g N = 10^6 photons cm^-2 s^-1 into 4 pi sr,
         // i.e. an intensity of 10^6 / (4 pi) per steradian.
@@ -196,7 +198,7 @@ mod tests {
 
     #[test]
     fn built_in_sodium_table_is_within_the_published_range() {
-        // check-values §2 (from memory: Killen, Shemansky & Mouawad 2009):
+        // From memory: Killen, Shemansky & Mouawad 2009 (ApJS 181, 351) tables:
         // at rest D2 0.3-0.6 plus D1 0.2-0.35, rising 3-5x by 10 km/s.
         let t = GFactorTable::built_in("Na").unwrap();
         let g0 = t.at(0.0, 1.0).unwrap();
