@@ -23,8 +23,10 @@ use crate::scenario::{Inputs, Scenario, ScenarioError};
 
 /// Checkpoint layout version; bump on any change to what is saved or to
 /// how a saved state continues (format 2: random keys carry the step, so a
-/// format-1 state would not continue as its run would have).
-pub const FORMAT: u32 = 2;
+/// format-1 state would not continue as its run would have; format 3: the
+/// particle bank keeps each particle's planned path, and the budget one
+/// launch goal for all sources).
+pub const FORMAT: u32 = 3;
 
 /// How to rebuild the scenario of a run.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]

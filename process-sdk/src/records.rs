@@ -77,10 +77,13 @@ pub mod stream {
     /// Host: survival of a flight segment against the in-flight losses, and
     /// which loss took the atom.
     pub const HOST_SURVIVAL: u32 = 0x82;
+    /// Host: the particle budget's Russian roulette and splitting of
+    /// particles whose weights left the allowed window.
+    pub const HOST_ROULETTE: u32 = 0x83;
     /// The streams handed to modules.
     pub const MODULE_STREAMS: [u32; 3] = [LAUNCH, FLIGHT, SURFACE];
     /// The host's own streams.
-    pub const HOST_STREAMS: [u32; 2] = [HOST_RELEASE, HOST_SURVIVAL];
+    pub const HOST_STREAMS: [u32; 3] = [HOST_RELEASE, HOST_SURVIVAL, HOST_ROULETTE];
 }
 
 /// The state of one surface cell, as seen by `Source::release_rate` and

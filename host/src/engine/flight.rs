@@ -1,32 +1,57 @@
 //! Flight and landing: advance every particle to the end of the step.
 //!
 //! Why this exists: this is the hot loop, particles times hops. Each chunk
-//! of particles flies on one thread with its own module instances:
+//! of particles flies on one thread with its own module instances, in
+//! named phases over one scratch struct ([`Scratch`]):
 //!
-//! 1. `fly`: every active particle follows its path (closed-form Kepler
-//!    hop, or the integrator when radiation pressure is on) until it lands,
-//!    reaches the outer boundary (`escape`), or the step ends;
+//! 1. `advance`: flight is event-driven. A particle's closed-form (Kepler)
+//!    path, the time and kind of its next event (landing or the outer
+//!    boundary) and the times it enters and leaves the shadow are solved
+//!    once, when it is launched or bounces (`plan`). A step then evaluates
+//!    only what it needs: the position at the step's end (one Kepler solve,
+//!    for the tallies and the loss records), the sunlit time of the step
+//!    from the known shadow times, and the event if it falls in the step.
+//!    With radiation pressure the integrator flies the step, starting from
+//!    the step size it reached in the previous step;
 //! 2. `ionize`: the loss modules give a rate for each flight segment; the
 //!    particle survives the segment with probability exp(-sum(beta) tau)
-//!    (analog Monte Carlo, so particle counts stay meaningful for the
-//!    particle budget), and a particle that does not is booked whole to one
-//!    loss, drawn in proportion to the rates;
-//! 3. `land`: the surface interaction decides each landing in one batch;
+//!    (analog Monte Carlo), and a particle that does not is booked whole to
+//!    one loss, drawn in proportion to the rates;
+//! 3. `escape`: particles that reached the boundary (or, with
+//!    `escape_when_unbound`, were launched unbound) are booked as escaped,
+//!    and the landings are collected;
+//! 4. `land`: the surface interaction decides each landing in one batch;
 //!    atoms `stick` (join the pool of the landing cell), are lost (buried),
 //!    or `bounce` and fly on within the step, which starts another round.
 //!
-//! Chunks return their books, which the step reduces in chunk order.
+//! Each chunk then moves its surviving particles to its front; the bank
+//! joins the chunks in order. Chunks return their books, which the step
+//! reduces in chunk order, so results do not depend on the thread count.
 
 use exobound_sdk::{Impact, InFlight, Outcome, OutcomeKind, Rng, RngKey, flags, stream};
 use rayon::prelude::*;
 
 use super::{EngineError, Simulation, WorkerSet, call};
-use crate::particles::Chunk;
+use crate::particles::{Chunk, NextEvent, SHADOW_TOGGLES};
 use crate::tally::LedgerRow;
 use crate::transport::integrate::{self, FlightEnd};
 use crate::transport::kepler::{Direction, Orbit};
 use crate::transport::{frames, shadow};
 use crate::vec3::{Vec3, dot, norm, scale};
+
+/// Longest stretch of a path one shadow schedule covers, s: the Sun's
+/// direction is taken as fixed over it (it turns by at most ~1.5 deg in 6 h,
+/// at Mercury's perihelion); a longer flight gets a new schedule.
+pub const SHADOW_HORIZON: f64 = 6.0 * 3600.0;
+
+/// Samples of a path when looking for shadow entries and exits: one per
+/// this many seconds of flight, dimensionless bounds below.
+const SHADOW_SPACING: f64 = 60.0;
+/// Fewest and most samples per schedule.
+const SHADOW_SAMPLES: (usize, usize) = (8, 64);
+/// Bisection steps that place each entry or exit (to 2^-24 of a sample
+/// interval, well under a millisecond of flight).
+const SHADOW_BISECTIONS: u32 = 24;
 
 /// Everything a chunk needs to know about the step, read-only.
 pub(super) struct StepContext<'a> {
@@ -40,6 +65,7 @@ pub(super) struct StepContext<'a> {
     r_au: f64,
     a_rad: f64,
     helio_radial_velocity: f64,
+    n_losses: usize,
 }
 
 /// The books of one chunk for one step.
@@ -54,6 +80,8 @@ pub(super) struct ChunkBooks {
     losses: Vec<f64>,
     stuck_cells: Vec<(u32, f64)>,
     lost_cells: Vec<(u32, f64)>,
+    /// Particles of the chunk still in flight after the step.
+    kept: usize,
 }
 
 /// How a flight segment ended.
@@ -64,6 +92,45 @@ enum SegmentEnd {
     Escaped,
     /// Removed by a loss during the segment.
     Lost,
+}
+
+/// Scratch of one chunk's flight, shared by the phases (allocated once per
+/// chunk and step, never per particle).
+struct Scratch {
+    /// Indices (in the chunk) of the particles flying this round.
+    active: Vec<usize>,
+    /// How each active particle's segment ended.
+    ends: Vec<SegmentEnd>,
+    /// Length of each active particle's segment, s.
+    seg_time: Vec<f64>,
+    /// One loss record per active particle.
+    records: Vec<InFlight>,
+    /// Loss rates, one row per loss module, s^-1.
+    rates: Vec<f64>,
+    /// Sum of the loss rates per active particle, s^-1.
+    total_rate: Vec<f64>,
+    /// The landings of this round.
+    impacts: Vec<Impact>,
+    /// Chunk index of each landing.
+    landed_idx: Vec<usize>,
+    /// The surface's decisions.
+    outcomes: Vec<Outcome>,
+}
+
+impl Scratch {
+    fn new(n: usize, n_losses: usize) -> Scratch {
+        Scratch {
+            active: Vec::with_capacity(n),
+            ends: Vec::with_capacity(n),
+            seg_time: Vec::with_capacity(n),
+            records: Vec::with_capacity(if n_losses > 0 { n } else { 0 }),
+            rates: Vec::new(),
+            total_rate: Vec::new(),
+            impacts: Vec::new(),
+            landed_idx: Vec::new(),
+            outcomes: Vec::new(),
+        }
+    }
 }
 
 impl Simulation {
@@ -98,14 +165,14 @@ impl Simulation {
                 r_au,
                 a_rad: ctx_values.1,
                 helio_radial_velocity: ctx_values.2,
+                n_losses,
             };
             let chunks = bank.chunks(chunk_size);
-            self.pool.install(|| {
-                chunks.into_par_iter().map(|chunk| ctx.fly_chunk(chunk, n_losses)).collect()
-            })
+            self.pool.install(|| chunks.into_par_iter().map(|chunk| ctx.fly_chunk(chunk)).collect())
         };
         // Reduce in chunk order (deterministic at any thread count).
         let mut first_error = None;
+        let mut kept = Vec::with_capacity(results.len());
         for r in results {
             match r {
                 Ok(b) => {
@@ -125,6 +192,7 @@ impl Simulation {
                     for (c, w) in b.lost_cells {
                         self.maps.lost_above[c as usize] += w;
                     }
+                    kept.push(b.kept);
                 }
                 Err(e) => {
                     if first_error.is_none() {
@@ -133,12 +201,16 @@ impl Simulation {
                 }
             }
         }
-        bank.compact();
-        self.bank = bank;
-        match first_error {
+        let result = match first_error {
             Some(e) => Err(e),
-            None => Ok(()),
-        }
+            None => {
+                // Each chunk has already moved its survivors to its front.
+                bank.gather(chunk_size, &kept);
+                Ok(())
+            }
+        };
+        self.bank = bank;
+        result
     }
 }
 
@@ -158,325 +230,503 @@ impl StepContext<'_> {
         })
     }
 
-    fn fly_chunk(&self, chunk: Chunk<'_>, n_losses: usize) -> Result<ChunkBooks, EngineError> {
+    fn fly_chunk(&self, mut chunk: Chunk<'_>) -> Result<ChunkBooks, EngineError> {
         let mut set = self.worker_set()?;
-        let result = self.fly_chunk_with(&mut set, chunk, n_losses);
+        let result = self.fly_chunk_with(&mut set, &mut chunk);
         // A set whose module failed is dropped rather than reused.
         if result.is_ok() {
             self.workers.lock().unwrap_or_else(|p| p.into_inner()).push(set);
         }
-        result
+        let mut books = result?;
+        books.kept = chunk.compact_front();
+        Ok(books)
     }
 
     fn fly_chunk_with(
         &self,
         set: &mut WorkerSet,
-        chunk: Chunk<'_>,
-        n_losses: usize,
+        chunk: &mut Chunk<'_>,
     ) -> Result<ChunkBooks, EngineError> {
-        let body = &self.model.body;
-        let (mu, radius) = (body.gm, body.radius);
-        let spin = body.sidereal_rate();
-        let boundary = self.config.boundary_radius;
-        let seed = self.config.seed;
-        // Flight draws must differ from step to step for the same particle
-        // and event, so the step is a part of every key.
-        let step = self.step;
-        let mass = self.model.species.mass;
         let n = chunk.id.len();
-        let mut books = ChunkBooks { losses: vec![0.0; n_losses], ..Default::default() };
-        // Scratch for the rounds of this chunk (allocated per chunk, not per particle).
-        let mut active: Vec<usize> =
-            (0..n).filter(|&i| chunk.alive[i] && chunk.remaining[i] > 0.0).collect();
-        let mut ends: Vec<SegmentEnd> = Vec::with_capacity(n);
-        let mut seg_time: Vec<f64> = Vec::with_capacity(n);
-        let mut records: Vec<InFlight> = Vec::with_capacity(n);
-        let mut rates: Vec<f64> = Vec::with_capacity(n * n_losses);
-        let mut total_rate: Vec<f64> = Vec::with_capacity(n);
-        let mut impacts: Vec<Impact> = Vec::new();
-        let mut landed_idx: Vec<usize> = Vec::new();
-        let mut outcomes: Vec<Outcome> = Vec::new();
-        while !active.is_empty() {
-            ends.clear();
-            seg_time.clear();
-            records.clear();
-            // fly: each active particle to its next event or the step's end.
-            for &i in &active {
-                let (r0, v0, tau) = (chunk.pos[i], chunk.vel[i], chunk.remaining[i]);
-                let sunlit0 = shadow::is_sunlit(r0, self.sun_dir, radius);
-                let (end, t, r1, v1, sunlit_time) = if self.a_rad > 0.0 {
-                    let f = integrate::fly(
-                        mu,
-                        radius,
-                        boundary,
-                        self.sun_dir,
-                        self.a_rad,
-                        r0,
-                        v0,
-                        tau,
-                        self.config.integrator_tolerance,
-                    );
-                    match f.end {
-                        FlightEnd::Running { r, v } => {
-                            (SegmentEnd::Running, tau, r, v, f.sunlit_time)
-                        }
-                        FlightEnd::Landed { t, r, v } => {
-                            (SegmentEnd::Landed, t, r, v, f.sunlit_time)
-                        }
-                        FlightEnd::Escaped { t, r, v } => {
-                            (SegmentEnd::Escaped, t, r, v, f.sunlit_time)
-                        }
-                    }
-                } else {
-                    let orbit = Orbit::from_state(mu, r0, v0);
-                    let land = orbit.crossing(radius, Direction::Descending);
-                    let unbound_now =
-                        self.config.escape_when_unbound && !orbit.is_bound() && land.is_none();
-                    let esc = if unbound_now {
-                        None
-                    } else if !orbit.is_bound() || orbit.apoapsis() >= boundary {
-                        orbit.crossing(boundary, Direction::Ascending)
-                    } else {
-                        None
-                    };
-                    let first = match (land, esc) {
-                        (Some(a), Some(b)) => Some(if a.t <= b.t {
-                            (SegmentEnd::Landed, a)
-                        } else {
-                            (SegmentEnd::Escaped, b)
-                        }),
-                        (Some(a), None) => Some((SegmentEnd::Landed, a)),
-                        (None, Some(b)) => Some((SegmentEnd::Escaped, b)),
-                        (None, None) => None,
-                    };
-                    let (end, t, r1, v1) = if unbound_now {
-                        (SegmentEnd::Escaped, 0.0, r0, v0)
-                    } else {
-                        match first {
-                            Some((end, c)) if c.t <= tau => (end, c.t, c.r, c.v),
-                            _ => {
-                                let (r, v) = orbit.propagate(tau);
-                                (SegmentEnd::Running, tau, r, v)
-                            }
-                        }
-                    };
-                    let lit = if n_losses > 0 {
-                        sunlit_time(&orbit, r0, r1, t, self.sun_dir, radius)
-                    } else {
-                        0.0
-                    };
-                    (end, t, r1, v1, lit)
-                };
-                let r1 = if end == SegmentEnd::Landed { scale(r1, radius / norm(r1)) } else { r1 };
-                chunk.pos[i] = r1;
-                chunk.vel[i] = v1;
-                chunk.remaining[i] -= t;
-                ends.push(end);
-                seg_time.push(t);
-                if n_losses > 0 {
-                    let t_at = self.t_end - chunk.remaining[i];
-                    let (lat, lon_bci) = frames::lat_lon(r1);
-                    let lon = frames::inertial_to_fixed_longitude(lon_bci, spin, t_at);
-                    records.push(InFlight {
-                        key: RngKey::at_step(
-                            seed,
-                            chunk.id[i],
-                            chunk.event[i],
-                            stream::FLIGHT,
-                            step,
-                        ),
-                        altitude: norm(r1) - radius,
-                        latitude: lat,
-                        local_time: self.model.sun.local_time_hours(body, lon, t_at),
-                        speed: norm(v1),
-                        sun_radial_velocity: self.helio_radial_velocity - dot(v1, self.sun_dir),
-                        helio_distance: self.r_au,
-                        sunlit_fraction: if t > 0.0 {
-                            (sunlit_time / t).clamp(0.0, 1.0)
-                        } else {
-                            sunlit0 as u8 as f64
-                        },
-                        time: t_at,
-                    });
-                }
+        let mut books = ChunkBooks { losses: vec![0.0; self.n_losses], ..Default::default() };
+        let mut s = Scratch::new(n, self.n_losses);
+        s.active.extend((0..n).filter(|&i| chunk.alive[i] != 0 && chunk.remaining[i] > 0.0));
+        while !s.active.is_empty() {
+            self.advance(chunk, &mut s);
+            if self.n_losses > 0 {
+                self.ionize(set, chunk, &mut s, &mut books)?;
             }
-            // ionize: survival over each segment, booked per loss module.
-            if n_losses > 0 {
-                total_rate.clear();
-                total_rate.resize(records.len(), 0.0);
-                // One row of rates per loss module, in one buffer reused by every round.
-                let m_len = records.len();
-                rates.clear();
-                rates.resize(n_losses * m_len, 0.0);
-                for (loss, row) in set.losses.iter_mut().zip(rates.chunks_mut(m_len.max(1))) {
-                    call(loss.loss_rate(&records, &mut row[..m_len]))?;
-                    for (t, r) in total_rate.iter_mut().zip(row.iter()) {
-                        *t += r;
-                    }
-                }
-                for (k, &i) in active.iter().enumerate() {
-                    let beta = total_rate[k];
-                    if !(beta > 0.0) {
-                        continue;
-                    }
-                    // Analog loss: the atom survives the segment with
-                    // probability exp(-beta tau); if not, the loss that took it
-                    // is drawn in proportion to the rates.
-                    let survive = exobound_sdk::math::exp(-beta * seg_time[k]);
-                    // The host's own stream: never the key a loss module got.
-                    let mut rng = Rng::new(RngKey::at_step(
-                        seed,
-                        chunk.id[i],
-                        chunk.event[i],
-                        stream::HOST_SURVIVAL,
-                        step,
-                    ));
-                    let u = rng.uniform();
-                    if u < survive {
-                        continue;
-                    }
-                    let w = chunk.weight[i];
-                    let pick = rng.uniform() * beta;
-                    let mut acc = 0.0;
-                    let mut module = n_losses - 1;
-                    for m in 0..n_losses {
-                        acc += rates[m * m_len + k];
-                        if pick < acc {
-                            module = m;
-                            break;
-                        }
-                    }
-                    books.losses[module] += w;
-                    ends[k] = SegmentEnd::Lost;
-                    chunk.alive[i] = false;
-                    let (lat, lon_bci) = frames::lat_lon(chunk.pos[i]);
-                    let lon = frames::inertial_to_fixed_longitude(lon_bci, spin, records[k].time);
-                    books.lost_cells.push((self.model.grid.cell_of(lat, lon) as u32, w));
-                }
-            }
-            // escape, and collect the landings.
-            impacts.clear();
-            landed_idx.clear();
-            for (k, &i) in active.iter().enumerate() {
-                match ends[k] {
-                    SegmentEnd::Running | SegmentEnd::Lost => {}
-                    SegmentEnd::Escaped => {
-                        books.escaped += chunk.weight[i];
-                        chunk.alive[i] = false;
-                    }
-                    SegmentEnd::Landed => {
-                        let t_at = self.t_end - chunk.remaining[i];
-                        let (lat, lon, v_rel) =
-                            frames::surface_view(chunk.pos[i], chunk.vel[i], spin, t_at);
-                        let cell = self.model.grid.cell_of(lat, lon);
-                        let cos_sza = self.model.sun.cos_sza(body, lat, lon, t_at);
-                        books.landed += chunk.weight[i];
-                        books.hops += 1;
-                        impacts.push(Impact {
-                            key: RngKey::at_step(
-                                seed,
-                                chunk.id[i],
-                                chunk.event[i],
-                                stream::SURFACE,
-                                step,
-                            ),
-                            cell: cell as u32,
-                            flags: if cos_sza > 0.0 { flags::SUNLIT } else { 0 },
-                            latitude: lat,
-                            longitude: lon,
-                            local_time: self.model.sun.local_time_hours(body, lon, t_at),
-                            cos_sza,
-                            temperature: self.model.temperature.at(cos_sza, self.r_au),
-                            adsorbed: self.model.reservoir.density_cm2(&self.model.grid, cell),
-                            mass,
-                            velocity: exobound_sdk::Velocity {
-                                east: v_rel[0],
-                                north: v_rel[1],
-                                up: v_rel[2],
-                            },
-                            time: t_at,
-                        });
-                        landed_idx.push(i);
-                    }
-                }
-            }
-            // land: stick, bounce or lost, in one batch.
-            active.clear();
-            if impacts.is_empty() {
+            self.escape(chunk, &mut s, &mut books);
+            if s.impacts.is_empty() {
                 break;
             }
-            outcomes.clear();
-            outcomes.resize(impacts.len(), Outcome::default());
-            call(set.surface.land(&impacts, &mut outcomes))?;
-            for ((hit, out), &i) in impacts.iter().zip(&outcomes).zip(&landed_idx) {
-                let w = chunk.weight[i];
-                match OutcomeKind::from_code(out.kind) {
-                    Some(OutcomeKind::Stick) => {
-                        books.stuck += w;
-                        books.stuck_cells.push((hit.cell, w));
-                        chunk.alive[i] = false;
-                    }
-                    Some(OutcomeKind::Lost) | None => {
-                        books.buried += w;
-                        chunk.alive[i] = false;
-                    }
-                    Some(OutcomeKind::Bounce) => {
-                        books.bounced += w;
-                        let v = out.velocity;
-                        let (r, vel) = frames::launch_state(
-                            radius,
-                            hit.latitude,
-                            hit.longitude,
-                            [v.east, v.north, v.up],
-                            spin,
-                            hit.time,
-                        );
-                        chunk.pos[i] = r;
-                        chunk.vel[i] = vel;
-                        chunk.event[i] += 1;
-                        if chunk.remaining[i] > 0.0 {
-                            active.push(i);
-                        }
-                    }
-                }
-            }
+            self.land(set, chunk, &mut s, &mut books)?;
         }
         Ok(books)
     }
-}
 
-/// Sub-intervals sampled when a Kepler segment may pass through the shadow.
-const SHADOW_SAMPLES: u32 = 8;
-
-/// Time spent in sunlight on the Kepler segment from `r0` to `r1` lasting
-/// `t` s, with the Sun along `sun` and the shadow cylinder of radius
-/// `radius` (m).
-///
-/// A two-body path lies in a plane through the body's centre, so its track
-/// is a great circle. If both ends lie on the day side (r . s >= 0) and the
-/// segment sweeps less than half a turn, every point between them is on the
-/// day side too (r . s along a great circle is A cos(phi - phi0), negative
-/// on one contiguous half-turn only) and so sunlit, whatever its altitude.
-/// Otherwise the segment is sampled at the midpoints of
-/// [`SHADOW_SAMPLES`] equal sub-intervals, which catches paths that rise out
-/// of the shadow above the night side near the terminator.
-fn sunlit_time(orbit: &Orbit, r0: Vec3, r1: Vec3, t: f64, sun: Vec3, radius: f64) -> f64 {
-    if t <= 0.0 {
-        return 0.0;
-    }
-    let day0 = dot(r0, sun) >= 0.0;
-    let day1 = dot(r1, sun) >= 0.0;
-    if day0 && day1 {
-        let h = crate::vec3::cross(r0, r1);
-        let sweep = exobound_sdk::math::atan2(norm(h), dot(r0, r1));
-        let short = orbit.period().is_none_or(|p| t < 0.5 * p);
-        if short && sweep < std::f64::consts::PI {
-            return t;
+    /// Phase 1: each active particle to its next event or the step's end.
+    fn advance(&self, chunk: &mut Chunk<'_>, s: &mut Scratch) {
+        let body = &self.model.body;
+        let radius = body.radius;
+        let spin = body.sidereal_rate();
+        s.ends.clear();
+        s.seg_time.clear();
+        s.records.clear();
+        for &i in &s.active {
+            let tau = chunk.remaining[i];
+            let seg_start = self.t_end - tau;
+            let (end, t, r1, v1, lit) = if self.a_rad > 0.0 {
+                self.advance_integrated(chunk, i, tau)
+            } else {
+                self.advance_kepler(chunk, i, seg_start)
+            };
+            let r1 = if end == SegmentEnd::Landed { scale(r1, radius / norm(r1)) } else { r1 };
+            if end != SegmentEnd::Running {
+                // The path ends here: its last state is the reference state
+                // (a landing reads its velocity from it).
+                chunk.pos[i] = r1;
+                chunk.vel[i] = v1;
+                chunk.epoch[i] = seg_start + t;
+                chunk.next_kind[i] = NextEvent::Unplanned as u8;
+            }
+            chunk.here[i] = r1;
+            chunk.remaining[i] -= t;
+            s.ends.push(end);
+            s.seg_time.push(t);
+            if self.n_losses > 0 {
+                let t_at = seg_start + t;
+                let (lat, lon_bci) = frames::lat_lon(r1);
+                let lon = frames::inertial_to_fixed_longitude(lon_bci, spin, t_at);
+                s.records.push(InFlight {
+                    key: RngKey::at_step(
+                        self.config.seed,
+                        chunk.id[i],
+                        chunk.event[i],
+                        stream::FLIGHT,
+                        self.step,
+                    ),
+                    altitude: norm(r1) - radius,
+                    latitude: lat,
+                    local_time: self.model.sun.local_time_hours(body, lon, t_at),
+                    speed: norm(v1),
+                    sun_radial_velocity: self.helio_radial_velocity - dot(v1, self.sun_dir),
+                    helio_distance: self.r_au,
+                    sunlit_fraction: lit,
+                    time: t_at,
+                });
+            }
         }
     }
-    let dt = t / SHADOW_SAMPLES as f64;
-    let lit = (0..SHADOW_SAMPLES)
-        .filter(|k| shadow::is_sunlit(orbit.propagate((*k as f64 + 0.5) * dt).0, sun, radius))
-        .count();
-    lit as f64 * dt
+
+    /// Integrated flight (radiation pressure) of particle `i` for `tau` s:
+    /// (end, segment time s, position m, velocity m s^-1, sunlit fraction).
+    fn advance_integrated(
+        &self,
+        chunk: &mut Chunk<'_>,
+        i: usize,
+        tau: f64,
+    ) -> (SegmentEnd, f64, Vec3, Vec3, f64) {
+        let body = &self.model.body;
+        let field = integrate::Field {
+            mu: body.gm,
+            radius: body.radius,
+            boundary_radius: self.config.boundary_radius,
+            sun_dir: self.sun_dir,
+            a_rad: self.a_rad,
+        };
+        let tol =
+            integrate::Tolerance::relative(self.config.integrator_tolerance, body.gm, body.radius);
+        let (r0, v0) = (chunk.pos[i], chunk.vel[i]);
+        let f = integrate::fly_on(&field, r0, v0, tau, &tol, chunk.step_size[i]);
+        chunk.step_size[i] = f.next_step;
+        let (end, t, r, v) = match f.end {
+            FlightEnd::Running { r, v } => (SegmentEnd::Running, tau, r, v),
+            FlightEnd::Landed { t, r, v } => (SegmentEnd::Landed, t, r, v),
+            FlightEnd::Escaped { t, r, v } => (SegmentEnd::Escaped, t, r, v),
+        };
+        // The integrator's state is the new reference state.
+        chunk.pos[i] = r;
+        chunk.vel[i] = v;
+        chunk.epoch[i] = self.t_end - tau + t;
+        let lit = if t > 0.0 {
+            (f.sunlit_time / t).clamp(0.0, 1.0)
+        } else {
+            shadow::is_sunlit(r0, self.sun_dir, body.radius) as u8 as f64
+        };
+        (end, t, r, v, lit)
+    }
+
+    /// Closed-form flight of particle `i` from `seg_start` (s) to its event
+    /// or the step's end: (end, segment time s, position m, velocity
+    /// m s^-1, sunlit fraction).
+    fn advance_kepler(
+        &self,
+        chunk: &mut Chunk<'_>,
+        i: usize,
+        seg_start: f64,
+    ) -> (SegmentEnd, f64, Vec3, Vec3, f64) {
+        let body = &self.model.body;
+        let orbit = Orbit::from_state(body.gm, chunk.pos[i], chunk.vel[i]);
+        if NextEvent::from_code(chunk.next_kind[i]) == NextEvent::Unplanned {
+            self.plan(chunk, i, &orbit);
+        }
+        let kind = NextEvent::from_code(chunk.next_kind[i]);
+        let event_now = matches!(kind, NextEvent::Landing | NextEvent::Boundary)
+            && chunk.next_event[i] <= self.t_end;
+        let (end, t, r1, v1) = if kind == NextEvent::Unbound {
+            (SegmentEnd::Escaped, 0.0, chunk.pos[i], chunk.vel[i])
+        } else if event_now {
+            let (target, direction, end) = if kind == NextEvent::Landing {
+                (body.radius, Direction::Descending, SegmentEnd::Landed)
+            } else {
+                (self.config.boundary_radius, Direction::Ascending, SegmentEnd::Escaped)
+            };
+            match orbit.crossing(target, direction) {
+                Some(c) => (end, (chunk.next_event[i] - seg_start).max(0.0), c.r, c.v),
+                // Planned from the same state, so this does not happen; fly on.
+                None => {
+                    let (r, v) = orbit.propagate(self.t_end - chunk.epoch[i]);
+                    (SegmentEnd::Running, self.t_end - seg_start, r, v)
+                }
+            }
+        } else {
+            let (r, v) = orbit.propagate(self.t_end - chunk.epoch[i]);
+            (SegmentEnd::Running, self.t_end - seg_start, r, v)
+        };
+        let lit = if self.n_losses == 0 {
+            0.0
+        } else if t > 0.0 {
+            (self.sunlit_time(chunk, i, &orbit, seg_start, seg_start + t) / t).clamp(0.0, 1.0)
+        } else {
+            shadow::is_sunlit(r1, self.sun_dir, body.radius) as u8 as f64
+        };
+        (end, t, r1, v1, lit)
+    }
+
+    /// Solve particle `i`'s path once: the time and kind of its next event,
+    /// and (when losses need it) its shadow schedule.
+    fn plan(&self, chunk: &mut Chunk<'_>, i: usize, orbit: &Orbit) {
+        let (radius, boundary) = (self.model.body.radius, self.config.boundary_radius);
+        let land = orbit.time_to_radius(radius, Direction::Descending);
+        let unbound_now = self.config.escape_when_unbound && !orbit.is_bound() && land.is_none();
+        let esc = if unbound_now {
+            None
+        } else if !orbit.is_bound() || orbit.apoapsis() >= boundary {
+            orbit.time_to_radius(boundary, Direction::Ascending)
+        } else {
+            None
+        };
+        let (kind, t) = match (land, esc) {
+            _ if unbound_now => (NextEvent::Unbound, 0.0),
+            (Some(a), Some(b)) if b < a => (NextEvent::Boundary, b),
+            (Some(a), _) => (NextEvent::Landing, a),
+            (None, Some(b)) => (NextEvent::Boundary, b),
+            (None, None) => (NextEvent::Never, f64::INFINITY),
+        };
+        chunk.next_kind[i] = kind as u8;
+        chunk.next_event[i] = chunk.epoch[i] + t;
+        chunk.lit_from[i] = f64::NAN;
+        if self.n_losses > 0 && kind != NextEvent::Unbound {
+            let from = chunk.epoch[i];
+            self.schedule_shadow(chunk, i, orbit, from);
+        }
+    }
+
+    /// Sunlit time (s) of particle `i` between `a` and `b` (s), from its
+    /// shadow schedule, renewed first if it does not cover [a, b].
+    fn sunlit_time(&self, chunk: &mut Chunk<'_>, i: usize, orbit: &Orbit, a: f64, b: f64) -> f64 {
+        if !(chunk.lit_from[i] <= a && b <= chunk.lit_until[i]) {
+            self.schedule_shadow(chunk, i, orbit, a);
+        }
+        lit_between(chunk.lit_start[i] != 0, chunk.lit_from[i], &chunk.toggles[i], a, b)
+    }
+
+    /// Find where particle `i`'s path enters and leaves the shadow from
+    /// `from` (s) to its next event or [`SHADOW_HORIZON`] later.
+    ///
+    /// A two-body path lies in a plane through the body's centre, so its
+    /// track is a great circle. If both ends lie on the day side (r . s >= 0)
+    /// and the stretch sweeps less than half a turn, every point between them
+    /// is on the day side too (r . s along a great circle is A cos(phi -
+    /// phi0), negative on one contiguous half-turn only) and so sunlit. Else
+    /// the path is sampled at equal steps of its universal anomaly (no Kepler
+    /// solve per sample) and each change between sunlit and shadowed samples
+    /// is placed by bisection; this catches paths that rise out of the shadow
+    /// above the night side near the terminator. At most [`SHADOW_TOGGLES`]
+    /// changes are kept (a ballistic path has at most two).
+    fn schedule_shadow(&self, chunk: &mut Chunk<'_>, i: usize, orbit: &Orbit, from: f64) {
+        let radius = self.model.body.radius;
+        let sun = self.sun_dir;
+        let epoch = chunk.epoch[i];
+        let event = chunk.next_event[i];
+        let mut until = event.min(from + SHADOW_HORIZON);
+        if let Some(p) = orbit.period() {
+            // A path that never ends (no event) is scheduled one orbit at most.
+            until = until.min(from + 0.999 * p);
+        }
+        let chi_a = orbit.anomaly_at(from - epoch);
+        let chi_b = if until == event {
+            let target = if NextEvent::from_code(chunk.next_kind[i]) == NextEvent::Boundary {
+                (self.config.boundary_radius, Direction::Ascending)
+            } else {
+                (radius, Direction::Descending)
+            };
+            orbit
+                .anomaly_of_crossing(target.0, target.1)
+                .unwrap_or_else(|| orbit.anomaly_at(until - epoch))
+        } else {
+            orbit.anomaly_at(until - epoch)
+        };
+        chunk.lit_from[i] = from;
+        chunk.lit_until[i] = until;
+        chunk.toggles[i] = [f64::INFINITY; SHADOW_TOGGLES];
+        let (_, ra) = orbit.at_anomaly(chi_a);
+        let (_, rb) = orbit.at_anomaly(chi_b);
+        let lit_a = shadow::is_sunlit(ra, sun, radius);
+        chunk.lit_start[i] = lit_a as u8;
+        if dot(ra, sun) >= 0.0 && dot(rb, sun) >= 0.0 {
+            let sweep = exobound_sdk::math::atan2(norm(crate::vec3::cross(ra, rb)), dot(ra, rb));
+            let short = orbit.period().is_none_or(|p| until - from < 0.5 * p);
+            if short && sweep < std::f64::consts::PI {
+                return;
+            }
+        }
+        let span = until - from;
+        let n = ((span / SHADOW_SPACING).ceil() as usize).clamp(SHADOW_SAMPLES.0, SHADOW_SAMPLES.1);
+        let d_chi = (chi_b - chi_a) / n as f64;
+        let mut found = 0;
+        let mut prev = (chi_a, lit_a);
+        for k in 1..=n {
+            let chi = if k == n { chi_b } else { chi_a + d_chi * k as f64 };
+            let lit = shadow::is_sunlit(orbit.at_anomaly(chi).1, sun, radius);
+            if lit != prev.1 {
+                // Bisect between the two samples for the change.
+                let (mut lo, mut hi) = (prev.0, chi);
+                for _ in 0..SHADOW_BISECTIONS {
+                    let mid = 0.5 * (lo + hi);
+                    if shadow::is_sunlit(orbit.at_anomaly(mid).1, sun, radius) == prev.1 {
+                        lo = mid;
+                    } else {
+                        hi = mid;
+                    }
+                }
+                let t = epoch + orbit.at_anomaly(0.5 * (lo + hi)).0;
+                if found < SHADOW_TOGGLES {
+                    chunk.toggles[i][found] = t.clamp(from, until);
+                    found += 1;
+                }
+            }
+            prev = (chi, lit);
+        }
+    }
+
+    /// Phase 2: survival over each segment, booked per loss module.
+    fn ionize(
+        &self,
+        set: &mut WorkerSet,
+        chunk: &mut Chunk<'_>,
+        s: &mut Scratch,
+        books: &mut ChunkBooks,
+    ) -> Result<(), EngineError> {
+        let n_losses = self.n_losses;
+        let spin = self.model.body.sidereal_rate();
+        let m_len = s.records.len();
+        s.total_rate.clear();
+        s.total_rate.resize(m_len, 0.0);
+        // One row of rates per loss module, in one buffer reused by every round.
+        s.rates.clear();
+        s.rates.resize(n_losses * m_len, 0.0);
+        for (loss, row) in set.losses.iter_mut().zip(s.rates.chunks_mut(m_len.max(1))) {
+            call(loss.loss_rate(&s.records, &mut row[..m_len]))?;
+            for (t, r) in s.total_rate.iter_mut().zip(row.iter()) {
+                *t += r;
+            }
+        }
+        for (k, &i) in s.active.iter().enumerate() {
+            let beta = s.total_rate[k];
+            if !(beta > 0.0) {
+                continue;
+            }
+            // Analog loss: the atom survives the segment with probability
+            // exp(-beta tau); if not, the loss that took it is drawn in
+            // proportion to the rates.
+            let survive = exobound_sdk::math::exp(-beta * s.seg_time[k]);
+            // The host's own stream: never the key a loss module got.
+            let mut rng = Rng::new(RngKey::at_step(
+                self.config.seed,
+                chunk.id[i],
+                chunk.event[i],
+                stream::HOST_SURVIVAL,
+                self.step,
+            ));
+            if rng.uniform() < survive {
+                continue;
+            }
+            let w = chunk.weight[i];
+            let pick = rng.uniform() * beta;
+            let mut acc = 0.0;
+            let mut module = n_losses - 1;
+            for m in 0..n_losses {
+                acc += s.rates[m * m_len + k];
+                if pick < acc {
+                    module = m;
+                    break;
+                }
+            }
+            books.losses[module] += w;
+            s.ends[k] = SegmentEnd::Lost;
+            chunk.alive[i] = 0;
+            let (lat, lon_bci) = frames::lat_lon(chunk.here[i]);
+            let lon = frames::inertial_to_fixed_longitude(lon_bci, spin, s.records[k].time);
+            books.lost_cells.push((self.model.grid.cell_of(lat, lon) as u32, w));
+        }
+        Ok(())
+    }
+
+    /// Phase 3: book the escapes, and collect the landings.
+    fn escape(&self, chunk: &mut Chunk<'_>, s: &mut Scratch, books: &mut ChunkBooks) {
+        let body = &self.model.body;
+        let spin = body.sidereal_rate();
+        s.impacts.clear();
+        s.landed_idx.clear();
+        for (k, &i) in s.active.iter().enumerate() {
+            match s.ends[k] {
+                SegmentEnd::Running | SegmentEnd::Lost => {}
+                SegmentEnd::Escaped => {
+                    books.escaped += chunk.weight[i];
+                    chunk.alive[i] = 0;
+                }
+                SegmentEnd::Landed => {
+                    let t_at = self.t_end - chunk.remaining[i];
+                    let (lat, lon, v_rel) =
+                        frames::surface_view(chunk.here[i], chunk.vel[i], spin, t_at);
+                    let cell = self.model.grid.cell_of(lat, lon);
+                    let cos_sza = self.model.sun.cos_sza(body, lat, lon, t_at);
+                    books.landed += chunk.weight[i];
+                    books.hops += 1;
+                    s.impacts.push(Impact {
+                        key: RngKey::at_step(
+                            self.config.seed,
+                            chunk.id[i],
+                            chunk.event[i],
+                            stream::SURFACE,
+                            self.step,
+                        ),
+                        cell: cell as u32,
+                        flags: if cos_sza > 0.0 { flags::SUNLIT } else { 0 },
+                        latitude: lat,
+                        longitude: lon,
+                        local_time: self.model.sun.local_time_hours(body, lon, t_at),
+                        cos_sza,
+                        temperature: self.model.temperature.at(cos_sza, self.r_au),
+                        adsorbed: self.model.reservoir.density_cm2(&self.model.grid, cell),
+                        mass: self.model.species.mass,
+                        velocity: exobound_sdk::Velocity {
+                            east: v_rel[0],
+                            north: v_rel[1],
+                            up: v_rel[2],
+                        },
+                        time: t_at,
+                    });
+                    s.landed_idx.push(i);
+                }
+            }
+        }
+    }
+
+    /// Phase 4: stick, bounce or lost, in one batch; bounced particles fly
+    /// on in the next round.
+    fn land(
+        &self,
+        set: &mut WorkerSet,
+        chunk: &mut Chunk<'_>,
+        s: &mut Scratch,
+        books: &mut ChunkBooks,
+    ) -> Result<(), EngineError> {
+        let body = &self.model.body;
+        s.active.clear();
+        s.outcomes.clear();
+        s.outcomes.resize(s.impacts.len(), Outcome::default());
+        call(set.surface.land(&s.impacts, &mut s.outcomes))?;
+        for ((hit, out), &i) in s.impacts.iter().zip(&s.outcomes).zip(&s.landed_idx) {
+            let w = chunk.weight[i];
+            match OutcomeKind::from_code(out.kind) {
+                Some(OutcomeKind::Stick) => {
+                    books.stuck += w;
+                    books.stuck_cells.push((hit.cell, w));
+                    chunk.alive[i] = 0;
+                }
+                Some(OutcomeKind::Lost) | None => {
+                    books.buried += w;
+                    chunk.alive[i] = 0;
+                }
+                Some(OutcomeKind::Bounce) => {
+                    books.bounced += w;
+                    let v = out.velocity;
+                    let (r, vel) = frames::launch_state(
+                        body.radius,
+                        hit.latitude,
+                        hit.longitude,
+                        [v.east, v.north, v.up],
+                        body.sidereal_rate(),
+                        hit.time,
+                    );
+                    chunk.pos[i] = r;
+                    chunk.vel[i] = vel;
+                    chunk.here[i] = r;
+                    chunk.epoch[i] = hit.time;
+                    chunk.next_kind[i] = NextEvent::Unplanned as u8;
+                    chunk.step_size[i] = 0.0;
+                    chunk.event[i] += 1;
+                    if chunk.remaining[i] > 0.0 {
+                        s.active.push(i);
+                    }
+                }
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Sunlit time (s) within [a, b] (s) of a path that is sunlit at `from`
+/// when `lit_start`, and changes between sunlit and shadowed at `toggles`
+/// (ascending, padded with +infinity).
+fn lit_between(lit_start: bool, from: f64, toggles: &[f64; SHADOW_TOGGLES], a: f64, b: f64) -> f64 {
+    let mut lit = lit_start;
+    let mut t = from;
+    let mut total = 0.0;
+    for &tog in toggles.iter().take_while(|t| t.is_finite()) {
+        if lit {
+            total += (tog.min(b) - t.max(a)).max(0.0);
+        }
+        lit = !lit;
+        t = tog;
+        if t >= b {
+            return total;
+        }
+    }
+    if lit {
+        total += (b - t.max(a)).max(0.0);
+    }
+    total
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn lit_time_follows_the_toggles() {
+        let inf = f64::INFINITY;
+        // Sunlit from 0, shadow from 10 to 30.
+        let tog = [10.0, 30.0, inf, inf];
+        assert_eq!(lit_between(true, 0.0, &tog, 0.0, 40.0), 20.0);
+        assert_eq!(lit_between(true, 0.0, &tog, 5.0, 15.0), 5.0);
+        assert_eq!(lit_between(true, 0.0, &tog, 12.0, 20.0), 0.0);
+        assert_eq!(lit_between(true, 0.0, &tog, 25.0, 35.0), 5.0);
+        // Shadowed throughout.
+        assert_eq!(lit_between(false, 0.0, &[inf; 4], 3.0, 9.0), 0.0);
+        assert_eq!(lit_between(true, 0.0, &[inf; 4], 3.0, 9.0), 6.0);
+    }
 }

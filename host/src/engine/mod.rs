@@ -10,8 +10,12 @@
 //! every random number is keyed by (run seed, particle id, event, stream),
 //! so a run is bit-identical at any thread count.
 
+mod budget;
 mod flight;
 mod release;
+
+pub use budget::{OVERFLOW, WEIGHT_RATIO};
+pub use flight::SHADOW_HORIZON;
 
 use std::sync::Mutex;
 
@@ -213,8 +217,8 @@ pub struct EngineState {
     pub maps: SurfaceMaps,
     /// Sunlit content per step, atoms.
     pub sunlit_content: Vec<f64>,
-    /// Super-particles each source aims to launch per step.
-    pub new_per_step: Vec<f64>,
+    /// Super-particles the sources together aim to launch per step.
+    pub launch_goal: f64,
     /// Smoothed fraction of particles leaving flight per step.
     pub removal_fraction: f64,
     /// Adsorbed atoms per cell, atoms.
@@ -246,7 +250,7 @@ pub struct Simulation {
     reservoir: Vec<Box<dyn ProcessCalls>>,
     workers: Mutex<Vec<WorkerSet>>,
     pool: rayon::ThreadPool,
-    new_per_step: Vec<f64>,
+    launch_goal: f64,
     removal_fraction: f64,
     cells: Vec<CellState>,
 }
@@ -289,11 +293,7 @@ impl Simulation {
             initial_stock: model.reservoir.total(),
             rows: Vec::new(),
         };
-        let n_sources = processes.sources.len().max(1) as f64;
-        let new_per_step = vec![
-            (config.target_in_flight as f64 / (20.0 * n_sources)).max(1.0);
-            processes.sources.len()
-        ];
+        let launch_goal = (config.target_in_flight as f64 / 20.0).max(1.0);
         Ok(Simulation {
             maps: SurfaceMaps {
                 released: vec![0.0; n_cells],
@@ -315,7 +315,7 @@ impl Simulation {
             reservoir,
             workers: Mutex::new(Vec::new()),
             pool,
-            new_per_step,
+            launch_goal,
             removal_fraction: 0.0,
         })
     }
@@ -395,7 +395,7 @@ impl Simulation {
             tally: self.tally.clone(),
             maps: self.maps.clone(),
             sunlit_content: self.sunlit_content.clone(),
-            new_per_step: self.new_per_step.clone(),
+            launch_goal: self.launch_goal,
             removal_fraction: self.removal_fraction,
             adsorbed: self.model.reservoir.adsorbed.clone(),
             bulk_abundance: self.model.reservoir.bulk_abundance.clone(),
@@ -407,7 +407,6 @@ impl Simulation {
     pub fn restore(&mut self, s: EngineState) -> Result<(), EngineError> {
         let fits = s.adsorbed.len() == self.model.grid.len()
             && s.bulk_abundance.len() == self.model.grid.len()
-            && s.new_per_step.len() == self.processes.sources.len()
             && s.ledger.loss_labels == self.ledger.loss_labels
             && s.ledger.removal_labels == self.ledger.removal_labels
             && s.tally.shape() == self.tally.shape()
@@ -427,7 +426,7 @@ impl Simulation {
         self.tally = s.tally;
         self.maps = s.maps;
         self.sunlit_content = s.sunlit_content;
-        self.new_per_step = s.new_per_step;
+        self.launch_goal = s.launch_goal;
         self.removal_fraction = s.removal_fraction;
         self.model.reservoir.adsorbed = s.adsorbed;
         self.model.reservoir.bulk_abundance = s.bulk_abundance;
@@ -480,6 +479,8 @@ impl Simulation {
         self.release(&mut row)?;
         // 5-6. Flight with losses, and landing.
         self.fly(&mut row)?;
+        // The particle budget: roulette, splitting, thinning.
+        self.weight_window(&mut row)?;
         self.time += dt;
         self.step += 1;
         // 7. Tallies and the ledger row.
@@ -604,41 +605,6 @@ impl Simulation {
             self.refresh_adsorbed();
         }
         Ok(())
-    }
-
-    /// Adapt the atoms per particle so the number in flight nears the target.
-    ///
-    /// In a steady state the particles launched per step equal those
-    /// removed per step, N q, where q is the fraction of the particles in
-    /// flight during a step that leave it. So the launches per step aim at
-    /// target x q, with q smoothed over about ten steps so that the weights
-    /// change slowly (particles of very different weights make noisy
-    /// tallies), times a mild correction (target / N)^(1/2), kept within
-    /// [0.7, 1.4], that steers the count itself. Before anything has left
-    /// flight, the launches grow by 25% per step.
-    fn adapt_budget(&mut self, present: usize, launched: u64) {
-        let target = self.config.target_in_flight.max(1) as f64;
-        let now = self.bank.len();
-        let during = present as f64 + launched as f64;
-        if during > 0.0 {
-            let q = (during - now as f64).max(0.0) / during;
-            self.removal_fraction =
-                if self.removal_fraction > 0.0 { 0.9 * self.removal_fraction + 0.1 * q } else { q };
-        }
-        let current: f64 = self.new_per_step.iter().sum();
-        if current <= 0.0 {
-            return;
-        }
-        let total = if self.removal_fraction > 0.0 {
-            let steer = (target / now.max(1) as f64).sqrt().clamp(0.7, 1.4);
-            target * self.removal_fraction * steer
-        } else {
-            current * 1.25
-        };
-        let scale = total.clamp(1.0, target) / current;
-        for n in &mut self.new_per_step {
-            *n = (*n * scale).max(1.0);
-        }
     }
 
     /// Snapshot the particles in flight into the density and column tally.

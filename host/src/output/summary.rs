@@ -138,6 +138,7 @@ impl Summary {
                 "buried": num(ledger.total(|r| r.buried)),
                 "lost_in_flight": losses,
                 "removed_from_pool": removed,
+                "roulette": num(ledger.total(|r| r.roulette)),
                 "final_in_flight": num(last.in_flight),
                 "final_adsorbed": num(last.adsorbed),
                 "closure_error_run": num(ledger.cumulative_closure()),

@@ -32,7 +32,7 @@ pub fn ledger_csv(sim: &Simulation) -> String {
     for label in &l.removal_labels {
         let _ = write!(s, ",removed_{}_atoms", csv_name(label));
     }
-    s.push_str(",in_flight_atoms,adsorbed_atoms,particles,hops,closure_error\n");
+    s.push_str(",roulette_atoms,in_flight_atoms,adsorbed_atoms,particles,hops,closure_error\n");
     for r in &l.rows {
         let _ = write!(
             s,
@@ -53,8 +53,8 @@ pub fn ledger_csv(sim: &Simulation) -> String {
         }
         let _ = writeln!(
             s,
-            ",{},{},{},{},{}",
-            r.in_flight, r.adsorbed, r.particles, r.hops, r.closure_error
+            ",{},{},{},{},{},{}",
+            r.roulette, r.in_flight, r.adsorbed, r.particles, r.hops, r.closure_error
         );
     }
     s

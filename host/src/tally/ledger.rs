@@ -43,6 +43,12 @@ pub struct LedgerRow {
     pub losses: Vec<f64>,
     /// Atoms removed from the adsorbed pool, one entry per reservoir module, atoms.
     pub removed: Vec<f64>,
+    /// Net atoms taken out of flight by the particle budget's Russian
+    /// roulette: the weight of the particles it ended minus the weight it
+    /// added to the survivors. Zero in expectation (the roulette is
+    /// unbiased), not in any one step, so the ledger books it, atoms.
+    #[serde(default)]
+    pub roulette: f64,
     /// Atoms in flight at the end of the step, atoms.
     pub in_flight: f64,
     /// Atoms adsorbed on the surface at the end of the step, atoms.
@@ -73,6 +79,7 @@ impl LedgerRow {
             + self.buried
             + self.losses.iter().sum::<f64>()
             + self.removed.iter().sum::<f64>()
+            + self.roulette
     }
 
     /// The first quantity of the row that is not finite, as (its name, the
@@ -87,6 +94,7 @@ impl LedgerRow {
             ("bounced", self.bounced),
             ("escaped", self.escaped),
             ("buried", self.buried),
+            ("roulette", self.roulette),
             ("in_flight", self.in_flight),
             ("adsorbed", self.adsorbed),
         ];

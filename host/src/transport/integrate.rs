@@ -73,6 +73,8 @@ pub struct Flight {
     /// Time integrated, s: the event time, or the duration for `Running`
     /// (less only if [`MAX_STEPS`] ran out).
     pub elapsed: f64,
+    /// Step size to continue with in the next call, s.
+    pub next_step: f64,
 }
 
 /// Error tolerances of the step-size control: a component passes when its
@@ -138,11 +140,26 @@ pub fn fly(
 /// `radius`) or escape (ascending through `boundary_radius`). An atom that
 /// starts on the surface moving up is in flight, not landed.
 pub fn fly_with(field: &Field, r0: Vec3, v0: Vec3, duration: f64, tol: &Tolerance) -> Flight {
+    fly_on(field, r0, v0, duration, tol, 0.0)
+}
+
+/// [`fly_with`], starting with step size `h0` (s) when it is positive, as
+/// the flight loop does from one engine step to the next, so that the
+/// integrator carries on where it stopped rather than restarting from a
+/// cautious first step. [`Flight::next_step`] is the size to pass next.
+pub fn fly_on(
+    field: &Field,
+    r0: Vec3,
+    v0: Vec3,
+    duration: f64,
+    tol: &Tolerance,
+    h0: f64,
+) -> Flight {
     let finite = r0.iter().chain(v0.iter()).all(|x| x.is_finite()) && vec3::norm2(r0) > 0.0;
     if !finite || duration.is_nan() || duration <= 0.0 {
         // Nothing to integrate (or nothing sensible): report zero elapsed time.
         let end = FlightEnd::Running { r: r0, v: v0 };
-        return Flight { end, sunlit_time: 0.0, steps: 0, elapsed: 0.0 };
+        return Flight { end, sunlit_time: 0.0, steps: 0, elapsed: 0.0, next_step: h0 };
     }
     let mut y: State = [r0[0], r0[1], r0[2], v0[0], v0[1], v0[2]];
     let mut lit = is_sunlit(r0, field.sun_dir, field.radius);
@@ -150,7 +167,11 @@ pub fn fly_with(field: &Field, r0: Vec3, v0: Vec3, duration: f64, tol: &Toleranc
     let mut t = 0.0;
     let mut sunlit_time = 0.0;
     let mut steps = 0u32;
-    let mut h = initial_step(field, r0, v0, duration);
+    let mut h = if h0 > 0.0 && h0.is_finite() {
+        h0.min(initial_step(field, r0, v0, f64::INFINITY) * 64.0)
+    } else {
+        initial_step(field, r0, v0, duration)
+    };
     while t < duration && steps < MAX_STEPS {
         let last = h >= duration - t;
         let h_try = if last { duration - t } else { h };
@@ -213,14 +234,16 @@ pub fn fly_with(field: &Field, r0: Vec3, v0: Vec3, duration: f64, tol: &Toleranc
                         } else {
                             FlightEnd::Escaped { t: t_end, r, v }
                         };
-                        return Flight { end, sunlit_time, steps, elapsed: t_end };
+                        return Flight { end, sunlit_time, steps, elapsed: t_end, next_step: h };
                     }
                 }
             }
         }
     }
     let end = FlightEnd::Running { r: [y[0], y[1], y[2]], v: [y[3], y[4], y[5]] };
-    Flight { end, sunlit_time, steps, elapsed: t }
+    // `h` is the size the controller would try next (an end-clipped last
+    // step leaves it unclipped).
+    Flight { end, sunlit_time, steps, elapsed: t, next_step: h }
 }
 
 /// Kinds of event inside a step.

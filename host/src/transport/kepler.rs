@@ -360,6 +360,30 @@ impl Orbit {
         Some(Crossing { t, r, v })
     }
 
+    /// Universal anomaly chi (m^0.5) of the next crossing of `radius` (m)
+    /// moving in `direction`; None if this orbit never gets there. With
+    /// [`Orbit::at_anomaly`] a path can be sampled without Kepler solves.
+    pub fn anomaly_of_crossing(&self, radius: f64, direction: Direction) -> Option<f64> {
+        self.crossing_anomaly(radius, direction)
+    }
+
+    /// Universal anomaly chi (m^0.5) reached `dt` s after the reference
+    /// state (one Kepler solve; a bound orbit is reduced modulo its period).
+    pub fn anomaly_at(&self, dt: f64) -> f64 {
+        if dt == 0.0 {
+            return 0.0;
+        }
+        self.solve_universal(dt).1
+    }
+
+    /// Time since the reference state (s) and position (m) at universal
+    /// anomaly `chi` (m^0.5): no Kepler solve, for sampling a path.
+    pub fn at_anomaly(&self, chi: f64) -> (f64, Vec3) {
+        let (t_scaled, r, c2, c3) = self.time_radius(chi);
+        let t = t_scaled / self.sqrt_mu;
+        (t, self.state_from(chi, t, r, c2, c3).0)
+    }
+
     /// Universal anomaly chi (m^0.5) of the next crossing of `radius`.
     fn crossing_anomaly(&self, radius: f64, direction: Direction) -> Option<f64> {
         // sigma at the crossing: sigma_R^2 = sigma0^2 + (R - r0)(2 - alpha (R + r0)).
