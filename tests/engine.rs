@@ -415,3 +415,116 @@ fn bad_configuration_is_refused_with_the_setting_named() {
     );
     let _ = BTreeMap::<String, ParamValue>::new();
 }
+
+/// Smallest and largest of `weights`.
+fn spread(weights: &[f64]) -> (f64, f64) {
+    weights.iter().fold((f64::MAX, 0.0f64), |(a, b), &w| (a.min(w), b.max(w)))
+}
+
+/// One pure-loss history: `n` particles with weights spread log-uniformly
+/// over six decades, each surviving a step of `dt` s with probability
+/// exp(-beta dt) (analog loss, as the flight loop books it), and after each
+/// step the particle budget's roulette, splitting and thinning towards
+/// `target` particles. Returns (initial weight, final weight, weight the
+/// decay removed, net weight the budget's roulette removed), atoms.
+fn pure_loss_history(seed: u64, n: usize, target: usize, steps: u64) -> (f64, f64, f64, f64) {
+    use exobound::engine::{WEIGHT_RATIO, weight_window};
+    use exobound::particles::ParticleBank;
+    use exobound_sdk::{Rng, RngKey};
+    let (beta, dt) = (2.0e-4f64, 600.0f64);
+    let mut bank = ParticleBank::new();
+    let mut draw = Rng::new(RngKey { seed, particle: u64::MAX >> 30, event: 0, stream: 0x70 });
+    for id in 0..n as u64 {
+        let w = 10f64.powf(-3.0 + 6.0 * draw.uniform());
+        bank.push(id, 0, w, 0.0, 0.0, [1.0, 0.0, 0.0], [0.0; 3]);
+    }
+    let w0 = bank.total_weight();
+    let mut next_id = n as u64;
+    let (mut decayed, mut rouletted) = (0.0, 0.0);
+    let survive = (-beta * dt).exp();
+    for step in 0..steps {
+        for i in 0..bank.len() {
+            let key = RngKey::at_step(seed, bank.ids()[i], bank.events()[i], 0x71, step);
+            if Rng::new(key).uniform() >= survive {
+                decayed += bank.weights()[i];
+                bank.remove(i);
+            }
+        }
+        bank.compact();
+        rouletted += weight_window(&mut bank, &mut next_id, seed, step, target).unwrap();
+        // After the budget's games every weight lies within [mean / R,
+        // mean x R] of the mean before them, so no two differ by more than R^2.
+        let (lo, hi) = spread(bank.weights());
+        assert!(hi / lo <= WEIGHT_RATIO * WEIGHT_RATIO * 1.0001, "step {step}: {lo:e}..{hi:e}");
+    }
+    (w0, bank.total_weight(), decayed, rouletted)
+}
+
+#[test]
+fn roulette_and_splitting_keep_a_pure_loss_decay_unbiased() {
+    // A population decaying at rate beta keeps W(t) = W0 exp(-beta t) in
+    // expectation (first-order loss); Russian roulette and splitting are
+    // unbiased games (Kahn & Harris 1951, NBS Appl. Math. Ser. 12, 27-30),
+    // so the mean over independent histories must stay on that curve. The
+    // target (half the start) also makes the budget thin the population.
+    let (n, target, steps) = (4000, 2000, 10u64);
+    let expected_ratio = (-2.0e-4f64 * 600.0 * steps as f64).exp();
+    let ratios: Vec<f64> = (0..24u64)
+        .map(|seed| {
+            let (w0, w, decayed, rouletted) = pure_loss_history(seed + 1, n, target, steps);
+            // The books balance: what left flight is what the decay and the
+            // roulette took (round-off only).
+            assert!(((w0 - w) - (decayed + rouletted)).abs() <= 1e-12 * w0, "books");
+            w / w0
+        })
+        .collect();
+    let m = ratios.len() as f64;
+    let mean = ratios.iter().sum::<f64>() / m;
+    let sd = (ratios.iter().map(|r| (r - mean).powi(2)).sum::<f64>() / (m - 1.0)).sqrt();
+    let se = sd / m.sqrt();
+    assert!(
+        (mean - expected_ratio).abs() < 4.0 * se,
+        "W/W0 = {mean} +- {se} over 24 histories, exp(-beta t) = {expected_ratio}"
+    );
+    // Not a vacuous check: the histories differ, and roulette acted.
+    assert!(sd > 0.0);
+}
+
+#[test]
+fn budget_reaches_its_target_without_overshoot_with_no_loss_and_no_sticking() {
+    // Atoms bounce forever (sticking 0) and nothing ionizes them, so
+    // particles leave flight only by escape: the case in which the old
+    // budget overshot and then launched a few very heavy particles.
+    use exobound::engine::{OVERFLOW, WEIGHT_RATIO};
+    let rt = runtime();
+    let body = still_moon();
+    let t = 700.0;
+    let mut config = RunConfig::for_body(&body);
+    config.dt = 600.0;
+    config.target_in_flight = 6000;
+    config.threads = 2;
+    let processes = Processes {
+        sources: vec![module(&rt, "impact-vapor", &[("vapor_temperature", num(t))])],
+        losses: vec![],
+        surface: full_reemission(&rt, t),
+        reservoir: vec![],
+    };
+    let mut sim =
+        Simulation::new(model(body, TemperatureLaw::uniform(t), 0.0), processes, config).unwrap();
+    let target = 6000.0;
+    for _ in 0..300 {
+        sim.step().unwrap();
+        let p = sim.particles();
+        assert!(
+            (p.len() as f64) <= target * (1.0 + OVERFLOW) * 1.05,
+            "step {}: {} particles against a target of {target}",
+            sim.steps(),
+            p.len()
+        );
+        let (lo, hi) = spread(p.weights());
+        assert!(hi / lo <= WEIGHT_RATIO * WEIGHT_RATIO * 1.0001, "weights {lo:e}..{hi:e}");
+    }
+    let n = sim.particles().len() as f64;
+    assert!(n > 0.8 * target, "{n} particles at the end, target {target}");
+    assert!(sim.ledger().worst_step_closure() < 1e-12);
+}

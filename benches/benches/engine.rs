@@ -5,7 +5,9 @@
 //! and state in one solve, as the step loop does) per second on one core. `engine/step/{wasm,native}/T`: one
 //! step of a Moon scenario with about 1e5 particles in flight, T threads;
 //! `engine/step/wasm-nofuel/1` is the same with fuel metering off, to
-//! measure what the deterministic budgets cost.
+//! measure what the deterministic budgets cost; `engine/step/native-radiation/1`
+//! flies the same scenario with radiation pressure (the integrator). The
+//! step benches report particle-steps per second.
 
 use std::collections::BTreeMap;
 use std::sync::Arc;
@@ -108,6 +110,11 @@ fn processes(build: Build) -> Processes {
 
 /// A Moon simulation spun up to about 1e5 particles in flight.
 fn moon_simulation(build: Build, threads: usize) -> Simulation {
+    moon_simulation_with(build, threads, false)
+}
+
+/// [`moon_simulation`], with radiation pressure (integrated flight) if `radiation`.
+fn moon_simulation_with(build: Build, threads: usize, radiation: bool) -> Simulation {
     let body = Body::moon();
     let grid = Grid::new(36, 72, body.radius).unwrap();
     let reservoir = Reservoir::uniform(&grid, 3.0e10);
@@ -125,6 +132,7 @@ fn moon_simulation(build: Build, threads: usize) -> Simulation {
     config.dt = 300.0;
     config.target_in_flight = 100_000;
     config.threads = threads;
+    config.radiation_pressure = radiation;
     let mut sim = Simulation::new(model, processes(build), config).unwrap();
     while sim.particles().len() < 100_000 && sim.steps() < 200 {
         sim.step().unwrap();
@@ -148,11 +156,22 @@ fn step(c: &mut Criterion) {
                 sim.particles().len(),
                 exobound::particles::BYTES_PER_PARTICLE
             );
+            // Elements = particles in flight, so criterion's rate is
+            // particle-steps per second (core time per particle-step =
+            // threads / rate).
+            group.throughput(Throughput::Elements(sim.particles().len() as u64));
             group.bench_with_input(BenchmarkId::new(label, threads), &threads, |b, _| {
                 b.iter(|| sim.step().unwrap().particles)
             });
         }
     }
+    // Integrated flight under radiation pressure, natively linked modules.
+    let mut sim = moon_simulation_with(Build::Native, 1, true);
+    eprintln!("engine/step/native-radiation/1: {} particles in flight", sim.particles().len());
+    group.throughput(Throughput::Elements(sim.particles().len() as u64));
+    group.bench_with_input(BenchmarkId::new("native-radiation", 1), &1, |b, _| {
+        b.iter(|| sim.step().unwrap().particles)
+    });
     group.finish();
 }
 

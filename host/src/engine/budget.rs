@@ -27,6 +27,7 @@
 use exobound_sdk::{Rng, RngKey, stream};
 
 use super::{EngineError, Simulation};
+use crate::particles::ParticleBank;
 use crate::tally::LedgerRow;
 
 /// Largest ratio between a particle's weight and the mean weight in flight,
@@ -92,81 +93,92 @@ impl Simulation {
     /// the mean, and thin an overfull population; books the net weight
     /// roulette removed in `row.roulette`.
     pub(super) fn weight_window(&mut self, row: &mut LedgerRow) -> Result<(), EngineError> {
-        let n = self.bank.len();
-        if n == 0 {
-            return Ok(());
-        }
-        let total = self.bank.total_weight();
-        let mean = total / n as f64;
-        if !(mean > 0.0 && mean.is_finite()) {
-            return Ok(());
-        }
-        let (lo, hi) = (mean / WEIGHT_RATIO, mean * WEIGHT_RATIO);
-        let target = self.config.target_in_flight.max(1) as f64;
-        // Thinning of the whole population when it overflows the target.
-        let keep_all = if n as f64 > target * (1.0 + OVERFLOW) { target / n as f64 } else { 1.0 };
+        let target = self.config.target_in_flight;
         let (seed, step) = (self.config.seed, self.step);
-        // Net weight roulette takes out, summed with compensation.
-        let mut net = Neumaier::default();
-        let mut splits: Vec<(usize, u64)> = Vec::new();
-        let mut removed = false;
-        for i in 0..n {
-            let w = self.bank.weights()[i];
-            // Survival probability and the survivor's weight.
-            let (p, w_new) = if w < lo {
-                let p = (w / lo) * keep_all;
-                (p, w / p)
-            } else if keep_all < 1.0 {
-                (keep_all, w / keep_all)
-            } else {
-                (1.0, w)
-            };
-            if p < 1.0 {
-                let key = RngKey::at_step(
-                    seed,
-                    self.bank.ids()[i],
-                    self.bank.events()[i],
-                    stream::HOST_ROULETTE,
-                    step,
-                );
-                if Rng::new(key).uniform() < p {
-                    net.add(-(w_new - w));
-                    self.bank.weights_mut()[i] = w_new;
-                } else {
-                    net.add(w);
-                    removed = true;
-                    self.bank.remove(i);
-                    continue;
-                }
-            }
-            let w = self.bank.weights()[i];
-            if w > hi {
-                let copies = ((w / mean).ceil() as u64).clamp(2, MAX_SPLIT);
-                splits.push((i, copies));
-            }
-        }
-        // Splitting conserves weight exactly: each copy carries w / copies.
-        for (i, copies) in splits {
-            let w = self.bank.weights()[i] / copies as f64;
-            self.bank.weights_mut()[i] = w;
-            for _ in 1..copies {
-                let id = self.next_id;
-                if id >= exobound_sdk::rng::MAX_PARTICLE_ID {
-                    return Err(EngineError::Config(format!(
-                        "the run has made {id} particles, the most the random-number keys can \
-                         tell apart; lower run.particles or run.duration"
-                    )));
-                }
-                self.next_id += 1;
-                self.bank.push_split(i, id, w);
-            }
-        }
-        if removed {
-            self.bank.compact();
-        }
-        row.roulette += net.value();
+        row.roulette += weight_window(&mut self.bank, &mut self.next_id, seed, step, target)?;
         Ok(())
     }
+}
+
+/// The particle budget's games on `bank` after the flight of step `step`
+/// of a run with seed `seed` and `target` particles in flight: roulette
+/// below mean / [`WEIGHT_RATIO`], splitting above mean x [`WEIGHT_RATIO`]
+/// (new ids from `next_id`), and thinning when the count exceeds the target
+/// by more than [`OVERFLOW`]. Returns the net weight roulette took out of
+/// flight (atoms; negative when it added more than it took).
+pub fn weight_window(
+    bank: &mut ParticleBank,
+    next_id: &mut u64,
+    seed: u64,
+    step: u64,
+    target: usize,
+) -> Result<f64, EngineError> {
+    let n = bank.len();
+    if n == 0 {
+        return Ok(0.0);
+    }
+    let mean = bank.total_weight() / n as f64;
+    if !(mean > 0.0 && mean.is_finite()) {
+        return Ok(0.0);
+    }
+    let (lo, hi) = (mean / WEIGHT_RATIO, mean * WEIGHT_RATIO);
+    let target = target.max(1) as f64;
+    // Thinning of the whole population when it overflows the target.
+    let keep_all = if n as f64 > target * (1.0 + OVERFLOW) { target / n as f64 } else { 1.0 };
+    // Net weight roulette takes out, summed with compensation.
+    let mut net = Neumaier::default();
+    let mut splits: Vec<(usize, u64)> = Vec::new();
+    let mut removed = false;
+    for i in 0..n {
+        let w = bank.weights()[i];
+        // Survival probability and the survivor's weight (p x w_new = w).
+        let (p, w_new) = if w < lo {
+            let p = (w / lo) * keep_all;
+            (p, w / p)
+        } else if keep_all < 1.0 {
+            (keep_all, w / keep_all)
+        } else {
+            (1.0, w)
+        };
+        if p < 1.0 {
+            let key =
+                RngKey::at_step(seed, bank.ids()[i], bank.events()[i], stream::HOST_ROULETTE, step);
+            if Rng::new(key).uniform() < p {
+                net.add(w - w_new);
+                bank.weights_mut()[i] = w_new;
+            } else {
+                net.add(w);
+                bank.remove(i);
+                removed = true;
+                continue;
+            }
+        }
+        let w = bank.weights()[i];
+        if w > hi {
+            let copies = ((w / mean).ceil() as u64).clamp(2, MAX_SPLIT);
+            splits.push((i, copies));
+        }
+    }
+    // Splitting conserves weight exactly: each copy carries w / copies.
+    for (i, copies) in splits {
+        let w = bank.weights()[i] / copies as f64;
+        bank.weights_mut()[i] = w;
+        for _ in 1..copies {
+            let id = *next_id;
+            if id >= exobound_sdk::rng::MAX_PARTICLE_ID {
+                return Err(EngineError::Config(format!(
+                    "the run has made {id} particles, the most the random-number keys can tell \
+                     apart; lower run.particles or run.duration"
+                )));
+            }
+            *next_id += 1;
+            bank.push_split(i, id, w);
+        }
+    }
+    if removed {
+        bank.compact();
+    }
+    Ok(net.value())
 }
 
 /// A running sum with Neumaier's compensation (as `compensated_sum`).

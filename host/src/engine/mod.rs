@@ -14,7 +14,7 @@ mod budget;
 mod flight;
 mod release;
 
-pub use budget::{OVERFLOW, WEIGHT_RATIO};
+pub use budget::{OVERFLOW, WEIGHT_RATIO, weight_window};
 pub use flight::SHADOW_HORIZON;
 
 use std::sync::Mutex;
