@@ -12,6 +12,7 @@ mod numeric_guards;
 mod observe_compare;
 mod output_lock;
 mod parameters;
+mod replica;
 mod run_outputs;
 mod safe_text;
 mod sandbox;

@@ -7,6 +7,7 @@
 
 mod compare;
 mod fit;
+mod replica;
 mod run;
 mod sandbox;
 mod share;
@@ -43,6 +44,9 @@ enum Command {
     Compare(compare::CompareArgs),
     /// Sweep parameters over a plan (a grid or a Latin hypercube), locally or as Slurm shards.
     Sweep(sweep::SweepArgs),
+    /// Merge finished replicas of one scenario (`run --replica I/N`) into one output directory:
+    /// the replica mean with standard errors from the scatter between replicas.
+    MergeReplicas(replica::MergeArgs),
     /// Fit free parameters of a scenario to observed profiles and measures (chi-square, Nelder-Mead).
     Fit(fit::FitArgs),
     /// Lines of sight through a finished run: columns, brightness, a slit profile and an image.
@@ -146,6 +150,7 @@ fn dispatch(cli: Cli) -> Result<()> {
         Command::Compare(args) => compare::run(args),
         Command::Sweep(args) => sweep::run(args),
         Command::Fit(args) => fit::run(args),
+        Command::MergeReplicas(args) => replica::merge(args),
         Command::Observe { run_dir, view, out } => {
             let out = out.unwrap_or_else(|| exobound::observe::default_out(&run_dir));
             let obs =

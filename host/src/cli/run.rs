@@ -46,6 +46,9 @@ pub struct RunArgs {
     /// Limits of every module call.
     #[command(flatten)]
     sandbox: super::sandbox::SandboxArgs,
+    /// Replicas of one scenario for many nodes (docs/replicas.md).
+    #[command(flatten)]
+    replica: super::replica::ReplicaArgs,
     /// Continue the interrupted run whose output directory is DIR.
     #[arg(long, value_name = "DIR", conflicts_with_all = ["scenario", "quick", "seed", "set"])]
     resume: Option<PathBuf>,
@@ -67,6 +70,17 @@ pub fn run(args: RunArgs) -> Result<()> {
     let runtime = Arc::new(
         Runtime::new(RuntimeConfig::default()).context("starting the WebAssembly runtime")?,
     );
+    if args.replica.emit_count().is_some() {
+        let (scenario, quick) = (args.scenario.as_deref(), args.quick);
+        return super::replica::emit_slurm(
+            &args.replica,
+            scenario,
+            quick,
+            &overrides,
+            &args.out,
+            &runtime,
+        );
+    }
     let stop = Arc::new(AtomicBool::new(false));
     {
         let stop = stop.clone();
@@ -86,10 +100,13 @@ pub fn run(args: RunArgs) -> Result<()> {
         eprintln!("resuming {}", dir.display());
         driver::resume(dir, &runtime, &overrides, session).map_err(|e| anyhow!("{e}"))?
     } else {
-        let source = match &args.scenario {
+        let mut source = match &args.scenario {
             Some(p) => ScenarioSource::file(p, &overrides).map_err(|e| anyhow!("{e}"))?,
             None => ScenarioSource::demo(args.quick, &overrides),
         };
+        if let Some(r) = args.replica.replica()? {
+            super::replica::apply(&mut source, r, &runtime)?;
+        }
         let scenario = source.load(&runtime).map_err(|e| anyhow!("{e}"))?;
         if let Some(p) = &args.scenario {
             let lock = exobound::share::lock::path_for(p);

@@ -5,7 +5,8 @@
 //! the same `exobound sweep PLAN --out OUT --shard I/N` command a user
 //! would type, so the scheduler needs nothing from us; `exobound sweep
 //! collect OUT` gathers the shards afterwards. OUT must be on a filesystem
-//! that every node sees.
+//! that every node sees. [`batch_script`] is the writer itself, shared with
+//! the job arrays of replicas (`replica::slurm`).
 
 use std::path::Path;
 
@@ -23,7 +24,7 @@ pub struct SlurmOptions {
 }
 
 /// Quote a path or word for a POSIX shell.
-fn sh(s: &str) -> String {
+pub fn sh(s: &str) -> String {
     if !s.is_empty() && s.chars().all(|c| c.is_ascii_alphanumeric() || "/._-+=:,@".contains(c)) {
         s.to_string()
     } else {
@@ -31,18 +32,34 @@ fn sh(s: &str) -> String {
     }
 }
 
-/// The job-array script for `plan` (absolute path) writing into `out`
-/// (absolute), run by the binary `exe`, with logs in `logs`.
-pub fn script(exe: &Path, plan: &Path, out: &Path, logs: &Path, o: &SlurmOptions) -> String {
+/// One batch job as [`batch_script`] writes it.
+#[derive(Clone, Debug)]
+pub struct Job<'a> {
+    /// Slurm job name (`#SBATCH --job-name`).
+    pub name: &'a str,
+    /// A comment line saying what the job is and what wrote it.
+    pub comment: &'a str,
+    /// Number of array tasks (ids 0 to N-1), or `None` for a single task.
+    pub array: Option<usize>,
+    /// Log file pattern (`#SBATCH --output`; `%a` is the array task id).
+    pub log: &'a Path,
+    /// The command, already quoted for the shell; run with `exec`.
+    pub command: &'a str,
+}
+
+/// A Slurm batch script for `job`: the `#SBATCH` header (name, array,
+/// one task of `o.cpus_per_task` CPUs, log, optional time limit and
+/// partition), `set -eu`, and `exec` of the command.
+pub fn batch_script(job: &Job, o: &SlurmOptions) -> String {
     let mut s = String::from("#!/bin/sh\n");
-    s.push_str(
-        "# exobound sweep: one array task per shard; written by `exobound sweep --emit-slurm`.\n",
-    );
-    s.push_str("#SBATCH --job-name=exobound-sweep\n");
-    s.push_str(&format!("#SBATCH --array=0-{}\n", o.shards.saturating_sub(1)));
+    s.push_str(&format!("# {}\n", job.comment));
+    s.push_str(&format!("#SBATCH --job-name={}\n", job.name));
+    if let Some(n) = job.array {
+        s.push_str(&format!("#SBATCH --array=0-{}\n", n.saturating_sub(1)));
+    }
     s.push_str("#SBATCH --ntasks=1\n");
     s.push_str(&format!("#SBATCH --cpus-per-task={}\n", o.cpus_per_task.max(1)));
-    s.push_str(&format!("#SBATCH --output={}/shard-%a.log\n", logs.display()));
+    s.push_str(&format!("#SBATCH --output={}\n", job.log.display()));
     if let Some(t) = &o.time_limit {
         s.push_str(&format!("#SBATCH --time={t}\n"));
     }
@@ -50,15 +67,31 @@ pub fn script(exe: &Path, plan: &Path, out: &Path, logs: &Path, o: &SlurmOptions
         s.push_str(&format!("#SBATCH --partition={p}\n"));
     }
     s.push_str("set -eu\n");
-    s.push_str(&format!(
-        "exec {} sweep {} --out {} --shard \"${{SLURM_ARRAY_TASK_ID}}/{}\" --jobs {}\n",
+    s.push_str(&format!("exec {}\n", job.command));
+    s
+}
+
+/// The job-array script for `plan` (absolute path) writing into `out`
+/// (absolute), run by the binary `exe`, with logs in `logs`.
+pub fn script(exe: &Path, plan: &Path, out: &Path, logs: &Path, o: &SlurmOptions) -> String {
+    let command = format!(
+        "{} sweep {} --out {} --shard \"${{SLURM_ARRAY_TASK_ID}}/{}\" --jobs {}",
         sh(&exe.display().to_string()),
         sh(&plan.display().to_string()),
         sh(&out.display().to_string()),
         o.shards,
         o.cpus_per_task.max(1)
-    ));
-    s
+    );
+    batch_script(
+        &Job {
+            name: "exobound-sweep",
+            comment: "exobound sweep: one array task per shard; written by `exobound sweep --emit-slurm`.",
+            array: Some(o.shards),
+            log: &logs.join("shard-%a.log"),
+            command: &command,
+        },
+        o,
+    )
 }
 
 #[cfg(test)]
