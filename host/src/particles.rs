@@ -397,6 +397,14 @@ impl<'a> Chunk<'a> {
     /// Move the alive particles of this chunk to its front, keeping their
     /// order; returns how many there are.
     pub fn compact_front(self) -> usize {
+        // Nothing to move before the first particle that left flight.
+        let Some(first) = self.alive.iter().position(|&a| a == 0) else {
+            return self.alive.len();
+        };
+        if first > 0 {
+            let (_, rest) = self.split_at(first);
+            return first + rest.compact_front();
+        }
         let alive: Vec<u8> = self.alive.to_vec();
         front_column(self.id, &alive);
         front_column(self.event, &alive);

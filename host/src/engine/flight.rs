@@ -49,9 +49,10 @@ pub const SHADOW_HORIZON: f64 = 6.0 * 3600.0;
 const SHADOW_SPACING: f64 = 60.0;
 /// Fewest and most samples per schedule.
 const SHADOW_SAMPLES: (usize, usize) = (8, 64);
-/// Bisection steps that place each entry or exit (to 2^-24 of a sample
-/// interval, well under a millisecond of flight).
-const SHADOW_BISECTIONS: u32 = 24;
+/// Bisection steps that place each entry or exit (to 2^-8 of a sample
+/// interval: a quarter of a second for 60 s samples, against
+/// photoionization lifetimes of hours).
+const SHADOW_BISECTIONS: u32 = 8;
 
 /// Everything a chunk needs to know about the step, read-only.
 pub(super) struct StepContext<'a> {
@@ -436,7 +437,10 @@ impl StepContext<'_> {
     /// Sunlit time (s) of particle `i` between `a` and `b` (s), from its
     /// shadow schedule, renewed first if it does not cover [a, b].
     fn sunlit_time(&self, chunk: &mut Chunk<'_>, i: usize, orbit: &Orbit, a: f64, b: f64) -> f64 {
-        if !(chunk.lit_from[i] <= a && b <= chunk.lit_until[i]) {
+        // A segment that ends at the planned event may end an ulp past it
+        // (seg_start + (event - seg_start)); that is still covered.
+        let slack = 1e-9 * (1.0 + b.abs());
+        if !(chunk.lit_from[i] <= a + slack && b <= chunk.lit_until[i] + slack) {
             self.schedule_shadow(chunk, i, orbit, a);
         }
         lit_between(chunk.lit_start[i] != 0, chunk.lit_from[i], &chunk.toggles[i], a, b)
@@ -485,11 +489,32 @@ impl StepContext<'_> {
         let (_, rb) = orbit.at_anomaly(chi_b);
         let lit_a = shadow::is_sunlit(ra, sun, radius);
         chunk.lit_start[i] = lit_a as u8;
-        if dot(ra, sun) >= 0.0 && dot(rb, sun) >= 0.0 {
-            let sweep = exobound_sdk::math::atan2(norm(crate::vec3::cross(ra, rb)), dot(ra, rb));
+        let (day_a, day_b) = (dot(ra, sun) >= 0.0, dot(rb, sun) >= 0.0);
+        if day_a == day_b {
+            // The shorter arc between the ends is less than half a turn
+            // unless they are antipodal.
+            let antipodal = norm(crate::vec3::cross(ra, rb)) == 0.0 && dot(ra, rb) < 0.0;
             let short = orbit.period().is_none_or(|p| until - from < 0.5 * p);
-            if short && sweep < std::f64::consts::PI {
-                return;
+            if short && !antipodal {
+                if day_a {
+                    // All on the day side, so all sunlit.
+                    return;
+                }
+                // All on the night side. Along a great circle the cosine of
+                // the angle theta to the anti-Sun axis is A cos(phi - phi0),
+                // so on the arc sin(theta) is largest at an end; the distance
+                // from the axis, |r| sin(theta), is then at most
+                // r_max x that, and if this is below the radius the whole
+                // stretch is in the shadow.
+                let sin_theta = |r: Vec3| {
+                    let c = -dot(r, sun) / norm(r);
+                    (1.0 - c * c).max(0.0).sqrt()
+                };
+                let r_max =
+                    if orbit.is_bound() { orbit.apoapsis() } else { norm(ra).max(norm(rb)) };
+                if r_max * sin_theta(ra).max(sin_theta(rb)) < radius {
+                    return;
+                }
             }
         }
         let span = until - from;
