@@ -25,7 +25,7 @@ use serde_json::{Map, Value, json};
 use super::tables::{self, SPECS, Table};
 use super::{ProvenanceFile, ReplicaRun, first_difference, identity, parse_marker};
 use crate::output::{PROVENANCE_FILE, atomic_write, staged};
-use crate::tally::{Ledger, LedgerRow, profiles};
+use crate::tally::profiles;
 
 /// The run's NetCDF file name.
 pub const NETCDF_FILE: &str = "exosphere.nc";
@@ -292,7 +292,7 @@ pub fn merge_products(runs: &[ReplicaRun]) -> Result<Merged, String> {
     } else {
         None
     };
-    let mut tables = Vec::new();
+    let (mut tables, mut ledgers) = (Vec::new(), None);
     if csv {
         for spec in &SPECS {
             let mut inputs = Vec::with_capacity(runs.len());
@@ -302,6 +302,9 @@ pub fn merge_products(runs: &[ReplicaRun]) -> Result<Merged, String> {
                 inputs.push((p, t));
             }
             tables.push((spec.file, tables::merge_table(spec, &inputs)?));
+            if spec.file == SPECS[0].file {
+                ledgers = Some(inputs);
+            }
         }
     }
     let mut summaries = Vec::with_capacity(runs.len());
@@ -313,18 +316,17 @@ pub fn merge_products(runs: &[ReplicaRun]) -> Result<Merged, String> {
             .map_err(|e| format!("`{}` is not JSON ({e}); rerun that replica", p.display()))?;
         summaries.push((p, v));
     }
-    let worst_step = match tables.iter_mut().find(|(f, _)| *f == SPECS[0].file) {
-        Some((_, ledger)) => {
-            let initial = summaries
-                .iter()
-                .map(|(_, s)| s.pointer("/ledger/initial_stock").and_then(Value::as_f64))
-                .collect::<Option<Vec<f64>>>()
-                .ok_or_else(|| {
-                    format!("`{}` has no ledger.initial_stock", summaries[0].0.display())
-                })?;
-            Some(tables::close_ledger(ledger, mean_and_standard_error(&initial).0)?)
-        }
-        None => None,
+    let initial = summaries
+        .iter()
+        .map(|(p, s)| {
+            s.pointer("/ledger/initial_stock").and_then(Value::as_f64).ok_or_else(|| {
+                format!("`{}` has no ledger.initial_stock; rerun that replica", p.display())
+            })
+        })
+        .collect::<Result<Vec<f64>, String>>()?;
+    let worst_step = match (tables.iter_mut().find(|(f, _)| *f == SPECS[0].file), &ledgers) {
+        (Some((_, merged)), Some(inputs)) => Some(tables::close_ledger(merged, inputs, &initial)?),
+        _ => None,
     };
     let summary = merge_summary(runs, &summaries, dataset.as_ref(), worst_step)?;
     let provenance = merge_provenance(runs);
@@ -634,43 +636,50 @@ fn merge_summary(
         .filter_map(|v| v.pointer("/performance/threads").and_then(Value::as_u64))
         .max()
         .unwrap_or(0);
+    let note = format!(
+        "wall-clock figures summed over the {m} merged replicas (threads: the largest); the \
+         only part of the outputs that differs between identical runs"
+    );
+    let rate = if wall > 0.0 { hops as f64 / wall } else { f64::NAN };
     obj.insert(
         "performance".into(),
         json!({
-            "note": format!("wall-clock figures summed over the {m} merged replicas (threads: the largest); the only part of the outputs that differs between identical runs"),
+            "note": note,
             "wall_time": { "value": num(wall), "unit": "s" },
             "particle_hops": hops,
-            "hops_per_second": { "value": num(if wall > 0.0 { hops as f64 / wall } else { f64::NAN }), "unit": "s^-1" },
+            "hops_per_second": { "value": num(rate), "unit": "s^-1" },
             "threads": threads,
         }),
     );
     se.remove("performance");
 
-    // The ledger of the mean closes as each replica's does: recompute its
-    // closure from the mean totals with the run's own rule.
+    // The ledger of the mean closes as each replica's does. Its imbalance
+    // is the mean of theirs (it is linear in the ledger), each recovered
+    // from the replica's own closure error and scale, so no list of the
+    // outflows is needed (see `tables::close_ledger`).
+    let total = |v: &Value| {
+        let f = |k: &str| v.pointer(&format!("/ledger/{k}")).and_then(Value::as_f64);
+        let stock = f("final_in_flight").zip(f("final_adsorbed")).map(|(a, b)| a + b);
+        let scale = tables::closure_scale(
+            f("supplied_from_bulk").unwrap_or(f64::NAN),
+            f("initial_stock").unwrap_or(f64::NAN),
+            stock.unwrap_or(f64::NAN),
+        );
+        (f("closure_error_run").unwrap_or(f64::NAN), scale)
+    };
+    let imbalances: Vec<f64> = vals
+        .iter()
+        .map(|v| {
+            let (c, scale) = total(v);
+            c * scale
+        })
+        .collect();
+    let run_closure = mean_and_standard_error(&imbalances).0 / total(&s).1;
+    let Some(obj) = s.as_object_mut() else {
+        return Err(format!("`{}` is not a JSON object; rerun that replica", files[0].display()));
+    };
     if let Some(l) = obj.get_mut("ledger").and_then(Value::as_object_mut) {
-        let f = |k: &str| l.get(k).and_then(Value::as_f64).unwrap_or(f64::NAN);
-        let list = |k: &str| -> Vec<f64> {
-            l.get(k)
-                .and_then(Value::as_object)
-                .map(|o| o.values().map(|x| x.as_f64().unwrap_or(f64::NAN)).collect())
-                .unwrap_or_default()
-        };
-        let ledger = Ledger {
-            initial_stock: f("initial_stock"),
-            rows: vec![LedgerRow {
-                supplied_from_bulk: f("supplied_from_bulk"),
-                escaped: f("escaped"),
-                buried: f("buried"),
-                losses: list("lost_in_flight"),
-                removed: list("removed_from_pool"),
-                in_flight: f("final_in_flight"),
-                adsorbed: f("final_adsorbed"),
-                ..LedgerRow::default()
-            }],
-            ..Ledger::default()
-        };
-        l.insert("closure_error_run".into(), num(ledger.cumulative_closure()));
+        l.insert("closure_error_run".into(), num(run_closure));
         l.insert("closure_error_worst_step".into(), num(worst_step.unwrap_or(f64::NAN)));
         if let Some(e) = se.get_mut("ledger").and_then(Value::as_object_mut) {
             e.remove("closure_error_run");
@@ -705,10 +714,11 @@ fn merge_summary(
         }
     }
     peaks(obj, &mut se, &vals, ds);
-    se.insert(
-        "note".into(),
-        json!(format!("standard error of each number above, between the {m} merged replicas: sample standard deviation / sqrt({m}), in that number's unit; 0 where every replica gave the same value")),
+    let note = format!(
+        "standard error of each number above, between the {m} merged replicas: sample standard \
+         deviation / sqrt({m}), in that number's unit; 0 where every replica gave the same value"
     );
+    se.insert("note".into(), json!(note));
     obj.insert("standard_error".into(), Value::Object(se));
     let indices: Vec<usize> = runs.iter().map(|r| r.marker.replica.index).collect();
     obj.insert(
@@ -717,7 +727,11 @@ fn merge_summary(
             "count": runs[0].marker.replica.count,
             "merged": indices,
             "base_seed": runs[0].marker.base_seed,
-            "meaning": format!("every number is the mean over {}, except where the field says otherwise (docs/replicas.md)", describe(runs)),
+            "meaning": format!(
+                "every number is the mean over {}, except where the field says otherwise \
+                 (docs/replicas.md)",
+                describe(runs)
+            ),
         }),
     );
     Ok(s)
@@ -797,11 +811,16 @@ fn peaks(
         };
         obj.insert(
             "peak_adsorbed_density".into(),
-            json!({ "value": num(vmax), "unit": "cm^-2", "latitude_deg": num(plat), "longitude_deg": num(plon), "local_time_h_at_end": num(lt) }),
+            json!({
+                "value": num(vmax), "unit": "cm^-2",
+                "latitude_deg": num(plat), "longitude_deg": num(plon),
+                "local_time_h_at_end": num(lt),
+            }),
         );
         se.insert("peak_adsorbed_density".into(), json!({ "value": num(res_err[k]) }));
     }
-    // Near-surface density: the lowest altitude bin of density(altitude, local_time, latitude), cm-3.
+    // Near-surface density: the lowest altitude bin of
+    // density(altitude, local_time, latitude), cm-3.
     let (den, den_err) = (var(d, "density"), var(d, "density_error"));
     let (lt, la, bounds) = (var(d, "local_time"), var(d, "latitude"), var(d, "altitude_bounds"));
     let cells = lt.len() * la.len();
@@ -809,11 +828,21 @@ fn peaks(
         let (k, dmax) = argmax(&den[..cells]);
         obj.insert(
             "peak_near_surface_density".into(),
-            json!({ "value": num(dmax), "unit": "cm^-3", "altitude_km": [num(bounds[0]), num(bounds[1])], "local_time_h": num(lt[k / la.len()]), "latitude_deg": num(la[k % la.len()]) }),
+            json!({
+                "value": num(dmax), "unit": "cm^-3",
+                "altitude_km": [num(bounds[0]), num(bounds[1])],
+                "local_time_h": num(lt[k / la.len()]),
+                "latitude_deg": num(la[k % la.len()]),
+            }),
         );
         se.insert("peak_near_surface_density".into(), json!({ "value": num(den_err[k]) }));
     }
 }
+
+/// How replica seeds are derived, in words for `provenance.json`.
+const SEED_RULE: &str = "replica I runs with seed mix64(S + (I + 1) * 0x9E3779B97F4A7C15) & \
+                         (2^63 - 1), the (I+1)-th SplitMix64 output from the base seed S \
+                         (docs/replicas.md)";
 
 /// The merged `provenance.json`: the first replica's record with the base
 /// seed as the seed, the overrides common to the set, and a `replicas`
@@ -842,9 +871,12 @@ fn merge_provenance(runs: &[ReplicaRun]) -> ProvenanceFile {
         "count": r0.marker.replica.count,
         "merged": runs.iter().map(|r| r.marker.replica.index).collect::<Vec<_>>(),
         "base_seed": r0.marker.base_seed,
-        "seed_rule": "replica I runs with seed mix64(S + (I + 1) * 0x9E3779B97F4A7C15) & (2^63 - 1), the (I+1)-th SplitMix64 output from the base seed S (docs/replicas.md)",
+        "seed_rule": SEED_RULE,
         "scenario_digest": r0.digest,
-        "standard_errors": format!("sample standard deviation between the {} merged replicas / sqrt({})", runs.len(), runs.len()),
+        "standard_errors": format!(
+            "sample standard deviation between the {m} merged replicas / sqrt({m})",
+            m = runs.len()
+        ),
         "runs": list,
     }));
     p

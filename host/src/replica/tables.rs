@@ -16,7 +16,6 @@ use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
 use super::merge::mean_and_standard_error;
-use crate::tally::LedgerRow;
 
 /// One cell of a merged table.
 #[derive(Clone, Debug, PartialEq)]
@@ -320,48 +319,55 @@ fn text(c: &Cell) -> String {
     }
 }
 
-/// Recompute `closure_error` of every row of a merged `ledger.csv` from its
-/// mean flows and stocks ([`LedgerRow::close`], the run's own rule), the
-/// stock before the first step being `initial_stock` (atoms). Returns the
-/// largest magnitude, dimensionless.
-pub fn close_ledger(table: &mut Table, initial_stock: f64) -> Result<f64, String> {
-    let col = |name: &str| {
-        table.position(name).ok_or_else(|| format!("the merged ledger has no column `{name}`"))
+/// The scale a run divides a ledger imbalance by: the largest of the
+/// atoms supplied, the stock before and the stock after (atoms), as in
+/// `LedgerRow::close` and `Ledger::cumulative_closure`.
+pub fn closure_scale(supplied: f64, before: f64, after: f64) -> f64 {
+    supplied.abs().max(before.abs()).max(after.abs()).max(f64::MIN_POSITIVE)
+}
+
+/// Set `closure_error` of every row of the merged `ledger.csv` to the
+/// closure of its mean flows and stocks. The imbalance (supplied - change
+/// in stock - every outflow, atoms) is linear in the ledger, so the mean
+/// row's imbalance is the mean of the replicas' imbalances, each recovered
+/// from its own `closure_error` times its scale ([`closure_scale`]); this
+/// needs no list of the outflow columns, which differ between scenarios
+/// and versions. The stock before the first step is the initial stock
+/// (`initial[r]` for replica `r`, their mean for the merge; atoms).
+/// Returns the largest magnitude, dimensionless.
+pub fn close_ledger(
+    merged: &mut Table,
+    inputs: &[(PathBuf, Table)],
+    initial: &[f64],
+) -> Result<f64, String> {
+    let col = |t: &Table, p: &Path, name: &str| {
+        t.position(name)
+            .ok_or_else(|| format!("`{}` has no column `{name}`; rerun that replica", p.display()))
     };
-    let supplied = col("supplied_from_bulk_atoms")?;
-    let escaped = col("escaped_atoms")?;
-    let buried = col("buried_atoms")?;
-    let in_flight = col("in_flight_atoms")?;
-    let adsorbed = col("adsorbed_atoms")?;
-    let closure = col("closure_error")?;
-    // Loss and removal columns: `lost_<label>_atoms`, `removed_<label>_atoms`
-    // (error columns, appended later, end in `_error_atoms` and are skipped).
-    let flows = |prefix: &str| -> Vec<usize> {
-        (0..table.header.len())
-            .filter(|&c| {
-                let h = &table.header[c];
-                h.starts_with(prefix) && h.ends_with("_atoms") && !h.ends_with("_error_atoms")
-            })
-            .collect()
-    };
-    let (lost, removed) = (flows("lost_"), flows("removed_"));
-    let mut before = initial_stock;
-    let mut worst = 0.0f64;
-    for row in &mut table.rows {
-        let mut r = LedgerRow {
-            supplied_from_bulk: row[supplied].value(),
-            escaped: row[escaped].value(),
-            buried: row[buried].value(),
-            losses: lost.iter().map(|&c| row[c].value()).collect(),
-            removed: removed.iter().map(|&c| row[c].value()).collect(),
-            in_flight: row[in_flight].value(),
-            adsorbed: row[adsorbed].value(),
-            ..LedgerRow::default()
-        };
-        r.close(before);
-        before = r.in_flight + r.adsorbed;
-        worst = worst.max(r.closure_error.abs());
-        row[closure] = Cell::Number(r.closure_error);
+    let names = ["supplied_from_bulk_atoms", "in_flight_atoms", "adsorbed_atoms", "closure_error"];
+    let mut cols = Vec::with_capacity(inputs.len());
+    for (p, t) in inputs {
+        let c: Vec<usize> = names.iter().map(|n| col(t, p, n)).collect::<Result<_, _>>()?;
+        cols.push(c);
+    }
+    let (p0, _) = &inputs[0];
+    let m: Vec<usize> = names.iter().map(|n| col(merged, p0, n)).collect::<Result<_, _>>()?;
+    let stock =
+        |t: &Table, c: &[usize], k: usize| t.rows[k][c[1]].value() + t.rows[k][c[2]].value();
+    let (mut before, mut worst) = (mean_and_standard_error(initial).0, 0.0f64);
+    let mut imbalances = vec![0.0; inputs.len()];
+    for k in 0..merged.rows.len() {
+        for (r, ((_, t), c)) in inputs.iter().zip(&cols).enumerate() {
+            let b = if k == 0 { initial[r] } else { stock(t, c, k - 1) };
+            let scale = closure_scale(t.rows[k][c[0]].value(), b, stock(t, c, k));
+            imbalances[r] = t.rows[k][c[3]].value() * scale;
+        }
+        let after = stock(merged, &m, k);
+        let scale = closure_scale(merged.rows[k][m[0]].value(), before, after);
+        let closure = mean_and_standard_error(&imbalances).0 / scale;
+        worst = worst.max(closure.abs());
+        merged.rows[k][m[3]] = Cell::Number(closure);
+        before = after;
     }
     Ok(worst)
 }

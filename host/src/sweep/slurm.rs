@@ -120,5 +120,14 @@ mod tests {
         assert!(s.contains("--out '/o/out dir'"));
         assert!(s.contains("#SBATCH --time=30\n"));
         assert!(s.starts_with("#!/bin/sh\n"));
+        // The whole script, as it was before the writer was shared with the
+        // replicas' job arrays (`batch_script`).
+        let expected = "#!/bin/sh\n\
+            # exobound sweep: one array task per shard; written by `exobound sweep --emit-slurm`.\n\
+            #SBATCH --job-name=exobound-sweep\n#SBATCH --array=0-3\n#SBATCH --ntasks=1\n\
+            #SBATCH --cpus-per-task=2\n#SBATCH --output=/o/logs/shard-%a.log\n\
+            #SBATCH --time=30\nset -eu\nexec /opt/exobound sweep /p/plan.toml --out \
+            '/o/out dir' --shard \"${SLURM_ARRAY_TASK_ID}/4\" --jobs 2\n";
+        assert_eq!(s, expected);
     }
 }
