@@ -689,8 +689,9 @@ fn merge_summary(
 
     // Shape measures: the mean of the replicas' estimates, with the
     // standard error between them as the uncertainty.
-    let note =
-        format!("; merged: mean over {m} replicas, uncertainty = standard error between replicas");
+    let note = format!(
+        "; merged: mean of the {m} replicas' values; uncertainty = standard error between replicas"
+    );
     let err_at = |se: &Map<String, Value>, key: &str, field: &str| {
         se.get(key).and_then(|o| o.get(field)).cloned().unwrap_or(Value::Null)
     };
@@ -700,11 +701,11 @@ fn merge_summary(
             if shift.is_finite() { profiles::shift_direction(shift) } else { "undefined" };
         e.insert("towards".into(), json!(towards));
         e.insert("uncertainty_deg".into(), err_at(&se, "equatorial_column_peak", "shift_deg"));
-        append(e, "method", &note);
+        restate_uncertainty(e, "method", &note);
     }
     if let Some(e) = obj.get_mut("latitude_profile_fit").and_then(Value::as_object_mut) {
         e.insert("uncertainty".into(), err_at(&se, "latitude_profile_fit", "cos_power_n"));
-        append(e, "method", &note);
+        restate_uncertainty(e, "method", &note);
     }
     for (key, sub) in
         [("equatorial_column_peak", "uncertainty_deg"), ("latitude_profile_fit", "uncertainty")]
@@ -737,9 +738,13 @@ fn merge_summary(
     Ok(s)
 }
 
-/// Append `text` to the string at `key`.
-fn append(o: &mut Map<String, Value>, key: &str, text: &str) {
+/// Replace what the string at `key` says after `; uncertainty` (a run's
+/// source of its uncertainty) by `text`.
+fn restate_uncertainty(o: &mut Map<String, Value>, key: &str, text: &str) {
     if let Some(Value::String(s)) = o.get_mut(key) {
+        if let Some(k) = s.find("; uncertainty") {
+            s.truncate(k);
+        }
         s.push_str(text);
     }
 }
