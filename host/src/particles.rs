@@ -29,7 +29,7 @@ pub const SHADOW_TOGGLES: usize = 4;
 pub const BYTES_PER_PARTICLE: usize = std::mem::size_of::<u64>()
     + std::mem::size_of::<u32>()
     + std::mem::size_of::<u16>()
-    + 7 * std::mem::size_of::<f64>()
+    + 8 * std::mem::size_of::<f64>()
     + 3 * std::mem::size_of::<Vec3>()
     + std::mem::size_of::<[f64; SHADOW_TOGGLES]>()
     + 3 * std::mem::size_of::<u8>();
@@ -82,6 +82,7 @@ pub struct ParticleBank {
     next_event: Vec<f64>,
     next_kind: Vec<u8>,
     here: Vec<Vec3>,
+    chi_here: Vec<f64>,
     lit_from: Vec<f64>,
     lit_until: Vec<f64>,
     lit_start: Vec<u8>,
@@ -114,6 +115,9 @@ pub struct Chunk<'a> {
     pub next_kind: &'a mut [u8],
     /// Position at the end of the last advance, body-centred inertial, m.
     pub here: &'a mut [Vec3],
+    /// Universal anomaly of `here` on the reference orbit (0 at `epoch`),
+    /// m^0.5: where the next Kepler solve starts.
+    pub chi_here: &'a mut [f64],
     /// Start of the interval the shadow schedule covers, s since the run's start.
     pub lit_from: &'a mut [f64],
     /// End of the interval the shadow schedule covers, s since the run's start.
@@ -144,6 +148,7 @@ macro_rules! each_column {
         $f(&mut $bank.next_event $(, $arg)*);
         $f(&mut $bank.next_kind $(, $arg)*);
         $f(&mut $bank.here $(, $arg)*);
+        $f(&mut $bank.chi_here $(, $arg)*);
         $f(&mut $bank.lit_from $(, $arg)*);
         $f(&mut $bank.lit_until $(, $arg)*);
         $f(&mut $bank.lit_start $(, $arg)*);
@@ -236,6 +241,7 @@ impl ParticleBank {
         self.next_event.push(f64::NAN);
         self.next_kind.push(NextEvent::Unplanned as u8);
         self.here.push(pos);
+        self.chi_here.push(0.0);
         self.lit_from.push(f64::NAN);
         self.lit_until.push(f64::NAN);
         self.lit_start.push(0);
@@ -258,6 +264,7 @@ impl ParticleBank {
         self.next_event.push(self.next_event[i]);
         self.next_kind.push(self.next_kind[i]);
         self.here.push(self.here[i]);
+        self.chi_here.push(self.chi_here[i]);
         self.lit_from.push(self.lit_from[i]);
         self.lit_until.push(self.lit_until[i]);
         self.lit_start.push(self.lit_start[i]);
@@ -327,6 +334,7 @@ impl ParticleBank {
             next_event: &mut self.next_event,
             next_kind: &mut self.next_kind,
             here: &mut self.here,
+            chi_here: &mut self.chi_here,
             lit_from: &mut self.lit_from,
             lit_until: &mut self.lit_until,
             lit_start: &mut self.lit_start,
@@ -390,7 +398,7 @@ impl<'a> Chunk<'a> {
         }
         cut!(
             id, event, source, weight, remaining, pos, vel, epoch, next_event, next_kind, here,
-            lit_from, lit_until, lit_start, toggles, step_size, alive
+            chi_here, lit_from, lit_until, lit_start, toggles, step_size, alive
         )
     }
 
@@ -417,6 +425,7 @@ impl<'a> Chunk<'a> {
         front_column(self.next_event, &alive);
         front_column(self.next_kind, &alive);
         front_column(self.here, &alive);
+        front_column(self.chi_here, &alive);
         front_column(self.lit_from, &alive);
         front_column(self.lit_until, &alive);
         front_column(self.lit_start, &alive);

@@ -289,6 +289,7 @@ impl StepContext<'_> {
                 chunk.pos[i] = r1;
                 chunk.vel[i] = v1;
                 chunk.epoch[i] = seg_start + t;
+                chunk.chi_here[i] = 0.0;
                 chunk.next_kind[i] = NextEvent::Unplanned as u8;
             }
             chunk.here[i] = r1;
@@ -392,7 +393,12 @@ impl StepContext<'_> {
                 }
             }
         } else {
-            let (r, v) = orbit.propagate(self.t_end - chunk.epoch[i]);
+            // Start the Kepler solve from where the last one ended, moved on
+            // at d(chi)/dt = sqrt(mu) / r.
+            let guess = chunk.chi_here[i]
+                + (self.t_end - seg_start) * body.gm.sqrt() / norm(chunk.here[i]).max(body.radius);
+            let (r, v, chi) = orbit.propagate_near(self.t_end - chunk.epoch[i], guess);
+            chunk.chi_here[i] = chi;
             (SegmentEnd::Running, self.t_end - seg_start, r, v)
         };
         let lit = if self.n_losses == 0 {
@@ -491,11 +497,15 @@ impl StepContext<'_> {
         chunk.lit_start[i] = lit_a as u8;
         let (day_a, day_b) = (dot(ra, sun) >= 0.0, dot(rb, sun) >= 0.0);
         if day_a == day_b {
-            // The shorter arc between the ends is less than half a turn
-            // unless they are antipodal.
-            let antipodal = norm(crate::vec3::cross(ra, rb)) == 0.0 && dot(ra, rb) < 0.0;
-            let short = orbit.period().is_none_or(|p| until - from < 0.5 * p);
-            if short && !antipodal {
+            // The arc swept from a to b, in the sense of the motion, is
+            // less than half a turn when (ra x rb) points along the angular
+            // momentum (or both ends share a direction, as on a radial
+            // path), provided the stretch is less than one revolution.
+            let ab = crate::vec3::cross(ra, rb);
+            let h = orbit.angular_momentum_vector();
+            let half = dot(ab, h) > 0.0 || (norm(ab) == 0.0 && dot(ra, rb) > 0.0);
+            let within_turn = orbit.period().is_none_or(|p| until - from < p);
+            if half && within_turn {
                 if day_a {
                     // All on the day side, so all sunlit.
                     return;
@@ -700,6 +710,7 @@ impl StepContext<'_> {
                     chunk.pos[i] = r;
                     chunk.vel[i] = vel;
                     chunk.here[i] = r;
+                    chunk.chi_here[i] = 0.0;
                     chunk.epoch[i] = hit.time;
                     chunk.next_kind[i] = NextEvent::Unplanned as u8;
                     chunk.step_size[i] = 0.0;

@@ -181,6 +181,12 @@ impl Orbit {
         math::sqrt((ec * ec + self.alpha * self.sigma0 * self.sigma0).max(0.0))
     }
 
+    /// Specific angular momentum vector r x v, m^2 s^-1 (normal to the
+    /// orbit's plane, along the sense of the motion).
+    pub fn angular_momentum_vector(&self) -> Vec3 {
+        vec3::cross(self.r0, self.v0)
+    }
+
     /// Specific angular momentum |r x v|, m^2 s^-1.
     pub fn angular_momentum(&self) -> f64 {
         vec3::norm(vec3::cross(self.r0, self.v0))
@@ -252,15 +258,29 @@ impl Orbit {
         if dt == 0.0 {
             return (self.r0, self.v0);
         }
-        let (dt, chi) = self.solve_universal(dt);
+        let (dt, chi) = self.solve_universal(dt, None);
         self.state_at(chi, dt)
+    }
+
+    /// [`Orbit::propagate`] starting Newton's method from `chi_guess`
+    /// (m^0.5; e.g. the anomaly of a nearby earlier time plus
+    /// sqrt(mu) dt / r), which saves iterations when the guess is close;
+    /// also returns the anomaly reached (m^0.5). The result does not depend
+    /// on the guess beyond the solver's tolerance (~1e-15 in chi).
+    pub fn propagate_near(&self, dt: f64, chi_guess: f64) -> (Vec3, Vec3, f64) {
+        if dt == 0.0 {
+            return (self.r0, self.v0, 0.0);
+        }
+        let (dt, chi) = self.solve_universal(dt, Some(chi_guess));
+        let (r, v) = self.state_at(chi, dt);
+        (r, v, chi)
     }
 
     /// Solves the universal Kepler equation for chi at flight time `dt`;
     /// returns the (possibly period-reduced) time and chi. Newton's method
     /// with the derivative r / sqrt(mu), falling back to bisection whenever
     /// a Newton step would leave the current bracket, to ~1e-15 in chi.
-    fn solve_universal(&self, dt: f64) -> (f64, f64) {
+    fn solve_universal(&self, dt: f64, start: Option<f64>) -> (f64, f64) {
         let (dt, mut lo, mut hi, guess) = if let Some(period) = self.period() {
             // Elliptic: chi = sqrt(a) dE, and one period is dE = 2 pi.
             let mut red = dt - period * (dt / period).floor();
@@ -277,7 +297,11 @@ impl Orbit {
         if goal == 0.0 {
             return (dt, 0.0);
         }
-        let mut chi = guess;
+        // A caller's start is used only inside the bracket.
+        let mut chi = match start {
+            Some(c) if c > lo && c < hi => c,
+            _ => guess,
+        };
         if !(chi > lo && chi < hi) {
             chi = 0.5 * (lo + hi);
         }
@@ -292,12 +316,20 @@ impl Orbit {
                 break;
             }
             let mut next = chi - f / r;
-            if !(next > lo && next < hi) {
+            let newton = next > lo && next < hi;
+            if !newton {
                 next = 0.5 * (lo + hi);
             }
             let step = (next - chi).abs();
             chi = next;
-            if step <= 1e-15 * chi.abs() || hi - lo <= 4.0 * f64::EPSILON * chi.abs() {
+            // Newton converges quadratically: the error after a step of
+            // relative size 1e-8 is of order (1e-8)^2 times a factor of
+            // order one (sigma chi / 2r), below round-off, so no further
+            // confirming iteration is needed.
+            if (newton && step <= 1e-8 * chi.abs())
+                || step <= 1e-15 * chi.abs()
+                || hi - lo <= 4.0 * f64::EPSILON * chi.abs()
+            {
                 break;
             }
         }
@@ -373,7 +405,7 @@ impl Orbit {
         if dt == 0.0 {
             return 0.0;
         }
-        self.solve_universal(dt).1
+        self.solve_universal(dt, None).1
     }
 
     /// Time since the reference state (s) and position (m) at universal
