@@ -173,3 +173,26 @@ pub fn merge(args: MergeArgs) -> Result<()> {
     }
     Ok(())
 }
+
+#[cfg(test)]
+mod tests {
+    use clap::{CommandFactory, Parser};
+
+    use super::super::Cli;
+
+    #[test]
+    fn the_replica_flags_fit_the_command_line() {
+        // clap checks names, `requires` and `conflicts_with` here (its own
+        // consistency checks run only in debug builds otherwise).
+        Cli::command().debug_assert();
+        let parse =
+            |args: &[&str]| Cli::try_parse_from(args).map(|_| ()).map_err(|e| e.to_string());
+        assert!(parse(&["exobound", "run", "--quick", "--replica", "0/2"]).is_ok());
+        let e = parse(&["exobound", "run", "--replicas", "3"]).unwrap_err();
+        assert!(e.contains("--emit-slurm"), "{e}");
+        let e = parse(&["exobound", "run", "--resume", "d", "--replica", "0/2"]).unwrap_err();
+        assert!(e.contains("--resume") || e.contains("--replica"), "{e}");
+        let e = parse(&["exobound", "merge-replicas", "a", "b"]).unwrap_err();
+        assert!(e.contains("--out"), "{e}");
+    }
+}

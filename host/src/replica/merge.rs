@@ -224,7 +224,7 @@ fn check_out(out: &Path, runs: &[ReplicaRun]) -> Result<(), String> {
     Ok(())
 }
 
-/// The product files of a run directory, relative paths.
+/// Which products a run directory holds: (NetCDF, CSV tables, plots).
 fn product_files(dir: &Path) -> (bool, bool, bool) {
     (dir.join(NETCDF_FILE).is_file(), dir.join(SPECS[0].file).is_file(), dir.join("plots").is_dir())
 }
@@ -292,7 +292,7 @@ pub fn merge_products(runs: &[ReplicaRun]) -> Result<Merged, String> {
     } else {
         None
     };
-    let (mut tables, mut ledgers) = (Vec::new(), None);
+    let (mut merged_tables, mut ledgers) = (Vec::new(), None);
     if csv {
         for spec in &SPECS {
             let mut inputs = Vec::with_capacity(runs.len());
@@ -301,7 +301,7 @@ pub fn merge_products(runs: &[ReplicaRun]) -> Result<Merged, String> {
                 let t = Table::read(&p)?;
                 inputs.push((p, t));
             }
-            tables.push((spec.file, tables::merge_table(spec, &inputs)?));
+            merged_tables.push((spec.file, tables::merge_table(spec, &inputs)?));
             if spec.file == SPECS[0].file {
                 ledgers = Some(inputs);
             }
@@ -324,21 +324,22 @@ pub fn merge_products(runs: &[ReplicaRun]) -> Result<Merged, String> {
             })
         })
         .collect::<Result<Vec<f64>, String>>()?;
-    let worst_step = match (tables.iter_mut().find(|(f, _)| *f == SPECS[0].file), &ledgers) {
+    let ledger = merged_tables.iter_mut().find(|(f, _)| *f == SPECS[0].file);
+    let worst_step = match (ledger, &ledgers) {
         (Some((_, merged)), Some(inputs)) => Some(tables::close_ledger(merged, inputs, &initial)?),
         _ => None,
     };
     let summary = merge_summary(runs, &summaries, dataset.as_ref(), worst_step)?;
     let provenance = merge_provenance(runs);
-    let plots = plots && netcdf && csv;
-    if product_files(&runs[0].dir).2 && !plots {
+    let drawn = plots && netcdf && csv;
+    if plots && !drawn {
         notes.push(
             "plots not drawn: they are drawn from the merged NetCDF file and CSV tables, and \
              the replicas lack one of them (outputs.products)"
                 .into(),
         );
     }
-    Ok(Merged { provenance, summary, dataset, tables, plots, notes })
+    Ok(Merged { provenance, summary, dataset, tables: merged_tables, plots: drawn, notes })
 }
 
 /// Write `m` into the staging directory `dir`; the files written, relative.
@@ -425,7 +426,7 @@ fn merge_dataset(runs: &[ReplicaRun], sets: &[(PathBuf, Dataset)]) -> Result<Dat
             let grid = v0.is_coordinate() || GRID_VARIABLES.contains(&v0.name.as_str());
             let same = v.data.len() == v0.data.len()
                 && v.data.iter().zip(&v0.data).all(|(a, b)| a.to_bits() == b.to_bits());
-            if grid && !same {
+            if !same && (grid || v.data.len() != v0.data.len()) {
                 return Err(mismatch(p, format!("the values of `{}` differ", v0.name)));
             }
         }
@@ -441,9 +442,9 @@ fn merge_dataset(runs: &[ReplicaRun], sets: &[(PathBuf, Dataset)]) -> Result<Dat
             out.variables.push(v0.clone());
             continue;
         }
-        let (mut mean, mut se) = (Vec::with_capacity(v0.data.len()), Vec::new());
-        se.reserve(v0.data.len());
-        for i in 0..v0.data.len() {
+        let n = v0.data.len();
+        let (mut mean, mut se) = (Vec::with_capacity(n), Vec::with_capacity(n));
+        for i in 0..n {
             for (slot, (_, d)) in xs.iter_mut().zip(sets) {
                 *slot = d.variables[k].data[i];
             }
