@@ -29,7 +29,7 @@ pub const SHADOW_TOGGLES: usize = 4;
 pub const BYTES_PER_PARTICLE: usize = std::mem::size_of::<u64>()
     + std::mem::size_of::<u32>()
     + std::mem::size_of::<u16>()
-    + 8 * std::mem::size_of::<f64>()
+    + 9 * std::mem::size_of::<f64>()
     + 3 * std::mem::size_of::<Vec3>()
     + std::mem::size_of::<[f64; SHADOW_TOGGLES]>()
     + 3 * std::mem::size_of::<u8>();
@@ -83,6 +83,7 @@ pub struct ParticleBank {
     next_kind: Vec<u8>,
     here: Vec<Vec3>,
     chi_here: Vec<f64>,
+    t_here: Vec<f64>,
     lit_from: Vec<f64>,
     lit_until: Vec<f64>,
     lit_start: Vec<u8>,
@@ -118,6 +119,8 @@ pub struct Chunk<'a> {
     /// Universal anomaly of `here` on the reference orbit (0 at `epoch`),
     /// m^0.5: where the next Kepler solve starts.
     pub chi_here: &'a mut [f64],
+    /// Time of `here`, s since the run's start.
+    pub t_here: &'a mut [f64],
     /// Start of the interval the shadow schedule covers, s since the run's start.
     pub lit_from: &'a mut [f64],
     /// End of the interval the shadow schedule covers, s since the run's start.
@@ -149,6 +152,7 @@ macro_rules! each_column {
         $f(&mut $bank.next_kind $(, $arg)*);
         $f(&mut $bank.here $(, $arg)*);
         $f(&mut $bank.chi_here $(, $arg)*);
+        $f(&mut $bank.t_here $(, $arg)*);
         $f(&mut $bank.lit_from $(, $arg)*);
         $f(&mut $bank.lit_until $(, $arg)*);
         $f(&mut $bank.lit_start $(, $arg)*);
@@ -242,6 +246,7 @@ impl ParticleBank {
         self.next_kind.push(NextEvent::Unplanned as u8);
         self.here.push(pos);
         self.chi_here.push(0.0);
+        self.t_here.push(epoch);
         self.lit_from.push(f64::NAN);
         self.lit_until.push(f64::NAN);
         self.lit_start.push(0);
@@ -265,6 +270,7 @@ impl ParticleBank {
         self.next_kind.push(self.next_kind[i]);
         self.here.push(self.here[i]);
         self.chi_here.push(self.chi_here[i]);
+        self.t_here.push(self.t_here[i]);
         self.lit_from.push(self.lit_from[i]);
         self.lit_until.push(self.lit_until[i]);
         self.lit_start.push(self.lit_start[i]);
@@ -288,7 +294,8 @@ impl ParticleBank {
         &mut self.weight
     }
 
-    /// Positions at the end of the last step, body-centred inertial, m.
+    /// Positions at each particle's last sighting (a time within the last
+    /// step), body-centred inertial, m.
     pub fn positions(&self) -> &[Vec3] {
         &self.here
     }
@@ -335,6 +342,7 @@ impl ParticleBank {
             next_kind: &mut self.next_kind,
             here: &mut self.here,
             chi_here: &mut self.chi_here,
+            t_here: &mut self.t_here,
             lit_from: &mut self.lit_from,
             lit_until: &mut self.lit_until,
             lit_start: &mut self.lit_start,
@@ -398,7 +406,7 @@ impl<'a> Chunk<'a> {
         }
         cut!(
             id, event, source, weight, remaining, pos, vel, epoch, next_event, next_kind, here,
-            chi_here, lit_from, lit_until, lit_start, toggles, step_size, alive
+            chi_here, t_here, lit_from, lit_until, lit_start, toggles, step_size, alive
         )
     }
 
@@ -426,6 +434,7 @@ impl<'a> Chunk<'a> {
         front_column(self.next_kind, &alive);
         front_column(self.here, &alive);
         front_column(self.chi_here, &alive);
+        front_column(self.t_here, &alive);
         front_column(self.lit_from, &alive);
         front_column(self.lit_until, &alive);
         front_column(self.lit_start, &alive);

@@ -80,10 +80,13 @@ pub mod stream {
     /// Host: the particle budget's Russian roulette and splitting of
     /// particles whose weights left the allowed window.
     pub const HOST_ROULETTE: u32 = 0x83;
+    /// Host: the time within a flight segment at which the tallies sight
+    /// the particle.
+    pub const HOST_SIGHTING: u32 = 0x84;
     /// The streams handed to modules.
     pub const MODULE_STREAMS: [u32; 3] = [LAUNCH, FLIGHT, SURFACE];
     /// The host's own streams.
-    pub const HOST_STREAMS: [u32; 3] = [HOST_RELEASE, HOST_SURVIVAL, HOST_ROULETTE];
+    pub const HOST_STREAMS: [u32; 4] = [HOST_RELEASE, HOST_SURVIVAL, HOST_ROULETTE, HOST_SIGHTING];
 }
 
 /// The state of one surface cell, as seen by `Source::release_rate` and

@@ -33,7 +33,7 @@ use rayon::prelude::*;
 
 use super::{EngineError, Simulation, WorkerSet, call};
 use crate::particles::{Chunk, NextEvent, SHADOW_TOGGLES};
-use crate::tally::LedgerRow;
+use crate::tally::{LedgerRow, Sighting, Tally};
 use crate::transport::integrate::{self, FlightEnd};
 use crate::transport::kepler::{Direction, Orbit};
 use crate::transport::{frames, shadow};
@@ -83,6 +83,8 @@ pub(super) struct ChunkBooks {
     lost_cells: Vec<(u32, f64)>,
     /// Particles of the chunk still in flight after the step.
     kept: usize,
+    /// Every sighting of the chunk's particles in this step, in order.
+    sightings: Vec<Sighting>,
 }
 
 /// How a flight segment ended.
@@ -93,6 +95,26 @@ enum SegmentEnd {
     Escaped,
     /// Removed by a loss during the segment.
     Lost,
+}
+
+/// One flight segment of one particle in one step.
+struct Segment {
+    /// How it ended.
+    end: SegmentEnd,
+    /// Its length, s.
+    duration: f64,
+    /// Position at the sighting, m.
+    sample_r: Vec3,
+    /// Velocity at the sighting, m s^-1.
+    sample_v: Vec3,
+    /// Time of the sighting, s since the run's start.
+    sample_t: f64,
+    /// Position at its end (used when it ends at an event), m.
+    end_r: Vec3,
+    /// Velocity at its end, m s^-1.
+    end_v: Vec3,
+    /// Fraction of it in sunlight, dimensionless.
+    lit: f64,
 }
 
 /// Scratch of one chunk's flight, shared by the phases (allocated once per
@@ -116,6 +138,8 @@ struct Scratch {
     landed_idx: Vec<usize>,
     /// The surface's decisions.
     outcomes: Vec<Outcome>,
+    /// One sighting per active particle of this round.
+    sights: Vec<Sighting>,
 }
 
 impl Scratch {
@@ -130,6 +154,7 @@ impl Scratch {
             impacts: Vec::new(),
             landed_idx: Vec::new(),
             outcomes: Vec::new(),
+            sights: Vec::with_capacity(n),
         }
     }
 }
@@ -174,6 +199,8 @@ impl Simulation {
         // Reduce in chunk order (deterministic at any thread count).
         let mut first_error = None;
         let mut kept = Vec::with_capacity(results.len());
+        // Atoms in flight and in sunlight, averaged over the step.
+        let mut sunlit = 0.0;
         for r in results {
             match r {
                 Ok(b) => {
@@ -194,6 +221,12 @@ impl Simulation {
                         self.maps.lost_above[c as usize] += w;
                     }
                     kept.push(b.kept);
+                    for sight in &b.sightings {
+                        self.tally.score(sight, self.config.dt);
+                        if sight.sunlit {
+                            sunlit += sight.weight * sight.dwell / self.config.dt;
+                        }
+                    }
                 }
                 Err(e) => {
                     if first_error.is_none() {
@@ -207,6 +240,8 @@ impl Simulation {
             None => {
                 // Each chunk has already moved its survivors to its front.
                 bank.gather(chunk_size, &kept);
+                self.tally.end_step();
+                self.sunlit_content.push(sunlit);
                 Ok(())
             }
         };
@@ -257,6 +292,7 @@ impl StepContext<'_> {
             if self.n_losses > 0 {
                 self.ionize(set, chunk, &mut s, &mut books)?;
             }
+            books.sightings.extend_from_slice(&s.sights);
             self.escape(chunk, &mut s, &mut books);
             if s.impacts.is_empty() {
                 break;
@@ -266,7 +302,8 @@ impl StepContext<'_> {
         Ok(books)
     }
 
-    /// Phase 1: each active particle to its next event or the step's end.
+    /// Phase 1: each active particle to its next event or the step's end,
+    /// with one sighting of it at a time drawn uniformly in the segment.
     fn advance(&self, chunk: &mut Chunk<'_>, s: &mut Scratch) {
         let body = &self.model.body;
         let radius = body.radius;
@@ -274,32 +311,59 @@ impl StepContext<'_> {
         s.ends.clear();
         s.seg_time.clear();
         s.records.clear();
+        s.sights.clear();
         for &i in &s.active {
             let tau = chunk.remaining[i];
             let seg_start = self.t_end - tau;
-            let (end, t, r1, v1, lit) = if self.a_rad > 0.0 {
-                self.advance_integrated(chunk, i, tau)
+            // Where in the segment the particle is sighted: a host stream of
+            // its own, drawn before anything else of this segment.
+            let u = Rng::new(RngKey::at_step(
+                self.config.seed,
+                chunk.id[i],
+                chunk.event[i],
+                stream::HOST_SIGHTING,
+                self.step,
+            ))
+            .uniform();
+            let seg = if self.a_rad > 0.0 {
+                self.advance_integrated(chunk, i, tau, u)
             } else {
-                self.advance_kepler(chunk, i, seg_start)
+                self.advance_kepler(chunk, i, seg_start, u)
             };
-            let r1 = if end == SegmentEnd::Landed { scale(r1, radius / norm(r1)) } else { r1 };
-            if end != SegmentEnd::Running {
+            let t = seg.duration;
+            if seg.end != SegmentEnd::Running {
                 // The path ends here: its last state is the reference state
                 // (a landing reads its velocity from it).
+                let r1 = if seg.end == SegmentEnd::Landed {
+                    scale(seg.end_r, radius / norm(seg.end_r))
+                } else {
+                    seg.end_r
+                };
                 chunk.pos[i] = r1;
-                chunk.vel[i] = v1;
+                chunk.vel[i] = seg.end_v;
                 chunk.epoch[i] = seg_start + t;
+                chunk.here[i] = r1;
                 chunk.chi_here[i] = 0.0;
+                chunk.t_here[i] = seg_start + t;
                 chunk.next_kind[i] = NextEvent::Unplanned as u8;
             }
-            chunk.here[i] = r1;
             chunk.remaining[i] -= t;
-            s.ends.push(end);
+            s.ends.push(seg.end);
             s.seg_time.push(t);
+            let (r, v, t_at) = (seg.sample_r, seg.sample_v, seg.sample_t);
+            let (lat, lon_bci) = frames::lat_lon(r);
+            let lon = frames::inertial_to_fixed_longitude(lon_bci, spin, t_at);
+            let local_time = self.model.sun.local_time_hours(body, lon, t_at);
+            let altitude = norm(r) - radius;
+            s.sights.push(Sighting {
+                weight: chunk.weight[i],
+                dwell: t,
+                altitude,
+                local_time,
+                latitude: lat,
+                sunlit: shadow::is_sunlit(r, self.sun_dir, radius),
+            });
             if self.n_losses > 0 {
-                let t_at = seg_start + t;
-                let (lat, lon_bci) = frames::lat_lon(r1);
-                let lon = frames::inertial_to_fixed_longitude(lon_bci, spin, t_at);
                 s.records.push(InFlight {
                     key: RngKey::at_step(
                         self.config.seed,
@@ -308,27 +372,22 @@ impl StepContext<'_> {
                         stream::FLIGHT,
                         self.step,
                     ),
-                    altitude: norm(r1) - radius,
+                    altitude,
                     latitude: lat,
-                    local_time: self.model.sun.local_time_hours(body, lon, t_at),
-                    speed: norm(v1),
-                    sun_radial_velocity: self.helio_radial_velocity - dot(v1, self.sun_dir),
+                    local_time,
+                    speed: norm(v),
+                    sun_radial_velocity: self.helio_radial_velocity - dot(v, self.sun_dir),
                     helio_distance: self.r_au,
-                    sunlit_fraction: lit,
+                    sunlit_fraction: seg.lit,
                     time: t_at,
                 });
             }
         }
     }
 
-    /// Integrated flight (radiation pressure) of particle `i` for `tau` s:
-    /// (end, segment time s, position m, velocity m s^-1, sunlit fraction).
-    fn advance_integrated(
-        &self,
-        chunk: &mut Chunk<'_>,
-        i: usize,
-        tau: f64,
-    ) -> (SegmentEnd, f64, Vec3, Vec3, f64) {
+    /// Integrated flight (radiation pressure) of particle `i` for `tau` s,
+    /// sighted at the fraction `u` of the segment flown.
+    fn advance_integrated(&self, chunk: &mut Chunk<'_>, i: usize, tau: f64, u: f64) -> Segment {
         let body = &self.model.body;
         let field = integrate::Field {
             mu: body.gm,
@@ -339,76 +398,106 @@ impl StepContext<'_> {
         };
         let tol =
             integrate::Tolerance::relative(self.config.integrator_tolerance, body.gm, body.radius);
-        let (r0, v0) = (chunk.pos[i], chunk.vel[i]);
-        let f = integrate::fly_on(&field, r0, v0, tau, &tol, chunk.step_size[i]);
-        chunk.step_size[i] = f.next_step;
+        let (r0, v0, h0) = (chunk.pos[i], chunk.vel[i], chunk.step_size[i]);
+        let f = integrate::fly_on(&field, r0, v0, tau, &tol, h0);
         let (end, t, r, v) = match f.end {
             FlightEnd::Running { r, v } => (SegmentEnd::Running, tau, r, v),
             FlightEnd::Landed { t, r, v } => (SegmentEnd::Landed, t, r, v),
             FlightEnd::Escaped { t, r, v } => (SegmentEnd::Escaped, t, r, v),
         };
+        // The sighting: the same flight again, to the sampled time.
+        let (sample_r, sample_v) = if u * t > 0.0 {
+            match integrate::fly_on(&field, r0, v0, u * t, &tol, h0).end {
+                FlightEnd::Running { r, v }
+                | FlightEnd::Landed { r, v, .. }
+                | FlightEnd::Escaped { r, v, .. } => (r, v),
+            }
+        } else {
+            (r0, v0)
+        };
+        chunk.step_size[i] = f.next_step;
         // The integrator's state is the new reference state.
+        let seg_start = self.t_end - tau;
         chunk.pos[i] = r;
         chunk.vel[i] = v;
-        chunk.epoch[i] = self.t_end - tau + t;
+        chunk.epoch[i] = seg_start + t;
+        chunk.here[i] = sample_r;
+        chunk.t_here[i] = seg_start + u * t;
         let lit = if t > 0.0 {
             (f.sunlit_time / t).clamp(0.0, 1.0)
         } else {
             shadow::is_sunlit(r0, self.sun_dir, body.radius) as u8 as f64
         };
-        (end, t, r, v, lit)
+        Segment {
+            end,
+            duration: t,
+            sample_r,
+            sample_v,
+            sample_t: seg_start + u * t,
+            end_r: r,
+            end_v: v,
+            lit,
+        }
     }
 
     /// Closed-form flight of particle `i` from `seg_start` (s) to its event
-    /// or the step's end: (end, segment time s, position m, velocity
-    /// m s^-1, sunlit fraction).
-    fn advance_kepler(
-        &self,
-        chunk: &mut Chunk<'_>,
-        i: usize,
-        seg_start: f64,
-    ) -> (SegmentEnd, f64, Vec3, Vec3, f64) {
+    /// or the step's end, sighted at the fraction `u` of the segment.
+    fn advance_kepler(&self, chunk: &mut Chunk<'_>, i: usize, seg_start: f64, u: f64) -> Segment {
         let body = &self.model.body;
         let orbit = Orbit::from_state(body.gm, chunk.pos[i], chunk.vel[i]);
         if NextEvent::from_code(chunk.next_kind[i]) == NextEvent::Unplanned {
             self.plan(chunk, i, &orbit);
         }
         let kind = NextEvent::from_code(chunk.next_kind[i]);
+        if kind == NextEvent::Unbound {
+            let (r, v) = (chunk.pos[i], chunk.vel[i]);
+            return Segment {
+                end: SegmentEnd::Escaped,
+                duration: 0.0,
+                sample_r: r,
+                sample_v: v,
+                sample_t: seg_start,
+                end_r: r,
+                end_v: v,
+                lit: shadow::is_sunlit(r, self.sun_dir, body.radius) as u8 as f64,
+            };
+        }
         let event_now = matches!(kind, NextEvent::Landing | NextEvent::Boundary)
             && chunk.next_event[i] <= self.t_end;
-        let (end, t, r1, v1) = if kind == NextEvent::Unbound {
-            (SegmentEnd::Escaped, 0.0, chunk.pos[i], chunk.vel[i])
-        } else if event_now {
+        // The segment's end: the event, or the step's end (where the state
+        // itself is not needed: the path stays planned).
+        let (end, seg_end, end_r, end_v) = if event_now {
             let (target, direction, end) = if kind == NextEvent::Landing {
                 (body.radius, Direction::Descending, SegmentEnd::Landed)
             } else {
                 (self.config.boundary_radius, Direction::Ascending, SegmentEnd::Escaped)
             };
             match orbit.crossing(target, direction) {
-                Some(c) => (end, (chunk.next_event[i] - seg_start).max(0.0), c.r, c.v),
+                Some(c) => (end, chunk.next_event[i].max(seg_start), c.r, c.v),
                 // Planned from the same state, so this does not happen; fly on.
-                None => {
-                    let (r, v) = orbit.propagate(self.t_end - chunk.epoch[i]);
-                    (SegmentEnd::Running, self.t_end - seg_start, r, v)
-                }
+                None => (SegmentEnd::Running, self.t_end, chunk.pos[i], chunk.vel[i]),
             }
         } else {
-            // Start the Kepler solve from where the last one ended, moved on
-            // at d(chi)/dt = sqrt(mu) / r.
-            let guess = chunk.chi_here[i]
-                + (self.t_end - seg_start) * body.gm.sqrt() / norm(chunk.here[i]).max(body.radius);
-            let (r, v, chi) = orbit.propagate_near(self.t_end - chunk.epoch[i], guess);
-            chunk.chi_here[i] = chi;
-            (SegmentEnd::Running, self.t_end - seg_start, r, v)
+            (SegmentEnd::Running, self.t_end, chunk.pos[i], chunk.vel[i])
         };
+        let t = seg_end - seg_start;
+        // The sighting. The Kepler solve starts from where the last one
+        // ended, moved on at d(chi)/dt = sqrt(mu) / r.
+        let t_s = seg_start + u * t;
+        let guess = chunk.chi_here[i]
+            + (t_s - chunk.t_here[i]) * body.gm.sqrt() / norm(chunk.here[i]).max(body.radius);
+        let (sample_r, sample_v, chi) = orbit.propagate_near(t_s - chunk.epoch[i], guess);
+        chunk.here[i] = sample_r;
+        chunk.chi_here[i] = chi;
+        chunk.t_here[i] = t_s;
         let lit = if self.n_losses == 0 {
             0.0
         } else if t > 0.0 {
-            (self.sunlit_time(chunk, i, &orbit, seg_start, seg_start + t) / t).clamp(0.0, 1.0)
+            (self.sunlit_time(chunk, i, &orbit, seg_start, seg_end) / t).clamp(0.0, 1.0)
         } else {
-            shadow::is_sunlit(r1, self.sun_dir, body.radius) as u8 as f64
+            shadow::is_sunlit(sample_r, self.sun_dir, body.radius) as u8 as f64
         };
-        (end, t, r1, v1, lit)
+        Segment { end, duration: t, sample_r, sample_v, sample_t: t_s, end_r, end_v, lit }
     }
 
     /// Solve particle `i`'s path once: the time and kind of its next event,
@@ -578,6 +667,17 @@ impl StepContext<'_> {
                 *t += r;
             }
         }
+        // The sightings' dwell: the expected time in flight before the
+        // loss, (1 - exp(-beta tau)) / beta (sighting.rs).
+        for (sight, &beta) in s.sights.iter_mut().zip(&s.total_rate) {
+            let bt = beta * sight.dwell;
+            if bt > 1e-8 {
+                sight.dwell = (1.0 - exobound_sdk::math::exp(-bt)) / beta;
+            } else if bt > 0.0 {
+                // Series, where 1 - exp(-x) would cancel.
+                sight.dwell *= 1.0 - 0.5 * bt;
+            }
+        }
         for (k, &i) in s.active.iter().enumerate() {
             let beta = s.total_rate[k];
             if !(beta > 0.0) {
@@ -711,6 +811,7 @@ impl StepContext<'_> {
                     chunk.vel[i] = vel;
                     chunk.here[i] = r;
                     chunk.chi_here[i] = 0.0;
+                    chunk.t_here[i] = hit.time;
                     chunk.epoch[i] = hit.time;
                     chunk.next_kind[i] = NextEvent::Unplanned as u8;
                     chunk.step_size[i] = 0.0;

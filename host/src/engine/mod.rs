@@ -30,7 +30,6 @@ use crate::runtime::{DomainError, HostError, ModuleError};
 use crate::species::Species;
 use crate::surface::{Grid, Reservoir, TemperatureLaw};
 use crate::tally::{DensityTally, Ledger, LedgerRow};
-use crate::transport::frames;
 
 /// Most steps of one run: the step number has 24 bits of the random-number
 /// key (see `exobound_sdk::RngKey`), dimensionless.
@@ -371,7 +370,7 @@ impl Simulation {
         atoms.iter().zip(&area).map(|(a, s)| if *s > 0.0 { a / s } else { 0.0 }).collect()
     }
 
-    /// Atoms in flight and in sunlight at the end of each step, atoms.
+    /// Atoms in flight and in sunlight, averaged over each step, atoms.
     pub fn sunlit_content(&self) -> &[f64] {
         &self.sunlit_content
     }
@@ -483,8 +482,7 @@ impl Simulation {
         self.weight_window(&mut row)?;
         self.time += dt;
         self.step += 1;
-        // 7. Tallies and the ledger row.
-        self.tally_snapshot();
+        // 7. The ledger row (the tallies scored the flight's sightings).
         row.in_flight = self.bank.total_weight();
         row.adsorbed = self.model.reservoir.total();
         row.particles = self.bank.len() as u64;
@@ -605,42 +603,6 @@ impl Simulation {
             self.refresh_adsorbed();
         }
         Ok(())
-    }
-
-    /// Snapshot the particles in flight into the density and column tally.
-    fn tally_snapshot(&mut self) {
-        use rayon::prelude::*;
-        let t = self.time;
-        let body = &self.model.body;
-        let radius = body.radius;
-        let sun_dir = self.model.sun.sun_direction_bci(body, t);
-        let (tally, sun) = (&self.tally, &self.model.sun);
-        // Locate every particle in parallel (the trigonometry is the cost),
-        // then add the weights serially in bank order, so the sums do not
-        // depend on the thread count.
-        let located: Vec<(Option<usize>, usize, bool)> = self.pool.install(|| {
-            self.bank
-                .positions()
-                .par_iter()
-                .with_min_len(self.config.chunk_size)
-                .map(|r| {
-                    let (lat, lon_bci) = frames::lat_lon(*r);
-                    let lon = frames::inertial_to_fixed_longitude(lon_bci, body.sidereal_rate(), t);
-                    let column = tally.column_of(sun.local_time_hours(body, lon, t), lat);
-                    let bin = tally.bin_of(crate::vec3::norm(*r) - radius, column);
-                    (bin, column, crate::transport::shadow::is_sunlit(*r, sun_dir, radius))
-                })
-                .collect()
-        });
-        let mut sunlit = 0.0;
-        for (&(bin, column, lit), &w) in located.iter().zip(self.bank.weights()) {
-            self.tally.add(bin, column, w);
-            if lit {
-                sunlit += w;
-            }
-        }
-        self.tally.end_snapshot();
-        self.sunlit_content.push(sunlit);
     }
 }
 

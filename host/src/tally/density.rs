@@ -1,9 +1,11 @@
 //! Density n(altitude, local time, latitude) and vertical column
-//! N(local time, latitude), from snapshots of the particles in flight.
+//! N(local time, latitude), from the flight loop's sightings.
 //!
 //! Why this exists: what instruments see is built from these two fields.
-//! Each particle of weight w (atoms) counts w in the bin that holds it at
-//! the end of a step; the density is the mean weight per snapshot divided
+//! Each sighting of weight w (atoms) and dwell d (s) counts w d / dt in the
+//! bin that holds its sampled point (the time-sampled, track-length
+//! estimator of `sighting.rs`), and each step closes one "snapshot" of
+//! the time-averaged population; the density is the mean weight per snapshot divided
 //! by the bin's exact volume, (r2^3 - r1^3)/3 dlt (sin phi2 - sin phi1),
 //! and the column is the mean weight per snapshot above a surface patch
 //! divided by the patch's area at the surface radius. Local time and
@@ -133,6 +135,11 @@ impl DensityTally {
         self.snapshots += 1;
     }
 
+    /// Name of the estimator, for the products' metadata.
+    pub const ESTIMATOR: &'static str = "time-sampled track length: each flight segment of \
+        each step scored at a time drawn uniformly within it, weighted by its expected time in \
+        flight over the step length";
+
     /// Mean density per bin, atoms cm^-3, index (alt * n_lt + lt) * n_lat + lat.
     pub fn density_cm3(&self) -> Vec<f64> {
         let s = self.snapshots.max(1) as f64;
@@ -175,6 +182,18 @@ impl DensityTally {
         self.weight.iter_mut().for_each(|w| *w = 0.0);
         self.column_weight.iter_mut().for_each(|w| *w = 0.0);
         self.snapshots = 0;
+    }
+}
+
+impl super::Tally for DensityTally {
+    fn score(&mut self, s: &super::Sighting, dt: f64) {
+        let column = self.column_of(s.local_time, s.latitude);
+        let bin = self.bin_of(s.altitude, column);
+        self.add(bin, column, s.weight * s.dwell / dt);
+    }
+
+    fn end_step(&mut self) {
+        self.end_snapshot();
     }
 }
 
