@@ -431,6 +431,27 @@ mod tests {
     }
 
     #[test]
+    fn the_merged_ledger_closes_whatever_its_outflow_columns() {
+        // `roulette_atoms` is an outflow that `close_ledger` is not told
+        // about; each replica's closure_error includes it (row imbalances
+        // by hand: A: 10 - (105 - 100) - 3 - 2 = 0 and 4.2 - (109 - 105)
+        // - 1 + 1 = 0.2 atoms; B: 0 and 2 - (105 - 110) - 4 - 3 = 0).
+        let head = "step,time_s,supplied_from_bulk_atoms,escaped_atoms,roulette_atoms,\
+                    in_flight_atoms,adsorbed_atoms,closure_error\n";
+        let a = table(&format!("{head}0,1,10,3,2,5,100,0\n1,2,4.2,1,-1,6,103,{}\n", 0.2 / 109.0));
+        let b = table(&format!("{head}0,1,12,2,0,8,102,0\n1,2,2,4,3,3,102,0\n"));
+        let inputs = vec![(PathBuf::from("a"), a), (PathBuf::from("b"), b)];
+        let mut m = merge_table(&SPECS[0], &inputs).unwrap();
+        let worst = close_ledger(&mut m, &inputs, &[100.0, 100.0]).unwrap();
+        let c = m.position("closure_error").unwrap();
+        // Mean row 0 closes exactly; mean row 1 has imbalance 0.1 atoms over
+        // a scale of max(3.1, 107.5, 107) = 107.5 atoms.
+        assert_eq!(m.rows[0][c].value(), 0.0);
+        assert!((m.rows[1][c].value() - 0.1 / 107.5).abs() < 1e-15, "{:?}", m.rows[1][c]);
+        assert_eq!(worst, m.rows[1][c].value().abs());
+    }
+
+    #[test]
     fn the_profile_error_column_holds_the_between_replica_error() {
         let a = table("latitude_deg,column_cm-2,column_error_cm-2\n5,1,0.1\n");
         let b = table("latitude_deg,column_cm-2,column_error_cm-2\n5,3,0.2\n");
