@@ -33,6 +33,7 @@ pub fn dataset(
     ds.set_attribute("body", scenario.model.body.name.clone());
     ds.set_attribute("species", scenario.model.species.name.clone());
     ds.set_attribute("seed", scenario.config.seed as f64);
+    ds.set_attribute("estimator", crate::tally::DensityTally::ESTIMATOR);
     // Geometry and illumination that lines of sight (`exobound observe`) need.
     let body = &sim.model().body;
     ds.set_attribute("body_radius_km", body.radius / 1e3);
