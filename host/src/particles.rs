@@ -170,7 +170,7 @@ fn truncate_column<T>(v: &mut Vec<T>, n: usize) {
     v.truncate(n);
 }
 
-fn move_column<T: Copy>(v: &mut Vec<T>, moves: &[(usize, usize, usize)]) {
+fn move_column<T: Copy>(v: &mut [T], moves: &[(usize, usize, usize)]) {
     for &(from, len, to) in moves {
         v.copy_within(from..from + len, to);
     }

@@ -317,17 +317,17 @@ impl StepContext<'_> {
             let seg_start = self.t_end - tau;
             // Where in the segment the particle is sighted: a host stream of
             // its own, drawn before anything else of this segment.
-            let u = Rng::new(RngKey::at_step(
+            let mut rng = Rng::new(RngKey::at_step(
                 self.config.seed,
                 chunk.id[i],
                 chunk.event[i],
                 stream::HOST_SIGHTING,
                 self.step,
-            ))
-            .uniform();
+            ));
             let seg = if self.a_rad > 0.0 {
-                self.advance_integrated(chunk, i, tau, u)
+                self.advance_integrated(chunk, i, tau, &mut rng)
             } else {
+                let u = rng.uniform();
                 self.advance_kepler(chunk, i, seg_start, u)
             };
             let t = seg.duration;
@@ -386,8 +386,14 @@ impl StepContext<'_> {
     }
 
     /// Integrated flight (radiation pressure) of particle `i` for `tau` s,
-    /// sighted at the fraction `u` of the segment flown.
-    fn advance_integrated(&self, chunk: &mut Chunk<'_>, i: usize, tau: f64, u: f64) -> Segment {
+    /// sighted at a time drawn with `rng` uniformly over the segment flown.
+    fn advance_integrated(
+        &self,
+        chunk: &mut Chunk<'_>,
+        i: usize,
+        tau: f64,
+        rng: &mut Rng,
+    ) -> Segment {
         let body = &self.model.body;
         let field = integrate::Field {
             mu: body.gm,
@@ -399,21 +405,16 @@ impl StepContext<'_> {
         let tol =
             integrate::Tolerance::relative(self.config.integrator_tolerance, body.gm, body.radius);
         let (r0, v0, h0) = (chunk.pos[i], chunk.vel[i], chunk.step_size[i]);
-        let f = integrate::fly_on(&field, r0, v0, tau, &tol, h0);
+        // One pass over the segment; the sighting is drawn uniformly in
+        // time over what was flown, by reservoir sampling over the steps.
+        let f = integrate::fly_on(&field, r0, v0, tau, &tol, h0, Some(rng));
+        let sampled = f.sample.unwrap_or(integrate::Sampled { t: 0.0, r: r0, v: v0 });
+        let (sample_r, sample_v, sample_dt, sunlit_time) =
+            (sampled.r, sampled.v, sampled.t, f.sunlit_time);
         let (end, t, r, v) = match f.end {
             FlightEnd::Running { r, v } => (SegmentEnd::Running, tau, r, v),
             FlightEnd::Landed { t, r, v } => (SegmentEnd::Landed, t, r, v),
             FlightEnd::Escaped { t, r, v } => (SegmentEnd::Escaped, t, r, v),
-        };
-        // The sighting: the same flight again, to the sampled time.
-        let (sample_r, sample_v) = if u * t > 0.0 {
-            match integrate::fly_on(&field, r0, v0, u * t, &tol, h0).end {
-                FlightEnd::Running { r, v }
-                | FlightEnd::Landed { r, v, .. }
-                | FlightEnd::Escaped { r, v, .. } => (r, v),
-            }
-        } else {
-            (r0, v0)
         };
         chunk.step_size[i] = f.next_step;
         // The integrator's state is the new reference state.
@@ -422,9 +423,9 @@ impl StepContext<'_> {
         chunk.vel[i] = v;
         chunk.epoch[i] = seg_start + t;
         chunk.here[i] = sample_r;
-        chunk.t_here[i] = seg_start + u * t;
+        chunk.t_here[i] = seg_start + sample_dt;
         let lit = if t > 0.0 {
-            (f.sunlit_time / t).clamp(0.0, 1.0)
+            (sunlit_time / t).clamp(0.0, 1.0)
         } else {
             shadow::is_sunlit(r0, self.sun_dir, body.radius) as u8 as f64
         };
@@ -433,7 +434,7 @@ impl StepContext<'_> {
             duration: t,
             sample_r,
             sample_v,
-            sample_t: seg_start + u * t,
+            sample_t: seg_start + sample_dt,
             end_r: r,
             end_v: v,
             lit,

@@ -24,7 +24,7 @@
 use crate::transport::kepler::{Direction, Orbit};
 use crate::transport::shadow::is_sunlit;
 use crate::vec3::{self, Vec3};
-use exobound_sdk::math;
+use exobound_sdk::{Rng, math};
 
 /// Largest number of step attempts (accepted + rejected) in one flight
 /// call; a flight that runs out returns `Running` with `elapsed` short of
@@ -75,6 +75,8 @@ pub struct Flight {
     pub elapsed: f64,
     /// Step size to continue with in the next call, s.
     pub next_step: f64,
+    /// With a sampler: the state at a time drawn uniformly over the time flown.
+    pub sample: Option<Sampled>,
 }
 
 /// Error tolerances of the step-size control: a component passes when its
@@ -140,13 +142,20 @@ pub fn fly(
 /// `radius`) or escape (ascending through `boundary_radius`). An atom that
 /// starts on the surface moving up is in flight, not landed.
 pub fn fly_with(field: &Field, r0: Vec3, v0: Vec3, duration: f64, tol: &Tolerance) -> Flight {
-    fly_on(field, r0, v0, duration, tol, 0.0)
+    fly_on(field, r0, v0, duration, tol, 0.0, None)
 }
 
 /// [`fly_with`], starting with step size `h0` (s) when it is positive, as
 /// the flight loop does from one engine step to the next, so that the
 /// integrator carries on where it stopped rather than restarting from a
 /// cautious first step. [`Flight::next_step`] is the size to pass next.
+///
+/// With a `sampler`, [`Flight::sample`] is the state at a time drawn
+/// uniformly over the time flown (wherever the flight ends), by reservoir
+/// sampling over the accepted steps: a step of length h ending at elapsed
+/// time t replaces the sample, with probability h / t, by the dense-output
+/// state at a uniform point of the step (Vitter 1985, "Random sampling with
+/// a reservoir", ACM TOMS 11, 37-57, in its continuous form).
 pub fn fly_on(
     field: &Field,
     r0: Vec3,
@@ -154,12 +163,14 @@ pub fn fly_on(
     duration: f64,
     tol: &Tolerance,
     h0: f64,
+    mut sampler: Option<&mut Rng>,
 ) -> Flight {
     let finite = r0.iter().chain(v0.iter()).all(|x| x.is_finite()) && vec3::norm2(r0) > 0.0;
     if !finite || duration.is_nan() || duration <= 0.0 {
         // Nothing to integrate (or nothing sensible): report zero elapsed time.
         let end = FlightEnd::Running { r: r0, v: v0 };
-        return Flight { end, sunlit_time: 0.0, steps: 0, elapsed: 0.0, next_step: h0 };
+        let sample = sampler.map(|_| Sampled { t: 0.0, r: r0, v: v0 });
+        return Flight { end, sunlit_time: 0.0, steps: 0, elapsed: 0.0, next_step: h0, sample };
     }
     let mut y: State = [r0[0], r0[1], r0[2], v0[0], v0[1], v0[2]];
     let mut lit = is_sunlit(r0, field.sun_dir, field.radius);
@@ -167,6 +178,7 @@ pub fn fly_on(
     let mut t = 0.0;
     let mut sunlit_time = 0.0;
     let mut steps = 0u32;
+    let mut sample = sampler.as_ref().map(|_| Sampled { t: 0.0, r: r0, v: v0 });
     let mut h = if h0 > 0.0 && h0.is_finite() {
         h0.min(initial_step(field, r0, v0, f64::INFINITY) * 64.0)
     } else {
@@ -188,6 +200,7 @@ pub fn fly_on(
         let dense = Dense::new(&y, &step, h_try);
         match first_event(field, lit, &dense) {
             None => {
+                offer(&mut sampler, &mut sample, t, h_try, &dense, 1.0);
                 if lit {
                     sunlit_time += h_try;
                 }
@@ -205,6 +218,7 @@ pub fn fly_on(
                         // Cut the step at the shadow boundary and switch the push.
                         let s = dp_step(field, lit, &y, &k1, dt);
                         steps += 1;
+                        offer(&mut sampler, &mut sample, t, dt, &Dense::new(&y, &s, dt), 1.0);
                         if lit {
                             sunlit_time += dt;
                         }
@@ -223,6 +237,7 @@ pub fn fly_on(
                         };
                         let (dt, y_end, extra) = polish(field, lit, &y, &k1, dt, h_try, target);
                         steps += extra;
+                        offer(&mut sampler, &mut sample, t, dt, &dense, dt / h_try);
                         if lit {
                             sunlit_time += dt;
                         }
@@ -234,7 +249,14 @@ pub fn fly_on(
                         } else {
                             FlightEnd::Escaped { t: t_end, r, v }
                         };
-                        return Flight { end, sunlit_time, steps, elapsed: t_end, next_step: h };
+                        return Flight {
+                            end,
+                            sunlit_time,
+                            steps,
+                            elapsed: t_end,
+                            next_step: h,
+                            sample,
+                        };
                     }
                 }
             }
@@ -243,7 +265,40 @@ pub fn fly_on(
     let end = FlightEnd::Running { r: [y[0], y[1], y[2]], v: [y[3], y[4], y[5]] };
     // `h` is the size the controller would try next (an end-clipped last
     // step leaves it unclipped).
-    Flight { end, sunlit_time, steps, elapsed: t, next_step: h }
+    Flight { end, sunlit_time, steps, elapsed: t, next_step: h, sample }
+}
+
+/// A state drawn uniformly in time over a flight.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Sampled {
+    /// Time since the start of the flight call, s.
+    pub t: f64,
+    /// Position, m.
+    pub r: Vec3,
+    /// Velocity, m s^-1.
+    pub v: Vec3,
+}
+
+/// Reservoir step: the stretch [t0, t0 + h] (s), covered by `dense` from
+/// theta 0 to `theta_max`, replaces the sample with probability
+/// h / (t0 + h), at a uniform point within it.
+fn offer(
+    sampler: &mut Option<&mut Rng>,
+    sample: &mut Option<Sampled>,
+    t0: f64,
+    h: f64,
+    dense: &Dense,
+    theta_max: f64,
+) {
+    let Some(rng) = sampler.as_deref_mut() else { return };
+    if !(h > 0.0) {
+        return;
+    }
+    if rng.uniform() * (t0 + h) < h {
+        let x = rng.uniform();
+        let y = dense.at(x * theta_max);
+        *sample = Some(Sampled { t: t0 + x * h, r: [y[0], y[1], y[2]], v: [y[3], y[4], y[5]] });
+    }
 }
 
 /// Kinds of event inside a step.
