@@ -505,28 +505,41 @@ impl StepContext<'_> {
     /// and (when losses need it) its shadow schedule.
     fn plan(&self, chunk: &mut Chunk<'_>, i: usize, orbit: &Orbit) {
         let (radius, boundary) = (self.model.body.radius, self.config.boundary_radius);
-        let land = orbit.time_to_radius(radius, Direction::Descending);
+        // Each crossing as (anomaly m^0.5, time s, position m): solved once
+        // here and handed to the shadow schedule.
+        let cross = |r: f64, d: Direction| {
+            orbit.anomaly_of_crossing(r, d).map(|chi| {
+                let (t, pos) = orbit.at_anomaly(chi);
+                (chi, t, pos)
+            })
+        };
+        let land = cross(radius, Direction::Descending);
         let unbound_now = self.config.escape_when_unbound && !orbit.is_bound() && land.is_none();
         let esc = if unbound_now {
             None
         } else if !orbit.is_bound() || orbit.apoapsis() >= boundary {
-            orbit.time_to_radius(boundary, Direction::Ascending)
+            cross(boundary, Direction::Ascending)
         } else {
             None
         };
-        let (kind, t) = match (land, esc) {
-            _ if unbound_now => (NextEvent::Unbound, 0.0),
-            (Some(a), Some(b)) if b < a => (NextEvent::Boundary, b),
-            (Some(a), _) => (NextEvent::Landing, a),
-            (None, Some(b)) => (NextEvent::Boundary, b),
-            (None, None) => (NextEvent::Never, f64::INFINITY),
+        let (kind, end) = match (land, esc) {
+            _ if unbound_now => (NextEvent::Unbound, None),
+            (Some(a), Some(b)) if b.1 < a.1 => (NextEvent::Boundary, Some(b)),
+            (Some(a), _) => (NextEvent::Landing, Some(a)),
+            (None, Some(b)) => (NextEvent::Boundary, Some(b)),
+            (None, None) => (NextEvent::Never, None),
+        };
+        let t = match (kind, end) {
+            (NextEvent::Unbound, _) => 0.0,
+            (_, Some((_, t, _))) => t,
+            _ => f64::INFINITY,
         };
         chunk.next_kind[i] = kind as u8;
         chunk.next_event[i] = chunk.epoch[i] + t;
         chunk.lit_from[i] = f64::NAN;
         if self.n_losses > 0 && kind != NextEvent::Unbound {
             let from = chunk.epoch[i];
-            self.schedule_shadow(chunk, i, orbit, from);
+            self.schedule_shadow(chunk, i, orbit, from, end.map(|(chi, _, r)| (chi, r)));
         }
     }
 
@@ -537,7 +550,7 @@ impl StepContext<'_> {
         // (seg_start + (event - seg_start)); that is still covered.
         let slack = 1e-9 * (1.0 + b.abs());
         if !(chunk.lit_from[i] <= a + slack && b <= chunk.lit_until[i] + slack) {
-            self.schedule_shadow(chunk, i, orbit, a);
+            self.schedule_shadow(chunk, i, orbit, a, None);
         }
         lit_between(chunk.lit_start[i] != 0, chunk.lit_from[i], &chunk.toggles[i], a, b)
     }
@@ -555,34 +568,45 @@ impl StepContext<'_> {
     /// is placed by bisection; this catches paths that rise out of the shadow
     /// above the night side near the terminator. At most [`SHADOW_TOGGLES`]
     /// changes are kept (a ballistic path has at most two).
-    fn schedule_shadow(&self, chunk: &mut Chunk<'_>, i: usize, orbit: &Orbit, from: f64) {
+    fn schedule_shadow(
+        &self,
+        chunk: &mut Chunk<'_>,
+        i: usize,
+        orbit: &Orbit,
+        from: f64,
+        event: Option<(f64, Vec3)>,
+    ) {
         let radius = self.model.body.radius;
         let sun = self.sun_dir;
         let epoch = chunk.epoch[i];
-        let event = chunk.next_event[i];
-        let mut until = event.min(from + SHADOW_HORIZON);
+        let t_event = chunk.next_event[i];
+        let mut until = t_event.min(from + SHADOW_HORIZON);
         if let Some(p) = orbit.period() {
             // A path that never ends (no event) is scheduled one orbit at most.
             until = until.min(from + 0.999 * p);
         }
-        let chi_a = orbit.anomaly_at(from - epoch);
-        let chi_b = if until == event {
-            let target = if NextEvent::from_code(chunk.next_kind[i]) == NextEvent::Boundary {
-                (self.config.boundary_radius, Direction::Ascending)
-            } else {
-                (radius, Direction::Descending)
-            };
-            orbit
-                .anomaly_of_crossing(target.0, target.1)
-                .unwrap_or_else(|| orbit.anomaly_at(until - epoch))
-        } else {
-            orbit.anomaly_at(until - epoch)
-        };
         chunk.lit_from[i] = from;
         chunk.lit_until[i] = until;
         chunk.toggles[i] = [f64::INFINITY; SHADOW_TOGGLES];
-        let (_, ra) = orbit.at_anomaly(chi_a);
-        let (_, rb) = orbit.at_anomaly(chi_b);
+        // The ends as (anomaly m^0.5, position m); the event's from `plan`
+        // when it has them.
+        let at = |chi: f64| (chi, orbit.at_anomaly(chi).1);
+        let (chi_a, ra) =
+            if from == epoch { (0.0, chunk.pos[i]) } else { at(orbit.anomaly_at(from - epoch)) };
+        let (chi_b, rb) = match event {
+            Some(e) if until == t_event => e,
+            _ if until == t_event => {
+                let target = if NextEvent::from_code(chunk.next_kind[i]) == NextEvent::Boundary {
+                    (self.config.boundary_radius, Direction::Ascending)
+                } else {
+                    (radius, Direction::Descending)
+                };
+                at(orbit
+                    .anomaly_of_crossing(target.0, target.1)
+                    .unwrap_or_else(|| orbit.anomaly_at(until - epoch)))
+            }
+            _ => at(orbit.anomaly_at(until - epoch)),
+        };
         let lit_a = shadow::is_sunlit(ra, sun, radius);
         chunk.lit_start[i] = lit_a as u8;
         let (day_a, day_b) = (dot(ra, sun) >= 0.0, dot(rb, sun) >= 0.0);
