@@ -121,7 +121,9 @@ pub struct Chunk<'a> {
     pub chi_here: &'a mut [f64],
     /// Time of `here`, s since the run's start.
     pub t_here: &'a mut [f64],
-    /// Start of the interval the shadow schedule covers, s since the run's start.
+    /// Start of the interval the shadow schedule covers, s since the run's
+    /// start (+infinity, with `lit_until` -infinity, when there is none; no
+    /// column holds NaN, so that two banks compare equal when their bits do).
     pub lit_from: &'a mut [f64],
     /// End of the interval the shadow schedule covers, s since the run's start.
     pub lit_until: &'a mut [f64],
@@ -242,13 +244,13 @@ impl ParticleBank {
         self.pos.push(pos);
         self.vel.push(vel);
         self.epoch.push(epoch);
-        self.next_event.push(f64::NAN);
+        self.next_event.push(f64::INFINITY);
         self.next_kind.push(NextEvent::Unplanned as u8);
         self.here.push(pos);
         self.chi_here.push(0.0);
         self.t_here.push(epoch);
-        self.lit_from.push(f64::NAN);
-        self.lit_until.push(f64::NAN);
+        self.lit_from.push(f64::INFINITY);
+        self.lit_until.push(f64::NEG_INFINITY);
         self.lit_start.push(0);
         self.toggles.push([f64::INFINITY; SHADOW_TOGGLES]);
         self.step_size.push(0.0);

@@ -8,11 +8,14 @@
 //!    path, the time and kind of its next event (landing or the outer
 //!    boundary) and the times it enters and leaves the shadow are solved
 //!    once, when it is launched or bounces (`plan`). A step then evaluates
-//!    only what it needs: the position at the step's end (one Kepler solve,
-//!    for the tallies and the loss records), the sunlit time of the step
-//!    from the known shadow times, and the event if it falls in the step.
-//!    With radiation pressure the integrator flies the step, starting from
-//!    the step size it reached in the previous step;
+//!    only what it needs: the particle's place at one time drawn uniformly
+//!    in its segment (one Kepler solve, started from the previous one's
+//!    anomaly: the sighting that the tallies score and the loss records
+//!    describe, `tally/sighting.rs`), the sunlit time of the segment from
+//!    the known shadow times, and the event if it falls in the step. The
+//!    state at the step's end is never needed. With radiation pressure the
+//!    integrator flies the step, starting from the step size it reached in
+//!    the previous step, and draws the sighting over its steps;
 //! 2. `ionize`: the loss modules give a rate for each flight segment; the
 //!    particle survives the segment with probability exp(-sum(beta) tau)
 //!    (analog Monte Carlo), and a particle that does not is booked whole to
@@ -25,8 +28,9 @@
 //!    or `bounce` and fly on within the step, which starts another round.
 //!
 //! Each chunk then moves its surviving particles to its front; the bank
-//! joins the chunks in order. Chunks return their books, which the step
-//! reduces in chunk order, so results do not depend on the thread count.
+//! joins the chunks in order. Chunks return their books and sightings,
+//! which the step reduces in chunk order, so results do not depend on the
+//! thread count.
 
 use exobound_sdk::{Impact, InFlight, Outcome, OutcomeKind, Rng, RngKey, flags, stream};
 use rayon::prelude::*;
@@ -536,7 +540,7 @@ impl StepContext<'_> {
         };
         chunk.next_kind[i] = kind as u8;
         chunk.next_event[i] = chunk.epoch[i] + t;
-        chunk.lit_from[i] = f64::NAN;
+        chunk.lit_from[i] = f64::INFINITY;
         if self.n_losses > 0 && kind != NextEvent::Unbound {
             let from = chunk.epoch[i];
             self.schedule_shadow(chunk, i, orbit, from, end.map(|(chi, _, r)| (chi, r)));

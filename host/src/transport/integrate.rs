@@ -898,4 +898,46 @@ mod tests {
         let ratio = e(400.0) / e(200.0);
         assert!(ratio > 24.0 && ratio < 45.0, "error-estimate ratio {ratio}");
     }
+
+    #[test]
+    fn the_sighting_is_uniform_over_the_time_flown() {
+        // A hop with no radiation pressure, flown for longer than it lasts:
+        // the reservoir-sampled sighting must be uniform over [0, landing
+        // time] (its mean 1/2 and variance 1/12 of the flight: moments of
+        // the uniform distribution), and lie on the Kepler path there.
+        let moon = Body::moon();
+        let (r0, v0) = launch(moon.radius, 0.3, 1.0, 1200.0, 0.9, 0.4);
+        let field = Field {
+            mu: moon.gm,
+            radius: moon.radius,
+            boundary_radius: 20.0 * moon.radius,
+            sun_dir: [1.0, 0.0, 0.0],
+            a_rad: 0.0,
+        };
+        let tol = Tolerance::relative(1e-10, moon.gm, moon.radius);
+        let orbit = Orbit::from_state(moon.gm, r0, v0);
+        let n = 4000;
+        let mut xs = Vec::with_capacity(n);
+        for k in 0..n {
+            let mut rng = Rng::new(exobound_sdk::RngKey {
+                seed: 5,
+                particle: k as u64,
+                event: 0,
+                stream: 0x84,
+            });
+            let f = fly_on(&field, r0, v0, 1.0e5, &tol, 0.0, Some(&mut rng));
+            let (t_land, ..) = landed(&f);
+            let s = f.sample.expect("a sampler gives a sample");
+            let (r_kepler, _) = orbit.propagate(s.t);
+            assert!(vec3::norm(vec3::sub(s.r, r_kepler)) < 1.0, "sighting off the path");
+            xs.push(s.t / t_land);
+        }
+        let mean = xs.iter().sum::<f64>() / n as f64;
+        let var = xs.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1) as f64;
+        // 4 standard errors: sd of the mean sqrt(1/12/n), of the variance
+        // about sqrt(1/180/n) for a uniform variable.
+        assert!((mean - 0.5).abs() < 4.0 * (1.0 / 12.0 / n as f64).sqrt(), "mean {mean}");
+        assert!((var - 1.0 / 12.0).abs() < 4.0 * (1.0 / 180.0 / n as f64).sqrt(), "var {var}");
+        assert!(xs.iter().all(|&x| (0.0..=1.0).contains(&x)));
+    }
 }
