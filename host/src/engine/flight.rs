@@ -37,7 +37,7 @@ use rayon::prelude::*;
 
 use super::{EngineError, Simulation, WorkerSet, call};
 use crate::particles::{Chunk, NextEvent, SHADOW_TOGGLES};
-use crate::tally::{LedgerRow, Sighting, Tally};
+use crate::tally::{DensityTally, LedgerRow, Sighting, Tally};
 use crate::transport::integrate::{self, FlightEnd};
 use crate::transport::kepler::{Direction, Orbit};
 use crate::transport::{frames, shadow};
@@ -65,6 +65,7 @@ pub(super) struct StepContext<'a> {
     config: &'a super::RunConfig,
     processes: &'a super::Processes,
     workers: &'a std::sync::Mutex<Vec<WorkerSet>>,
+    tally: &'a DensityTally,
     t_end: f64,
     sun_dir: Vec3,
     r_au: f64,
@@ -89,6 +90,8 @@ pub(super) struct ChunkBooks {
     kept: usize,
     /// Every sighting of the chunk's particles in this step, in order.
     sightings: Vec<Sighting>,
+    /// Where each sighting falls in the density tally (found on the chunk's thread).
+    places: Vec<<DensityTally as Tally>::Place>,
 }
 
 /// How a flight segment ended.
@@ -190,6 +193,7 @@ impl Simulation {
                 config: &self.config,
                 processes: &self.processes,
                 workers: &self.workers,
+                tally: &self.tally,
                 t_end,
                 sun_dir: ctx_values.0,
                 r_au,
@@ -225,8 +229,8 @@ impl Simulation {
                         self.maps.lost_above[c as usize] += w;
                     }
                     kept.push(b.kept);
-                    for sight in &b.sightings {
-                        self.tally.score(sight, self.config.dt);
+                    for (sight, &place) in b.sightings.iter().zip(&b.places) {
+                        self.tally.score(place, sight, self.config.dt);
                         if sight.sunlit {
                             sunlit += sight.weight * sight.dwell / self.config.dt;
                         }
@@ -279,6 +283,7 @@ impl StepContext<'_> {
         }
         let mut books = result?;
         books.kept = chunk.compact_front();
+        books.places = books.sightings.iter().map(|s| self.tally.place(s)).collect();
         Ok(books)
     }
 

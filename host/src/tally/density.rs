@@ -186,9 +186,15 @@ impl DensityTally {
 }
 
 impl super::Tally for DensityTally {
-    fn score(&mut self, s: &super::Sighting, dt: f64) {
+    /// (density bin if inside the altitude range, column).
+    type Place = (Option<usize>, usize);
+
+    fn place(&self, s: &super::Sighting) -> Self::Place {
         let column = self.column_of(s.local_time, s.latitude);
-        let bin = self.bin_of(s.altitude, column);
+        (self.bin_of(s.altitude, column), column)
+    }
+
+    fn score(&mut self, (bin, column): Self::Place, s: &super::Sighting, dt: f64) {
         self.add(bin, column, s.weight * s.dwell / dt);
     }
 

@@ -44,9 +44,18 @@ pub struct Sighting {
 }
 
 /// Something that counts sightings: one filter, estimator and score.
-pub trait Tally {
-    /// Count one sighting from a step of `dt` s.
-    fn score(&mut self, s: &Sighting, dt: f64);
+///
+/// Placing a sighting (finding its bin) reads the tally only, so the
+/// engine does it on the flight's threads; scoring adds to the tally, which
+/// the engine does serially in chunk order, so that sums do not depend on
+/// the thread count.
+pub trait Tally: Sync {
+    /// Where a sighting falls in this tally.
+    type Place: Send + Copy;
+    /// Place one sighting.
+    fn place(&self, s: &Sighting) -> Self::Place;
+    /// Count one sighting at its `place`, from a step of `dt` s.
+    fn score(&mut self, place: Self::Place, s: &Sighting, dt: f64);
     /// Close the step.
     fn end_step(&mut self);
 }
