@@ -166,13 +166,13 @@ mod tests {
         let mut r = rng(1);
         let mut v: Vec<f64> = (0..n).map(|_| r.maxwellian_flux_speed(t, m)).collect();
         let a = thermal_speed(t, m);
-        // check-values §6: Na at 1200 K has a = 931.66 m/s (C, scipy chi(df=4)).
+        // Maxwellian flux, a = sqrt(2kT/m): Na at 1200 K has a = 931.66 m/s (tests/python/sampler_reference_values.py, scipy.stats.chi(df=4)).
         assert!((a - 931.66).abs() < 0.01);
         let mean = v.iter().sum::<f64>() / n as f64;
-        // <v> = (3 sqrt(pi)/4) a = 1238.49 m/s (check-values §6, C).
+        // <v> = (3 sqrt(pi)/4) a = 1238.49 m/s (Maxwellian flux moments, textbook; tests/python/sampler_reference_values.py).
         let sd = a * (2.0 - (0.75 * core::f64::consts::PI.sqrt()).powi(2)).sqrt();
         assert!((mean - 1238.49).abs() < 3.0 * sd / (n as f64).sqrt(), "mean {mean}");
-        // CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2) (check-values §6).
+        // CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2) (Maxwellian flux distribution, textbook).
         let d = ks_distance(&mut v, |x| {
             let q = x * x / (a * a);
             1.0 - (1.0 + q) * (-q).exp()
@@ -222,12 +222,14 @@ mod tests {
         let u = 0.27;
         let mut r = rng(5);
         let mut e: Vec<f64> = (0..n).map(|_| r.sigmund_thompson_energy(u, f64::INFINITY)).collect();
-        // CDF = E^2/(E+U)^2; median (1 + sqrt 2) U = 0.65184 eV (check-values §6, C).
+        // CDF = E^2/(E+U)^2; median (1 + sqrt 2) U = 0.65184 eV (Sigmund 1969 / Thompson 1968
+        // energy distribution; tests/python/sampler_reference_values.py, scipy.stats.betaprime(2, 1)).
         let d = ks_distance(&mut e, |x| (x / (x + u)).powi(2));
         assert!(d < KS_1PC / (n as f64).sqrt());
         let median = e[n / 2];
         assert!((median - 0.65184).abs() < 0.01, "median {median}");
-        // With a hard cutoff at 2.7 eV the mean is 0.70278 eV (check-values §6, C).
+        // With a hard cutoff at 2.7 eV the mean is 0.70278 eV (quadrature of the
+        // truncated distribution, tests/python/sampler_reference_values.py).
         let xs: Vec<f64> = (0..n).map(|_| r.sigmund_thompson_energy(u, 2.7)).collect();
         let mean = xs.iter().sum::<f64>() / n as f64;
         let sd = (xs.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / n as f64).sqrt();

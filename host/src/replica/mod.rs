@@ -385,7 +385,7 @@ mod tests {
     #[test]
     fn mix64_matches_the_reference_splitmix64() {
         // The first three outputs of Vigna's splitmix64.c seeded with 0,
-        // computed with an independent Python transcription of that file
+        // computed with an independent Python re-implementation of that file
         // (arbitrary-precision integers masked to 64 bits).
         let mut state: u64 = 0;
         let mut next = || {

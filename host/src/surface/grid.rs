@@ -114,7 +114,7 @@ mod tests {
 
     #[test]
     fn areas_sum_to_the_sphere() {
-        // Surface of a sphere 4 pi R^2 (textbook); Moon radius 1737.4 km (check-values §1).
+        // Surface of a sphere 4 pi R^2 (textbook); Moon radius 1737.4 km (JPL planetary and satellite physical parameters, DE440).
         let g = Grid::new(36, 72, 1.7374e6).unwrap();
         let total: f64 = (0..g.len()).map(|c| g.area_m2(c)).sum();
         let sphere = 4.0 * PI * 1.7374e6f64.powi(2);

@@ -54,7 +54,7 @@ mod tests {
     fn matches_worked_values() {
         let moon = TemperatureLaw { night: 100.0, subsolar: 390.0, reference_distance: 1.0 };
         let c = |deg: f64| deg.to_radians().cos();
-        // check-values §7, surface temperature (M: Butler 1997; C): Moon 390/100 K.
+        // Butler (1997), cos^(1/4) surface temperature law, from memory; Moon 390/100 K.
         assert!((moon.at(c(60.0), 1.0) - 343.9).abs() < 0.05);
         assert!((moon.at(c(80.0), 1.0) - 287.2).abs() < 0.05);
         // Mercury at perihelion 700/100 K: 604.5 K and 487.3 K.

@@ -601,7 +601,7 @@ mod tests {
     #[test]
     fn without_radiation_it_reproduces_kepler() {
         // Independent check: the closed-form hop (kepler.rs, itself checked
-        // against check-values §5) vs the integrator, to ~1e-8.
+        // against the range equation, Bate, Mueller & White 1971, Fundamentals of Astrodynamics, ch. 6, from memory) vs the integrator, to ~1e-8.
         let moon = Body::moon();
         let sun = [1.0, 0.0, 0.0];
         for &(v, el) in &[
@@ -619,7 +619,7 @@ mod tests {
                 .unwrap();
             assert!(rel(t, c.t) < 1e-8, "v {v} el {el}: {t} vs {}", c.t);
             assert!(vec3::norm(vec3::sub(r, c.r)) < 1e-8 * moon.radius, "v {v} el {el}");
-            // check-values §5 (C): TOF of the range equation.
+            // Bate, Mueller & White (1971) ch. 6, from memory: TOF of the range equation.
             let hop = ballistic_hop(moon.gm, moon.radius, v, el).unwrap();
             assert!(rel(t, hop.time_of_flight) < 1e-8);
         }
@@ -791,7 +791,7 @@ mod tests {
     #[test]
     fn very_short_hops_from_the_surface_are_not_landed_at_once() {
         // A 0.05 m/s launch at 10 deg flies for 2 v sin(el)/g ~ 0.011 s
-        // (flat-gravity limit, check-values §5); it must not end at t = 0.
+        // (flat-gravity limit of the range equation, Bate, Mueller & White 1971 ch. 6); it must not end at t = 0.
         let moon = Body::moon();
         for el in [0.17, 1.2] {
             let (r0, v0) = launch(moon.radius * (1.0 - 1e-16), 0.3, 0.3, 0.05, el, 0.0);

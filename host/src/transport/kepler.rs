@@ -483,7 +483,7 @@ fn atanh(x: f64) -> f64 {
 /// unbound (speed >= escape speed) or points below the horizontal.
 ///
 /// Free-flight range equation (Bate, Mueller & White ch. 6, from memory;
-/// check-values §5), with nu = v^2 R / mu and launch elevation el:
+/// Bate, Mueller & White 1971, ch. 6, from memory), with nu = v^2 R / mu and launch elevation el:
 /// e sin(nu_L) = nu sin el cos el and e cos(nu_L) = nu cos^2 el - 1 at the
 /// launch true anomaly nu_L, so the range angle is
 /// Psi = 2 atan2(nu sin el cos el, 1 - nu cos^2 el) (the same as
@@ -591,7 +591,9 @@ mod tests {
         let moon = Body::moon();
         let mercury = Body::mercury();
         let cases = [
-            // check-values §5, C (range equation, Bate, Mueller & White ch. 6, M):
+            // Range equation (Bate, Mueller & White 1971, ch. 6, from memory),
+            // evaluated and cross-checked by integration in
+            // tests/python/hop_reference_values.py:
             // (body, v, Psi rad, range km, TOF s, h_max km, printed decimals).
             (&moon, 1000.0, 0.424201, 737.01, 1211.59, 206.98, 2),
             (&moon, 2000.0, 2.361757, 4103.3, 12978.2, 3530.5, 1),
@@ -600,7 +602,7 @@ mod tests {
         for (body, v, psi, range_km, tof, hmax_km, dec) in cases {
             let hop = ballistic_hop(body.gm, body.radius, v, FRAC_PI_4).unwrap();
             let half_unit = 0.5 * 10f64.powi(-dec);
-            // check-values §5, C: to the printed precision.
+            // Range equation (Bate, Mueller & White 1971, ch. 6): to the printed precision.
             assert!((hop.range_angle - psi).abs() <= 5e-7, "{} {v}", body.name);
             assert!((hop.surface_range(body.radius) / 1e3 - range_km).abs() <= half_unit);
             assert!((hop.time_of_flight - tof).abs() <= half_unit);
@@ -614,7 +616,7 @@ mod tests {
     #[test]
     fn orbit_reproduces_the_range_equation() {
         // Self-consistency: time_to_radius + propagate vs the range equation
-        // (check-values §5; two independent routes through Kepler's laws).
+        // (Bate, Mueller & White 1971, ch. 6; two independent routes through Kepler's laws).
         for body in [Body::moon(), Body::mercury()] {
             for &v_frac in &[0.01, 0.2, 0.42, 0.7, 0.9, 0.99] {
                 for &el in &[0.02, 0.3, FRAC_PI_4, 1.2, 1.5, FRAC_PI_2] {
@@ -654,7 +656,7 @@ mod tests {
 
     #[test]
     fn flat_gravity_limit() {
-        // check-values §5: flat-gravity range v^2 sin(2 el)/g, TOF 2 v sin(el)/g,
+        // Flat-gravity limit of the range equation (textbook projectile motion): range v^2 sin(2 el)/g, TOF 2 v sin(el)/g,
         // h_max v^2 sin^2(el)/(2g) are the nu -> 0 limits; corrections are O(nu).
         let moon = Body::moon();
         let g = moon.surface_gravity();
@@ -676,7 +678,7 @@ mod tests {
             assert!(worst < last);
             last = worst;
         }
-        // check-values §5 (C): the printed flat-gravity values for Moon 1 km/s 45 deg.
+        // Flat-gravity projectile values for the Moon at 1 km/s, 45 deg (textbook formulas, evaluated).
         let v: f64 = 1000.0;
         assert!((v * v / g / 1e3 - 615.68).abs() < 0.005);
         assert!((2.0 * v * FRAC_PI_4.sin() / g - 870.70).abs() < 0.005);
@@ -742,7 +744,7 @@ mod tests {
         let o = Orbit::from_state(moon.gm, r0, [-10.0, 300.0, 0.0]);
         assert_eq!(o.time_to_radius(moon.radius, Direction::Descending), Some(0.0));
         // Upward from a radius one rounding error below or above the surface:
-        // still the full hop (check-values §5 range equation as the reference).
+        // still the full hop (the range equation of Bate, Mueller & White 1971, ch. 6, as the reference).
         let hop = ballistic_hop(moon.gm, moon.radius, 800.0, 0.9).unwrap();
         for fuzz in [1.0 - 2e-16, 1.0, 1.0 + 2e-16] {
             let (r, v) = launch(moon.radius * fuzz, 800.0, 0.9, 0.0);
