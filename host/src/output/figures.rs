@@ -4,7 +4,9 @@
 //! Why this exists: the first look at a run is a picture. This module
 //! chooses what each figure shows (units in every label, the subsolar
 //! point and terminators marked, cos and cos^2 references on the latitude
-//! profile); the drawing is in the `exobound-products` crate.
+//! profile); the drawing is in the `exobound-products` crate. The figure
+//! specifications are built by the `*_plot`/`*_map` functions here, which
+//! the merged replica set (`replica::figures`) draws from as well.
 
 use std::path::Path;
 
@@ -16,12 +18,12 @@ use crate::engine::Simulation;
 use crate::scenario::Scenario;
 
 /// Edges `lo..hi` in `n` equal bins.
-fn edges(lo: f64, hi: f64, n: usize) -> Vec<f64> {
+pub(crate) fn edges(lo: f64, hi: f64, n: usize) -> Vec<f64> {
     (0..=n).map(|k| lo + (hi - lo) * k as f64 / n as f64).collect()
 }
 
 /// Transpose a `[x][y]` array (nx, ny) to `[y][x]`.
-fn transpose(v: &[f64], nx: usize, ny: usize) -> Vec<f64> {
+pub(crate) fn transpose(v: &[f64], nx: usize, ny: usize) -> Vec<f64> {
     let mut out = vec![0.0; nx * ny];
     for i in 0..nx {
         for j in 0..ny {
@@ -29,6 +31,220 @@ fn transpose(v: &[f64], nx: usize, ny: usize) -> Vec<f64> {
         }
     }
     out
+}
+
+/// Missing errors drawn as no bar.
+pub(crate) fn bars(e: &[f64]) -> Vec<f64> {
+    e.iter().map(|x| if x.is_finite() { *x } else { 0.0 }).collect()
+}
+
+fn lt_ticks() -> Option<Vec<f64>> {
+    Some(vec![0.0, 3.0, 6.0, 9.0, 12.0, 15.0, 18.0, 21.0, 24.0])
+}
+
+fn lat_ticks() -> Option<Vec<f64>> {
+    Some(vec![-90.0, -60.0, -30.0, 0.0, 30.0, 60.0, 90.0])
+}
+
+/// The column map over local time x latitude; `column` (atoms cm^-2) in
+/// `[local time][latitude]` order.
+pub(crate) fn column_map(title: String, n_lt: usize, n_lat: usize, column: &[f64]) -> MapPlot {
+    MapPlot {
+        title,
+        x_label: "local time (h)".into(),
+        y_label: "latitude (deg)".into(),
+        x_edges: edges(0.0, 24.0, n_lt),
+        y_edges: edges(-90.0, 90.0, n_lat),
+        values: transpose(column, n_lt, n_lat),
+        colour_label: "column (atoms cm^-2)".into(),
+        log_scale: true,
+        x_ticks: lt_ticks(),
+        y_ticks: lat_ticks(),
+    }
+}
+
+/// The reservoir map over longitude x latitude; `reservoir` (atoms cm^-2)
+/// in `[longitude][latitude]` order, `gm` x `gl` cells; a log scale when it
+/// spans more than two decades.
+pub(crate) fn reservoir_map(title: String, gm: usize, gl: usize, reservoir: &[f64]) -> MapPlot {
+    let res = transpose(reservoir, gm, gl);
+    let positive: Vec<f64> = res.iter().copied().filter(|v| *v > 0.0).collect();
+    let (lo, hi) =
+        positive.iter().fold((f64::INFINITY, 0.0f64), |(lo, hi), &v| (lo.min(v), hi.max(v)));
+    MapPlot {
+        title,
+        x_label: "east longitude (deg)".into(),
+        y_label: "latitude (deg)".into(),
+        x_edges: edges(0.0, 360.0, gm),
+        y_edges: edges(-90.0, 90.0, gl),
+        values: res,
+        colour_label: "surface density (atoms cm^-2)".into(),
+        log_scale: !positive.is_empty() && hi > 100.0 * lo,
+        x_ticks: Some(vec![0.0, 60.0, 120.0, 180.0, 240.0, 300.0, 360.0]),
+        y_ticks: lat_ticks(),
+    }
+}
+
+/// The equatorial column (atoms cm^-2) by local time (h), with error bars
+/// and the terminators and subsolar point marked.
+pub(crate) fn equator_plot(
+    title: String,
+    label: String,
+    local_time_h: Vec<f64>,
+    column: Vec<f64>,
+    error: &[f64],
+) -> LinePlot {
+    LinePlot {
+        title,
+        x_label: "local time (h)".into(),
+        y_label: "column (atoms cm^-2)".into(),
+        lines: vec![Line {
+            label,
+            x: local_time_h,
+            y: column,
+            y_err: Some(bars(error)),
+            style: LineStyle::Points,
+        }],
+        markers: vec![
+            Marker { x: 6.0, label: "dawn terminator".into() },
+            Marker { x: 12.0, label: "subsolar".into() },
+            Marker { x: 18.0, label: "dusk terminator".into() },
+        ],
+        log_y: false,
+        x_range: Some((0.0, 24.0)),
+        x_ticks: lt_ticks(),
+    }
+}
+
+/// The dayside column (atoms cm^-2) by latitude (deg), with error bars and
+/// cos and cos^2 references scaled to the equatorial value.
+pub(crate) fn latitude_plot(
+    title: String,
+    label: String,
+    latitude_deg: Vec<f64>,
+    column: Vec<f64>,
+    error: &[f64],
+) -> LinePlot {
+    let eq_bins = crate::tally::profiles::equatorial_bins(column.len(), 1e-9);
+    let n0 = eq_bins.iter().map(|&j| column[j]).sum::<f64>() / eq_bins.len() as f64;
+    let fine: Vec<f64> = (0..=180).map(|k| -90.0 + k as f64).collect();
+    LinePlot {
+        title,
+        x_label: "latitude (deg)".into(),
+        y_label: "column (atoms cm^-2)".into(),
+        lines: vec![
+            Line {
+                label,
+                x: latitude_deg,
+                y: column,
+                y_err: Some(bars(error)),
+                style: LineStyle::Points,
+            },
+            Line {
+                label: "N_eq cos(lat)".into(),
+                x: fine.clone(),
+                y: fine.iter().map(|l| n0 * l.to_radians().cos()).collect(),
+                y_err: None,
+                style: LineStyle::Dashed,
+            },
+            Line {
+                label: "N_eq cos^2(lat)".into(),
+                x: fine.clone(),
+                y: fine.iter().map(|l| n0 * l.to_radians().cos().powi(2)).collect(),
+                y_err: None,
+                style: LineStyle::Dotted,
+            },
+        ],
+        markers: vec![],
+        log_y: false,
+        x_range: Some((-90.0, 90.0)),
+        x_ticks: lat_ticks(),
+    }
+}
+
+/// Ledger series (atoms) over simulated time, for [`ledger_plot`].
+pub(crate) struct LedgerSeries {
+    /// Simulated time at each step's end, d.
+    pub days: Vec<f64>,
+    /// Atoms in flight.
+    pub in_flight: Vec<f64>,
+    /// Atoms adsorbed.
+    pub adsorbed: Vec<f64>,
+    /// Atoms supplied from the bulk per step.
+    pub supplied: Vec<f64>,
+    /// Atoms lost in flight per step, all losses.
+    pub lost: Vec<f64>,
+    /// Atoms escaped per step.
+    pub escaped: Vec<f64>,
+}
+
+/// The ledger over the run: stocks, and cumulative flows; the end of the
+/// spin-up (d) marked when positive.
+pub(crate) fn ledger_plot(title: String, l: LedgerSeries, spin_up_days: f64) -> LinePlot {
+    let cumulative = |xs: Vec<f64>| -> Vec<f64> {
+        let mut acc = 0.0;
+        xs.into_iter()
+            .map(|x| {
+                acc += x;
+                acc
+            })
+            .collect()
+    };
+    let mut markers = Vec::new();
+    if spin_up_days > 0.0 {
+        markers.push(Marker { x: spin_up_days, label: "end of spin-up".into() });
+    }
+    let days = l.days;
+    let line = |label: &str, y: Vec<f64>, style| Line {
+        label: label.into(),
+        x: days.clone(),
+        y,
+        y_err: None,
+        style,
+    };
+    LinePlot {
+        title,
+        x_label: "simulated time (d)".into(),
+        y_label: "atoms".into(),
+        lines: vec![
+            line("in flight", l.in_flight, LineStyle::Solid),
+            line("adsorbed", l.adsorbed, LineStyle::Solid),
+            line("supplied from bulk (cumulative)", cumulative(l.supplied), LineStyle::Dashed),
+            line("lost in flight (cumulative)", cumulative(l.lost), LineStyle::Dashed),
+            line("escaped (cumulative)", cumulative(l.escaped), LineStyle::Dotted),
+        ],
+        markers,
+        log_y: true,
+        x_range: None,
+        x_ticks: None,
+    }
+}
+
+/// The equatorial column peak's shift (deg, negative = dawn) window by
+/// window, against the window's middle (d), with error bars if given.
+pub(crate) fn shift_plot(
+    title: String,
+    label: String,
+    mid_days: Vec<f64>,
+    shift_deg: Vec<f64>,
+    error: Option<&[f64]>,
+) -> LinePlot {
+    LinePlot {
+        title,
+        x_label: "simulated time at the window's middle (d)".into(),
+        y_label: "shift from the subsolar point (deg, negative = dawn)".into(),
+        lines: vec![Line {
+            label,
+            x: mid_days,
+            y: shift_deg,
+            y_err: error.map(bars),
+            style: LineStyle::Points,
+        }],
+        markers: vec![],
+        log_y: false,
+        x_range: None,
+        x_ticks: None,
+    }
 }
 
 /// Draw every plot into `dir`.
@@ -44,209 +260,61 @@ pub fn draw_all(
     let body = &scenario.model.body.name;
     let (n_lt, n_lat) = (f.local_time_h.len(), f.latitude_deg.len());
     let e = |r: Result<(), exobound_products::ProductError>| r.map_err(|e| e.to_string());
-    let lt_ticks = Some(vec![0.0, 3.0, 6.0, 9.0, 12.0, 15.0, 18.0, 21.0, 24.0]);
-    let lat_ticks = Some(vec![-90.0, -60.0, -30.0, 0.0, 30.0, 60.0, 90.0]);
-
-    e(draw_map(
-        &MapPlot {
-            title: format!("{sp} column density at {body}, run average"),
-            x_label: "local time (h)".into(),
-            y_label: "latitude (deg)".into(),
-            x_edges: edges(0.0, 24.0, n_lt),
-            y_edges: edges(-90.0, 90.0, n_lat),
-            values: transpose(&f.column, n_lt, n_lat),
-            colour_label: "column (atoms cm^-2)".into(),
-            log_scale: true,
-            x_ticks: lt_ticks.clone(),
-            y_ticks: lat_ticks.clone(),
-        },
-        &dir.join("column_map.png"),
-    ))?;
-
+    let title = format!("{sp} column density at {body}, run average");
+    e(draw_map(&column_map(title, n_lt, n_lat, &f.column), &dir.join("column_map.png")))?;
     let (gl, gm) = (f.grid_latitude_deg.len(), f.grid_longitude_deg.len());
-    let res = transpose(&f.reservoir, gm, gl);
-    let positive: Vec<f64> = res.iter().copied().filter(|v| *v > 0.0).collect();
-    let (lo, hi) =
-        positive.iter().fold((f64::INFINITY, 0.0f64), |(lo, hi), &v| (lo.min(v), hi.max(v)));
-    e(draw_map(
-        &MapPlot {
-            title: format!("adsorbed {sp} reservoir at the end of the run"),
-            x_label: "east longitude (deg)".into(),
-            y_label: "latitude (deg)".into(),
-            x_edges: edges(0.0, 360.0, gm),
-            y_edges: edges(-90.0, 90.0, gl),
-            values: res,
-            colour_label: "surface density (atoms cm^-2)".into(),
-            log_scale: !positive.is_empty() && hi > 100.0 * lo,
-            x_ticks: Some(vec![0.0, 60.0, 120.0, 180.0, 240.0, 300.0, 360.0]),
-            y_ticks: lat_ticks,
-        },
-        &dir.join("reservoir_map.png"),
-    ))?;
-
+    let title = format!("adsorbed {sp} reservoir at the end of the run");
+    e(draw_map(&reservoir_map(title, gm, gl, &f.reservoir), &dir.join("reservoir_map.png")))?;
+    let label = format!(
+        "|lat| < {:.0} deg, +-1 s.e. over {} windows",
+        scenario.plan.equator_band.to_degrees(),
+        f.windows
+    );
     e(draw_lines(
-        &LinePlot {
-            title: format!("equatorial {sp} column by local time"),
-            x_label: "local time (h)".into(),
-            y_label: "column (atoms cm^-2)".into(),
-            lines: vec![Line {
-                label: format!(
-                    "|lat| < {:.0} deg, +-1 s.e. over {} windows",
-                    scenario.plan.equator_band.to_degrees(),
-                    f.windows
-                ),
-                x: f.local_time_h.clone(),
-                y: f.equator_profile.clone(),
-                y_err: Some(
-                    f.equator_error.iter().map(|x| if x.is_finite() { *x } else { 0.0 }).collect(),
-                ),
-                style: LineStyle::Points,
-            }],
-            markers: vec![
-                Marker { x: 6.0, label: "dawn terminator".into() },
-                Marker { x: 12.0, label: "subsolar".into() },
-                Marker { x: 18.0, label: "dusk terminator".into() },
-            ],
-            log_y: false,
-            x_range: Some((0.0, 24.0)),
-            x_ticks: lt_ticks,
-        },
+        &equator_plot(
+            format!("equatorial {sp} column by local time"),
+            label,
+            f.local_time_h.clone(),
+            f.equator_profile.clone(),
+            &f.equator_error,
+        ),
         &dir.join("equator_local_time.png"),
     ))?;
-
-    // cos and cos^2 references scaled to the equatorial value.
-    let eq_bins = crate::tally::profiles::equatorial_bins(n_lat, 1e-9);
-    let n0 = eq_bins.iter().map(|&j| f.latitude_profile[j]).sum::<f64>() / eq_bins.len() as f64;
-    let fine: Vec<f64> = (0..=180).map(|k| -90.0 + k as f64).collect();
     e(draw_lines(
-        &LinePlot {
-            title: format!("dayside {sp} column by latitude (6-18 h)"),
-            x_label: "latitude (deg)".into(),
-            y_label: "column (atoms cm^-2)".into(),
-            lines: vec![
-                Line {
-                    label: "model, +-1 s.e.".into(),
-                    x: f.latitude_deg.clone(),
-                    y: f.latitude_profile.clone(),
-                    y_err: Some(
-                        f.latitude_error
-                            .iter()
-                            .map(|x| if x.is_finite() { *x } else { 0.0 })
-                            .collect(),
-                    ),
-                    style: LineStyle::Points,
-                },
-                Line {
-                    label: "N_eq cos(lat)".into(),
-                    x: fine.clone(),
-                    y: fine.iter().map(|l| n0 * l.to_radians().cos()).collect(),
-                    y_err: None,
-                    style: LineStyle::Dashed,
-                },
-                Line {
-                    label: "N_eq cos^2(lat)".into(),
-                    x: fine.clone(),
-                    y: fine.iter().map(|l| n0 * l.to_radians().cos().powi(2)).collect(),
-                    y_err: None,
-                    style: LineStyle::Dotted,
-                },
-            ],
-            markers: vec![],
-            log_y: false,
-            x_range: Some((-90.0, 90.0)),
-            x_ticks: Some(vec![-90.0, -60.0, -30.0, 0.0, 30.0, 60.0, 90.0]),
-        },
+        &latitude_plot(
+            format!("dayside {sp} column by latitude (6-18 h)"),
+            "model, +-1 s.e.".into(),
+            f.latitude_deg.clone(),
+            f.latitude_profile.clone(),
+            &f.latitude_error,
+        ),
         &dir.join("latitude_profile.png"),
     ))?;
-
     let rows = &sim.ledger().rows;
-    let days: Vec<f64> = rows.iter().map(|r| r.time / 86_400.0).collect();
-    let cumulative = |pick: &dyn Fn(&crate::tally::LedgerRow) -> f64| {
-        let mut acc = 0.0;
-        rows.iter()
-            .map(|r| {
-                acc += pick(r);
-                acc
-            })
-            .collect::<Vec<f64>>()
+    let pick = |p: &dyn Fn(&crate::tally::LedgerRow) -> f64| rows.iter().map(p).collect();
+    let series = LedgerSeries {
+        days: pick(&|r| r.time / 86_400.0),
+        in_flight: pick(&|r| r.in_flight),
+        adsorbed: pick(&|r| r.adsorbed),
+        supplied: pick(&|r| r.supplied_from_bulk),
+        lost: pick(&|r| r.losses.iter().sum()),
+        escaped: pick(&|r| r.escaped),
     };
     let spin_up_days = scenario.plan.spin_up_steps as f64 * scenario.config.dt / 86_400.0;
-    let mut markers = Vec::new();
-    if spin_up_days > 0.0 {
-        markers.push(Marker { x: spin_up_days, label: "end of spin-up".into() });
-    }
-    e(draw_lines(
-        &LinePlot {
-            title: format!("{sp} ledger over the run"),
-            x_label: "simulated time (d)".into(),
-            y_label: "atoms".into(),
-            lines: vec![
-                Line {
-                    label: "in flight".into(),
-                    x: days.clone(),
-                    y: rows.iter().map(|r| r.in_flight).collect(),
-                    y_err: None,
-                    style: LineStyle::Solid,
-                },
-                Line {
-                    label: "adsorbed".into(),
-                    x: days.clone(),
-                    y: rows.iter().map(|r| r.adsorbed).collect(),
-                    y_err: None,
-                    style: LineStyle::Solid,
-                },
-                Line {
-                    label: "supplied from bulk (cumulative)".into(),
-                    x: days.clone(),
-                    y: cumulative(&|r| r.supplied_from_bulk),
-                    y_err: None,
-                    style: LineStyle::Dashed,
-                },
-                Line {
-                    label: "lost in flight (cumulative)".into(),
-                    x: days.clone(),
-                    y: cumulative(&|r| r.losses.iter().sum()),
-                    y_err: None,
-                    style: LineStyle::Dashed,
-                },
-                Line {
-                    label: "escaped (cumulative)".into(),
-                    x: days.clone(),
-                    y: cumulative(&|r| r.escaped),
-                    y_err: None,
-                    style: LineStyle::Dotted,
-                },
-            ],
-            markers,
-            log_y: true,
-            x_range: None,
-            x_ticks: None,
-        },
-        &dir.join("ledger.png"),
-    ))?;
-
+    let title = format!("{sp} ledger over the run");
+    e(draw_lines(&ledger_plot(title, series, spin_up_days), &dir.join("ledger.png")))?;
     // Phase-resolved shape measures: the peak shift window by window.
     let win: Vec<&crate::driver::windows::WindowRecord> =
         record.windows.iter().filter(|w| !w.spin_up).collect();
     if !win.is_empty() {
-        let mid: Vec<f64> = win.iter().map(|w| 0.5 * (w.start + w.end) / 86_400.0).collect();
         e(draw_lines(
-            &LinePlot {
-                title: format!("{sp} equatorial column peak shift, window by window"),
-                x_label: "simulated time at the window's middle (d)".into(),
-                y_label: "shift from the subsolar point (deg, negative = dawn)".into(),
-                lines: vec![Line {
-                    label: "per averaging window".into(),
-                    x: mid,
-                    y: win.iter().map(|w| w.shift_deg).collect(),
-                    y_err: None,
-                    style: LineStyle::Points,
-                }],
-                markers: vec![],
-                log_y: false,
-                x_range: None,
-                x_ticks: None,
-            },
+            &shift_plot(
+                format!("{sp} equatorial column peak shift, window by window"),
+                "per averaging window".into(),
+                win.iter().map(|w| 0.5 * (w.start + w.end) / 86_400.0).collect(),
+                win.iter().map(|w| w.shift_deg).collect(),
+                None,
+            ),
             &dir.join("phase_series.png"),
         ))?;
     }

@@ -4,39 +4,20 @@
 //! Why this exists: a run's figures are drawn from its engine state
 //! (`output::figures`), which a merge does not have; a merged directory
 //! should still open with the same six pictures. They are drawn here from
-//! the merged NetCDF fields and CSV tables with the same drawing code
-//! (`exobound-products`), the same axes and units, titles that say they
+//! the merged NetCDF fields and CSV tables with the run's own figure
+//! specifications (`output::figures`), the same axes and units, titles that say they
 //! show a mean of replicas, and error bars of one standard error between
 //! replicas.
 
 use std::path::Path;
 
-use exobound_products::{Line, LinePlot, LineStyle, MapPlot, Marker, draw_lines, draw_map};
+use exobound_products::{draw_lines, draw_map};
 
 use super::merge::Merged;
 use super::tables::Table;
-use crate::tally::profiles;
-
-/// Edges `lo..hi` in `n` equal bins.
-fn edges(lo: f64, hi: f64, n: usize) -> Vec<f64> {
-    (0..=n).map(|k| lo + (hi - lo) * k as f64 / n as f64).collect()
-}
-
-/// Transpose a `[x][y]` array (nx, ny) to `[y][x]`.
-fn transpose(v: &[f64], nx: usize, ny: usize) -> Vec<f64> {
-    let mut out = vec![0.0; nx * ny];
-    for i in 0..nx {
-        for j in 0..ny {
-            out[j * nx + i] = v[i * ny + j];
-        }
-    }
-    out
-}
-
-/// Missing errors drawn as no bar.
-fn bars(e: &[f64]) -> Vec<f64> {
-    e.iter().map(|x| if x.is_finite() { *x } else { 0.0 }).collect()
-}
+use crate::output::figures::{
+    LedgerSeries, column_map, equator_plot, latitude_plot, ledger_plot, reservoir_map, shift_plot,
+};
 
 /// Column `name` of `t`, or an error naming the table.
 fn col(t: &Table, file: &str, name: &str) -> Result<Vec<f64>, String> {
@@ -63,118 +44,44 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
         .map_or(0, Vec::len);
     let of = format!("mean of {count} replicas");
     let e = |r: Result<(), exobound_products::ProductError>| r.map_err(|e| e.to_string());
-    let lt_ticks = Some(vec![0.0, 3.0, 6.0, 9.0, 12.0, 15.0, 18.0, 21.0, 24.0]);
-    let lat_ticks = Some(vec![-90.0, -60.0, -30.0, 0.0, 30.0, 60.0, 90.0]);
     let mut files = Vec::new();
     let mut done = |name: &str| files.push(format!("plots/{name}"));
 
     let (n_lt, n_lat) = (var("local_time")?.len(), var("latitude")?.len());
-    e(draw_map(
-        &MapPlot {
-            title: format!("{sp} column density at {body}, run average, {of}"),
-            x_label: "local time (h)".into(),
-            y_label: "latitude (deg)".into(),
-            x_edges: edges(0.0, 24.0, n_lt),
-            y_edges: edges(-90.0, 90.0, n_lat),
-            values: transpose(&var("column")?, n_lt, n_lat),
-            colour_label: "column (atoms cm^-2)".into(),
-            log_scale: true,
-            x_ticks: lt_ticks.clone(),
-            y_ticks: lat_ticks.clone(),
-        },
-        &dir.join("column_map.png"),
-    ))?;
+    let title = format!("{sp} column density at {body}, run average, {of}");
+    e(draw_map(&column_map(title, n_lt, n_lat, &var("column")?), &dir.join("column_map.png")))?;
     done("column_map.png");
 
     let (gm, gl) = (var("cell_longitude")?.len(), var("cell_latitude")?.len());
-    let res = transpose(&var("reservoir")?, gm, gl);
-    let positive: Vec<f64> = res.iter().copied().filter(|v| *v > 0.0).collect();
-    let (lo, hi) =
-        positive.iter().fold((f64::INFINITY, 0.0f64), |(lo, hi), &v| (lo.min(v), hi.max(v)));
-    e(draw_map(
-        &MapPlot {
-            title: format!("adsorbed {sp} reservoir at the end of the run, {of}"),
-            x_label: "east longitude (deg)".into(),
-            y_label: "latitude (deg)".into(),
-            x_edges: edges(0.0, 360.0, gm),
-            y_edges: edges(-90.0, 90.0, gl),
-            values: res,
-            colour_label: "surface density (atoms cm^-2)".into(),
-            log_scale: !positive.is_empty() && hi > 100.0 * lo,
-            x_ticks: Some(vec![0.0, 60.0, 120.0, 180.0, 240.0, 300.0, 360.0]),
-            y_ticks: lat_ticks,
-        },
-        &dir.join("reservoir_map.png"),
-    ))?;
+    let title = format!("adsorbed {sp} reservoir at the end of the run, {of}");
+    let map = reservoir_map(title, gm, gl, &var("reservoir")?);
+    e(draw_map(&map, &dir.join("reservoir_map.png")))?;
     done("reservoir_map.png");
 
     let eq_file = "profiles/equator_local_time.csv";
     let eq = m.table(eq_file).ok_or("plots need the merged profiles")?;
     e(draw_lines(
-        &LinePlot {
-            title: format!("equatorial {sp} column by local time, {of}"),
-            x_label: "local time (h)".into(),
-            y_label: "column (atoms cm^-2)".into(),
-            lines: vec![Line {
-                label: "equatorial band, +-1 s.e. between replicas".into(),
-                x: col(eq, eq_file, "local_time_h")?,
-                y: col(eq, eq_file, "column_cm-2")?,
-                y_err: Some(bars(&col(eq, eq_file, "column_error_cm-2")?)),
-                style: LineStyle::Points,
-            }],
-            markers: vec![
-                Marker { x: 6.0, label: "dawn terminator".into() },
-                Marker { x: 12.0, label: "subsolar".into() },
-                Marker { x: 18.0, label: "dusk terminator".into() },
-            ],
-            log_y: false,
-            x_range: Some((0.0, 24.0)),
-            x_ticks: lt_ticks,
-        },
+        &equator_plot(
+            format!("equatorial {sp} column by local time, {of}"),
+            "equatorial band, +-1 s.e. between replicas".into(),
+            col(eq, eq_file, "local_time_h")?,
+            col(eq, eq_file, "column_cm-2")?,
+            &col(eq, eq_file, "column_error_cm-2")?,
+        ),
         &dir.join("equator_local_time.png"),
     ))?;
     done("equator_local_time.png");
 
     let lat_file = "profiles/latitude.csv";
     let lat = m.table(lat_file).ok_or("plots need the merged profiles")?;
-    let profile = col(lat, lat_file, "column_cm-2")?;
-    // cos and cos^2 references scaled to the equatorial value, as for a run.
-    let eq_bins = profiles::equatorial_bins(profile.len(), 1e-9);
-    let n0 = eq_bins.iter().map(|&j| profile[j]).sum::<f64>() / eq_bins.len() as f64;
-    let fine: Vec<f64> = (0..=180).map(|k| -90.0 + k as f64).collect();
     e(draw_lines(
-        &LinePlot {
-            title: format!("dayside {sp} column by latitude (6-18 h), {of}"),
-            x_label: "latitude (deg)".into(),
-            y_label: "column (atoms cm^-2)".into(),
-            lines: vec![
-                Line {
-                    label: "model, +-1 s.e. between replicas".into(),
-                    x: col(lat, lat_file, "latitude_deg")?,
-                    y: profile.clone(),
-                    y_err: Some(bars(&col(lat, lat_file, "column_error_cm-2")?)),
-                    style: LineStyle::Points,
-                },
-                Line {
-                    label: "N_eq cos(lat)".into(),
-                    x: fine.clone(),
-                    y: fine.iter().map(|l| n0 * l.to_radians().cos()).collect(),
-                    y_err: None,
-                    style: LineStyle::Dashed,
-                },
-                Line {
-                    label: "N_eq cos^2(lat)".into(),
-                    x: fine.clone(),
-                    y: fine.iter().map(|l| n0 * l.to_radians().cos().powi(2)).collect(),
-                    y_err: None,
-                    style: LineStyle::Dotted,
-                },
-            ],
-            markers: vec![],
-            log_y: false,
-            x_range: Some((-90.0, 90.0)),
-            x_ticks: Some(vec![-90.0, -60.0, -30.0, 0.0, 30.0, 60.0, 90.0]),
-        },
+        &latitude_plot(
+            format!("dayside {sp} column by latitude (6-18 h), {of}"),
+            "model, +-1 s.e. between replicas".into(),
+            col(lat, lat_file, "latitude_deg")?,
+            col(lat, lat_file, "column_cm-2")?,
+            &col(lat, lat_file, "column_error_cm-2")?,
+        ),
         &dir.join("latitude_profile.png"),
     ))?;
     done("latitude_profile.png");
@@ -182,15 +89,6 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
     let lf = "ledger.csv";
     let ledger = m.table(lf).ok_or("plots need the merged ledger")?;
     let days: Vec<f64> = col(ledger, lf, "time_s")?.iter().map(|t| t / 86_400.0).collect();
-    let cumulative = |xs: Vec<f64>| -> Vec<f64> {
-        let mut acc = 0.0;
-        xs.into_iter()
-            .map(|x| {
-                acc += x;
-                acc
-            })
-            .collect()
-    };
     let lost_cols: Vec<String> = ledger
         .header
         .iter()
@@ -209,44 +107,16 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
         .and_then(serde_json::Value::as_f64)
         .unwrap_or(0.0)
         / 86_400.0;
-    let mut markers = Vec::new();
-    if spin_up_days > 0.0 {
-        markers.push(Marker { x: spin_up_days, label: "end of spin-up".into() });
-    }
-    let line = |label: &str, y: Vec<f64>, style| Line {
-        label: label.into(),
-        x: days.clone(),
-        y,
-        y_err: None,
-        style,
+    let series = LedgerSeries {
+        days,
+        in_flight: col(ledger, lf, "in_flight_atoms")?,
+        adsorbed: col(ledger, lf, "adsorbed_atoms")?,
+        supplied: col(ledger, lf, "supplied_from_bulk_atoms")?,
+        lost,
+        escaped: col(ledger, lf, "escaped_atoms")?,
     };
-    e(draw_lines(
-        &LinePlot {
-            title: format!("{sp} ledger over the run, {of}"),
-            x_label: "simulated time (d)".into(),
-            y_label: "atoms".into(),
-            lines: vec![
-                line("in flight", col(ledger, lf, "in_flight_atoms")?, LineStyle::Solid),
-                line("adsorbed", col(ledger, lf, "adsorbed_atoms")?, LineStyle::Solid),
-                line(
-                    "supplied from bulk (cumulative)",
-                    cumulative(col(ledger, lf, "supplied_from_bulk_atoms")?),
-                    LineStyle::Dashed,
-                ),
-                line("lost in flight (cumulative)", cumulative(lost), LineStyle::Dashed),
-                line(
-                    "escaped (cumulative)",
-                    cumulative(col(ledger, lf, "escaped_atoms")?),
-                    LineStyle::Dotted,
-                ),
-            ],
-            markers,
-            log_y: true,
-            x_range: None,
-            x_ticks: None,
-        },
-        &dir.join("ledger.png"),
-    ))?;
+    let title = format!("{sp} ledger over the run, {of}");
+    e(draw_lines(&ledger_plot(title, series, spin_up_days), &dir.join("ledger.png")))?;
     done("ledger.png");
 
     // The peak shift window by window, with its between-replica error.
@@ -259,23 +129,15 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
     if !keep.is_empty() {
         let (start, end) = (col(w, wf, "start_s")?, col(w, wf, "end_s")?);
         let (shift, err) = (col(w, wf, "peak_shift_deg")?, col(w, wf, "peak_shift_error_deg")?);
+        let err: Vec<f64> = keep.iter().map(|&r| err[r]).collect();
         e(draw_lines(
-            &LinePlot {
-                title: format!("{sp} equatorial column peak shift, window by window, {of}"),
-                x_label: "simulated time at the window's middle (d)".into(),
-                y_label: "shift from the subsolar point (deg, negative = dawn)".into(),
-                lines: vec![Line {
-                    label: "per averaging window, +-1 s.e. between replicas".into(),
-                    x: keep.iter().map(|&r| 0.5 * (start[r] + end[r]) / 86_400.0).collect(),
-                    y: keep.iter().map(|&r| shift[r]).collect(),
-                    y_err: Some(bars(&keep.iter().map(|&r| err[r]).collect::<Vec<_>>())),
-                    style: LineStyle::Points,
-                }],
-                markers: vec![],
-                log_y: false,
-                x_range: None,
-                x_ticks: None,
-            },
+            &shift_plot(
+                format!("{sp} equatorial column peak shift, window by window, {of}"),
+                "per averaging window, +-1 s.e. between replicas".into(),
+                keep.iter().map(|&r| 0.5 * (start[r] + end[r]) / 86_400.0).collect(),
+                keep.iter().map(|&r| shift[r]).collect(),
+                Some(&err),
+            ),
             &dir.join("phase_series.png"),
         ))?;
         done("phase_series.png");
