@@ -25,8 +25,9 @@ use crate::scenario::{Inputs, Scenario, ScenarioError};
 /// how a saved state continues (format 2: random keys carry the step, so a
 /// format-1 state would not continue as its run would have; format 3: the
 /// particle bank keeps each particle's planned path, and the budget one
-/// launch goal for all sources).
-pub const FORMAT: u32 = 3;
+/// launch goal for all sources; format 4: the ledger books atoms leaving
+/// bound apart from escape, and unbound atoms fly by default).
+pub const FORMAT: u32 = 4;
 
 /// How to rebuild the scenario of a run.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]

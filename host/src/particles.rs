@@ -302,6 +302,14 @@ impl ParticleBank {
         &self.here
     }
 
+    /// Reference states (position m, velocity m s^-1, body-centred
+    /// inertial) at each particle's epoch: its launch or bounce, or for an
+    /// integrated flight the end of its last step. Two-body energy and
+    /// angular momentum computed from them hold along a closed-form path.
+    pub fn reference_states(&self) -> impl Iterator<Item = (Vec3, Vec3)> + '_ {
+        self.pos.iter().copied().zip(self.vel.iter().copied())
+    }
+
     /// Ids.
     pub fn ids(&self) -> &[u64] {
         &self.id

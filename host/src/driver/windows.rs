@@ -68,8 +68,12 @@ pub struct WindowRecord {
     pub supplied: f64,
     /// Atoms released during the window, atoms.
     pub released: f64,
-    /// Atoms that escaped during the window, atoms.
+    /// Atoms that escaped (left on unbound paths) during the window, atoms.
     pub escaped: f64,
+    /// Atoms that left through the outer boundary on bound paths during
+    /// the window, atoms.
+    #[serde(default)]
+    pub left_bound: f64,
     /// Atoms lost in flight (all loss modules) during the window, atoms.
     pub lost_in_flight: f64,
     /// Atoms removed from the pool by reservoir processes, atoms.
@@ -156,6 +160,7 @@ impl RunRecord {
             supplied: rows.iter().map(|r| r.supplied_from_bulk).sum(),
             released: rows.iter().map(|r| r.released).sum(),
             escaped: rows.iter().map(|r| r.escaped).sum(),
+            left_bound: rows.iter().map(|r| r.left_bound).sum(),
             lost_in_flight: rows.iter().map(|r| r.losses.iter().sum::<f64>()).sum(),
             removed: rows.iter().map(|r| r.removed.iter().sum::<f64>()).sum(),
             stuck: rows.iter().map(|r| r.stuck).sum(),

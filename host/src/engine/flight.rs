@@ -20,9 +20,11 @@
 //!    particle survives the segment with probability exp(-sum(beta) tau)
 //!    (analog Monte Carlo), and a particle that does not is booked whole to
 //!    one loss, drawn in proportion to the rates;
-//! 3. `escape`: particles that reached the boundary (or, with
-//!    `escape_when_unbound`, were launched unbound) are booked as escaped,
-//!    and the landings are collected;
+//! 3. `escape`: particles that reached the outer boundary are booked as
+//!    escaped when their path is unbound there (two-body energy >= 0), or
+//!    as having left the domain bound (apocentre beyond the boundary)
+//!    otherwise; with `escape_when_unbound`, particles launched unbound
+//!    are booked as escaped at once. The landings are collected;
 //! 4. `land`: the surface interaction decides each landing in one batch;
 //!    atoms `stick` (join the pool of the landing cell), are lost (buried),
 //!    or `bounce` and fly on within the step, which starts another round.
@@ -82,6 +84,7 @@ pub(super) struct ChunkBooks {
     stuck: f64,
     bounced: f64,
     escaped: f64,
+    left_bound: f64,
     buried: f64,
     losses: Vec<f64>,
     stuck_cells: Vec<(u32, f64)>,
@@ -217,6 +220,7 @@ impl Simulation {
                     row.stuck += b.stuck;
                     row.bounced += b.bounced;
                     row.escaped += b.escaped;
+                    row.left_bound += b.left_bound;
                     row.buried += b.buried;
                     for (k, l) in b.losses.iter().enumerate() {
                         row.losses[k] += l;
@@ -763,7 +767,13 @@ impl StepContext<'_> {
             match s.ends[k] {
                 SegmentEnd::Running | SegmentEnd::Lost => {}
                 SegmentEnd::Escaped => {
-                    books.escaped += chunk.weight[i];
+                    // The segment's end state is the reference state: at the
+                    // boundary, or at launch for the unbound shortcut.
+                    if escapes(body.gm, chunk.pos[i], chunk.vel[i]) {
+                        books.escaped += chunk.weight[i];
+                    } else {
+                        books.left_bound += chunk.weight[i];
+                    }
                     chunk.alive[i] = 0;
                 }
                 SegmentEnd::Landed => {
@@ -858,6 +868,14 @@ impl StepContext<'_> {
         }
         Ok(())
     }
+}
+
+/// Whether a particle at `r` (m) with velocity `v` (m s^-1) in the field
+/// of a point mass `mu` (m^3 s^-2) is unbound: specific two-body energy
+/// v^2 / 2 - mu / r >= 0 (Jeans' criterion for escape; with radiation
+/// pressure this is the energy where it leaves the domain).
+fn escapes(mu: f64, r: Vec3, v: Vec3) -> bool {
+    0.5 * dot(v, v) >= mu / norm(r)
 }
 
 /// Sunlit time (s) within [a, b] (s) of a path that is sunlit at `from`

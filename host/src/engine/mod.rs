@@ -144,11 +144,16 @@ pub struct RunConfig {
     pub chunk_size: usize,
     /// Worker threads.
     pub threads: usize,
-    /// Outer boundary: a particle reaching this radius has escaped, m.
+    /// Outer boundary: a particle reaching this radius leaves the model,
+    /// booked as escaped if its path is unbound there and as left bound
+    /// otherwise, m.
     pub boundary_radius: f64,
-    /// Book a particle as escaped as soon as its path is unbound and does
-    /// not meet the surface (Jeans' definition of escape); if false it flies
-    /// on, losses acting, until it reaches `boundary_radius`.
+    /// The remove-at-launch shortcut: book a particle as escaped as soon as
+    /// its path is unbound and misses the surface, so escaping atoms never
+    /// fly. It is cheaper, but it drops the escaping component from every
+    /// density, column and line of sight, and it books atoms that would
+    /// have been photoionized on the way out as escaped. Off by default:
+    /// unbound atoms fly, losses acting, until they reach `boundary_radius`.
     pub escape_when_unbound: bool,
     /// Integrate with radiation pressure (else closed-form Kepler hops).
     pub radiation_pressure: bool,
@@ -163,8 +168,9 @@ pub struct RunConfig {
 }
 
 impl RunConfig {
-    /// Settings for `body`: 20 radii boundary, 4096-particle chunks,
-    /// 100 km altitude bins to 2000 km, 24 x 18 local-time x latitude bins.
+    /// Settings for `body`: 20 radii boundary, escaping atoms flying,
+    /// 4096-particle chunks, 100 km altitude bins to 2000 km, 24 x 18
+    /// local-time x latitude bins.
     pub fn for_body(body: &Body) -> RunConfig {
         RunConfig {
             dt: 300.0,
@@ -173,7 +179,7 @@ impl RunConfig {
             chunk_size: 4096,
             threads: 1,
             boundary_radius: 20.0 * body.radius,
-            escape_when_unbound: true,
+            escape_when_unbound: false,
             radiation_pressure: false,
             integrator_tolerance: 1e-9,
             alt_edges: (0..=20).map(|k| k as f64 * 1.0e5).collect(),

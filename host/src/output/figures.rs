@@ -174,8 +174,10 @@ pub(crate) struct LedgerSeries {
     pub supplied: Vec<f64>,
     /// Atoms lost in flight per step, all losses.
     pub lost: Vec<f64>,
-    /// Atoms escaped per step.
+    /// Atoms escaped (unbound at the boundary) per step.
     pub escaped: Vec<f64>,
+    /// Atoms that left through the boundary on bound paths per step.
+    pub left_bound: Vec<f64>,
 }
 
 /// The ledger over the run: stocks, and cumulative flows; the end of the
@@ -211,7 +213,12 @@ pub(crate) fn ledger_plot(title: String, l: LedgerSeries, spin_up_days: f64) -> 
             line("adsorbed", l.adsorbed, LineStyle::Solid),
             line("supplied from bulk (cumulative)", cumulative(l.supplied), LineStyle::Dashed),
             line("lost in flight (cumulative)", cumulative(l.lost), LineStyle::Dashed),
-            line("escaped (cumulative)", cumulative(l.escaped), LineStyle::Dotted),
+            line("escaped, unbound (cumulative)", cumulative(l.escaped), LineStyle::Dotted),
+            line(
+                "left the domain bound (cumulative)",
+                cumulative(l.left_bound),
+                LineStyle::Dotted,
+            ),
         ],
         markers,
         log_y: true,
@@ -299,6 +306,7 @@ pub fn draw_all(
         supplied: pick(&|r| r.supplied_from_bulk),
         lost: pick(&|r| r.losses.iter().sum()),
         escaped: pick(&|r| r.escaped),
+        left_bound: pick(&|r| r.left_bound),
     };
     let spin_up_days = scenario.plan.spin_up_steps as f64 * scenario.config.dt / 86_400.0;
     let title = format!("{sp} ledger over the run");

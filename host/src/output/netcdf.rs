@@ -177,7 +177,7 @@ pub fn dataset(
     ));
 
     type Pick = fn(&crate::driver::WindowRecord) -> f64;
-    let series: [(&str, &str, &str, Pick); 12] = [
+    let series: [(&str, &str, &str, Pick); 13] = [
         ("content", "1", "atoms in flight, window mean", |w| w.content),
         ("sunlit_content", "1", "atoms in flight and in sunlight, window mean", |w| {
             w.sunlit_content
@@ -185,7 +185,13 @@ pub fn dataset(
         ("adsorbed_total", "1", "atoms adsorbed at the window end", |w| w.adsorbed),
         ("released", "1", "atoms released in the window", |w| w.released),
         ("supplied", "1", "atoms supplied from the bulk in the window", |w| w.supplied),
-        ("escaped", "1", "atoms escaped in the window", |w| w.escaped),
+        ("escaped", "1", "atoms that escaped (left on unbound paths) in the window", |w| w.escaped),
+        (
+            "left_bound",
+            "1",
+            "atoms that left through the outer boundary on bound paths in the window",
+            |w| w.left_bound,
+        ),
         ("lost_in_flight", "1", "atoms lost in flight in the window", |w| w.lost_in_flight),
         ("stuck", "1", "atoms stuck in the window", |w| w.stuck),
         ("peak_local_time", "hours", "local time of the equatorial column peak", |w| {

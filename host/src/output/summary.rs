@@ -30,6 +30,27 @@ fn q(x: f64, unit: &str) -> Value {
     json!({ "value": num(x), "unit": unit })
 }
 
+/// What the ledger's `escaped` and `left_bound` mean for this run.
+fn escape_note(scenario: &Scenario) -> String {
+    let c = &scenario.config;
+    let radii = c.boundary_radius / scenario.model.body.radius;
+    let launch = if c.escape_when_unbound {
+        "atoms launched on unbound paths that miss the surface are booked as escaped at \
+         launch (run.remove_unbound_at_launch = true): they never fly, so the escaping \
+         component is missing from the density and column, and their photoionization \
+         on the way out is booked as escape"
+    } else {
+        "unbound atoms fly, losses acting, until they reach the boundary"
+    };
+    format!(
+        "escaped: atoms that left through the outer boundary ({} body radii) on unbound \
+         paths (two-body energy >= 0 there; true escape); left_bound: atoms that left \
+         through it on bound paths (apocentre beyond it), lost to the model's domain but \
+         not escaped from the body; {launch}",
+        crate::scenario::bounds::shown(radii)
+    )
+}
+
 impl Summary {
     /// Summarise a finished run.
     pub fn of(
@@ -135,6 +156,8 @@ impl Summary {
                 "stuck": num(ledger.total(|r| r.stuck)),
                 "bounced": num(ledger.total(|r| r.bounced)),
                 "escaped": num(ledger.total(|r| r.escaped)),
+                "left_bound": num(ledger.total(|r| r.left_bound)),
+                "escape_note": escape_note(scenario),
                 "buried": num(ledger.total(|r| r.buried)),
                 "lost_in_flight": losses,
                 "removed_from_pool": removed,
@@ -177,6 +200,7 @@ impl Summary {
             },
             "total_content": q(content, "atoms"),
             "escape_rate": q(rate(&|r| r.escaped), "atoms s^-1"),
+            "bound_boundary_loss_rate": q(rate(&|r| r.left_bound), "atoms s^-1"),
             "ionization_rate": q(rate(&|r| ionizing.iter().map(|&k| r.losses[k]).sum()), "atoms s^-1"),
             "source_rate": q(rate(&|r| r.released), "atoms s^-1"),
             "supply_rate_from_bulk": q(rate(&|r| r.supplied_from_bulk), "atoms s^-1"),

@@ -24,7 +24,7 @@ pub fn ledger_csv(sim: &Simulation) -> String {
     let l = sim.ledger();
     let mut s = String::from(
         "step,time_s,supplied_from_bulk_atoms,released_atoms,released_from_adsorbed_atoms,\
-         landed_atoms,stuck_atoms,bounced_atoms,escaped_atoms,buried_atoms",
+         landed_atoms,stuck_atoms,bounced_atoms,escaped_atoms,left_bound_atoms,buried_atoms",
     );
     for label in &l.loss_labels {
         let _ = write!(s, ",lost_{}_atoms", csv_name(label));
@@ -36,7 +36,7 @@ pub fn ledger_csv(sim: &Simulation) -> String {
     for r in &l.rows {
         let _ = write!(
             s,
-            "{},{},{},{},{},{},{},{},{},{}",
+            "{},{},{},{},{},{},{},{},{},{},{}",
             r.step,
             r.time,
             r.supplied_from_bulk,
@@ -46,6 +46,7 @@ pub fn ledger_csv(sim: &Simulation) -> String {
             r.stuck,
             r.bounced,
             r.escaped,
+            r.left_bound,
             r.buried
         );
         for x in r.losses.iter().chain(&r.removed) {
@@ -66,7 +67,7 @@ pub fn windows_csv(sim: &Simulation, record: &RunRecord, latitude_deg: &[f64]) -
     let lat_rad: Vec<f64> = latitude_deg.iter().map(|d| d.to_radians()).collect();
     let mut s = String::from(
         "start_s,end_s,spin_up,content_atoms,sunlit_content_atoms,adsorbed_atoms,supplied_atoms,\
-         released_atoms,escaped_atoms,lost_in_flight_atoms,removed_atoms,stuck_atoms,\
+         released_atoms,escaped_atoms,left_bound_atoms,lost_in_flight_atoms,removed_atoms,stuck_atoms,\
          peak_local_time_h,peak_shift_deg,dayside_near_surface_density_cm-3,subsolar_column_cm-2,\
          subsolar_longitude_deg,heliocentric_distance_au,latitude_cos_power_n,\
          latitude_fit_relative_residual\n",
@@ -80,7 +81,7 @@ pub fn windows_csv(sim: &Simulation, record: &RunRecord, latitude_deg: &[f64]) -
         let fit = crate::tally::profiles::fit_cos_power(&lat_rad, &w.latitude_profile);
         let _ = writeln!(
             s,
-            "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
+            "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
             w.start,
             w.end,
             w.spin_up,
@@ -90,6 +91,7 @@ pub fn windows_csv(sim: &Simulation, record: &RunRecord, latitude_deg: &[f64]) -
             w.supplied,
             w.released,
             w.escaped,
+            w.left_bound,
             w.lost_in_flight,
             w.removed,
             w.stuck,

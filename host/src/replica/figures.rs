@@ -114,6 +114,7 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
         supplied: col(ledger, lf, "supplied_from_bulk_atoms")?,
         lost,
         escaped: col(ledger, lf, "escaped_atoms")?,
+        left_bound: col(ledger, lf, "left_bound_atoms")?,
     };
     let title = format!("{sp} ledger over the run, {of}");
     e(draw_lines(&ledger_plot(title, series, spin_up_days), &dir.join("ledger.png")))?;

@@ -221,6 +221,10 @@ pub struct RunSection {
     /// Outer boundary in body radii (default 20).
     #[serde(default)]
     pub boundary_radii: Option<f64>,
+    /// Book atoms launched on unbound paths as escaped at once, so that
+    /// they never fly (default false: they fly to the outer boundary).
+    #[serde(default)]
+    pub remove_unbound_at_launch: Option<bool>,
 }
 
 /// `[outputs]`.
@@ -230,6 +234,10 @@ pub struct OutputsSection {
     /// Altitude bin edges of the density tally (default 0..3000 km, finer near the surface).
     #[serde(default)]
     pub altitude_edges: Option<QuantityList>,
+    /// Logarithmically spaced altitude bins added above the last edge, up
+    /// to the outer boundary (default 12; 0 for none).
+    #[serde(default)]
+    pub outer_bins: Option<usize>,
     /// Local-time bins over 24 h (default 24).
     #[serde(default)]
     pub local_time_bins: Option<usize>,

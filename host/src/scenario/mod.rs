@@ -746,6 +746,7 @@ impl Validator<'_> {
             }
         };
         c.radiation_pressure = r.radiation_pressure.unwrap_or(false);
+        c.escape_when_unbound = r.remove_unbound_at_launch.unwrap_or(false);
         let radii = r.boundary_radii.unwrap_or(20.0);
         if !(radii > 1.0 && radii <= bounds::BOUNDARY_RADII_MAX) {
             return Err(self.err(
@@ -798,6 +799,17 @@ impl Validator<'_> {
                 "need at least two finite edges, increasing from >= 0",
             ));
         }
+        let outer = o.outer_bins.unwrap_or(DEFAULT_OUTER_BINS);
+        if outer > MAX_OUTER_BINS {
+            return Err(self.err(
+                "outputs.outer_bins",
+                format!(
+                    "{outer} bins is more than {MAX_OUTER_BINS}; the default is \
+                     {DEFAULT_OUTER_BINS}, and 0 leaves the grid at the last altitude edge"
+                ),
+            ));
+        }
+        c.alt_edges = with_outer_bins(&c.alt_edges, c.boundary_radius - body.radius, outer);
         c.n_local_time = o.local_time_bins.unwrap_or(24);
         c.n_latitude = o.latitude_bins.unwrap_or(18);
         if !(4..=1440).contains(&c.n_local_time) || !(2..=720).contains(&c.n_latitude) {
@@ -907,6 +919,29 @@ pub const DEFAULT_ALTITUDE_EDGES_KM: [f64; 16] = [
     0.0, 25.0, 50.0, 100.0, 150.0, 200.0, 300.0, 400.0, 500.0, 700.0, 1000.0, 1300.0, 1600.0,
     2000.0, 2500.0, 3000.0,
 ];
+
+/// Default number of logarithmically spaced altitude bins between the
+/// last altitude edge and the outer boundary, dimensionless.
+pub const DEFAULT_OUTER_BINS: usize = 12;
+
+/// Most outer bins a scenario may ask for, dimensionless.
+const MAX_OUTER_BINS: usize = 200;
+
+/// `edges` (m) with `n` bins added above the last edge, equally spaced in
+/// log(altitude) up to `top` (m), the boundary's altitude, so that the
+/// density grid covers the whole domain. Unchanged when `n` is 0 or the
+/// edges already reach `top`.
+pub fn with_outer_bins(edges: &[f64], top: f64, n: usize) -> Vec<f64> {
+    let mut out = edges.to_vec();
+    let last = edges[edges.len() - 1];
+    if n == 0 || !(last > 0.0) || last >= top {
+        return out;
+    }
+    let ratio = top / last;
+    out.extend((1..n).map(|k| last * ratio.powf(k as f64 / n as f64)));
+    out.push(top);
+    out
+}
 
 /// Directory of the standard modules: `$EXOBOUND_MODULE_DIR` if set, else
 /// where the build placed them.

@@ -5,7 +5,8 @@
 //!
 //!   supplied from the bulk = change in (in flight + adsorbed)
 //!                            + each loss in flight (photoionized, ...)
-//!                            + escaped + buried + each removal from the pool,
+//!                            + escaped + left bound + buried
+//!                            + each removal from the pool,
 //!
 //! and the closure error, which the tests hold to round-off.
 
@@ -35,8 +36,16 @@ pub struct LedgerRow {
     pub stuck: f64,
     /// Atoms re-emitted at landing, atoms.
     pub bounced: f64,
-    /// Atoms that left through the outer boundary, atoms.
+    /// Atoms that escaped: they left through the outer boundary on an
+    /// unbound path (two-body energy >= 0 there), or, with the
+    /// remove-at-launch shortcut, were launched on an unbound path that
+    /// misses the surface, atoms.
     pub escaped: f64,
+    /// Atoms that left through the outer boundary on a bound path (their
+    /// apocentre lies beyond it): a loss to the model's domain, not escape
+    /// from the body, atoms.
+    #[serde(default)]
+    pub left_bound: f64,
     /// Atoms lost at the surface (buried, cold-trapped), atoms.
     pub buried: f64,
     /// Atoms removed in flight, one entry per loss module, atoms.
@@ -76,6 +85,7 @@ impl LedgerRow {
     /// Atoms that left the system during the step, atoms.
     pub fn outflow(&self) -> f64 {
         self.escaped
+            + self.left_bound
             + self.buried
             + self.losses.iter().sum::<f64>()
             + self.removed.iter().sum::<f64>()
@@ -93,6 +103,7 @@ impl LedgerRow {
             ("stuck", self.stuck),
             ("bounced", self.bounced),
             ("escaped", self.escaped),
+            ("left_bound", self.left_bound),
             ("buried", self.buried),
             ("roulette", self.roulette),
             ("in_flight", self.in_flight),
