@@ -295,8 +295,7 @@ fn escaping_atoms_fill_the_chamberlain_exosphere() {
     config.target_in_flight = 30_000;
     config.threads = 2;
     let km = 1.0e3;
-    config.alt_edges =
-        [0.0, 10.0, 975.0, 1025.0, 2450.0, 2550.0].iter().map(|h| h * km).collect();
+    config.alt_edges = [0.0, 10.0, 975.0, 1025.0, 2450.0, 2550.0].iter().map(|h| h * km).collect();
     config.n_local_time = 1;
     config.n_latitude = 1;
     let processes = Processes {

@@ -59,7 +59,8 @@ fn observe_a_quick_run_from_a_telescope_and_an_orbiter() {
     // 24 rows and 1.5 times as many columns of square pixels.
     assert_eq!(b.data.len(), 24 * 36);
 
-    // An orbiter looking at nadir sees the vertical column of the field.
+    // An orbiter looking at nadir sees the vertical column of the field
+    // below it (the density grid reaches the outer boundary, far above).
     let orb = tmp.path().join("orbiter.toml");
     std::fs::write(&orb, "[orbiter]\naltitude = \"4000 km\"\nlocal_time = \"11.5 h\"\nlatitude = \"5 deg\"\nlook = \"nadir\"\n").unwrap();
     let out2 = tmp.path().join("seen2");
@@ -68,7 +69,8 @@ fn observe_a_quick_run_from_a_telescope_and_an_orbiter() {
     let field =
         exobound::observe::field::DensityField::from_dataset(&ds, &run.join("exosphere.nc"))
             .unwrap();
-    let want = field.vertical_column(11.5, 5f64.to_radians());
+    let want = field.vertical_column_below(11.5, 5f64.to_radians(), 4.0e6);
+    assert!(want < field.vertical_column(11.5, 5f64.to_radians()));
     assert!(
         (o.samples[0].column_cm2 / want - 1.0).abs() < 1e-9,
         "{} vs {want}",

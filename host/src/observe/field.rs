@@ -125,11 +125,20 @@ impl DensityField {
     /// Vertical column above (local time `lt` h, latitude `lat` rad), atoms
     /// cm^-2: the sum of density times bin height.
     pub fn vertical_column(&self, lt: f64, lat: f64) -> f64 {
+        self.vertical_column_below(lt, lat, f64::INFINITY)
+    }
+
+    /// Vertical column between the surface and altitude `top` (m) above
+    /// (local time `lt` h, latitude `lat` rad), atoms cm^-2: what a
+    /// nadir-looking instrument at `top` sees. The density is constant
+    /// within a bin, so a bin cut by `top` counts in proportion.
+    pub fn vertical_column_below(&self, lt: f64, lat: f64, top: f64) -> f64 {
         let i = ((lt.rem_euclid(24.0) / 24.0 * self.n_lt as f64) as usize).min(self.n_lt - 1);
         let j = (((lat + FRAC_PI_2) / PI * self.n_lat as f64) as usize).min(self.n_lat - 1);
         (0..self.alt_edges.len() - 1)
             .map(|k| {
-                let dh_cm = (self.alt_edges[k + 1] - self.alt_edges[k]) * 100.0;
+                let hi = self.alt_edges[k + 1].min(top);
+                let dh_cm = (hi - self.alt_edges[k]).max(0.0) * 100.0;
                 self.density_cm3[(k * self.n_lt + i) * self.n_lat + j] * dh_cm
             })
             .sum()

@@ -214,11 +214,7 @@ pub(crate) fn ledger_plot(title: String, l: LedgerSeries, spin_up_days: f64) -> 
             line("supplied from bulk (cumulative)", cumulative(l.supplied), LineStyle::Dashed),
             line("lost in flight (cumulative)", cumulative(l.lost), LineStyle::Dashed),
             line("escaped, unbound (cumulative)", cumulative(l.escaped), LineStyle::Dotted),
-            line(
-                "left the domain bound (cumulative)",
-                cumulative(l.left_bound),
-                LineStyle::Dotted,
-            ),
+            line("left the domain bound (cumulative)", cumulative(l.left_bound), LineStyle::Dotted),
         ],
         markers,
         log_y: true,
