@@ -25,8 +25,10 @@ use crate::scenario::{Inputs, Scenario, ScenarioError};
 /// how a saved state continues (format 2: random keys carry the step, so a
 /// format-1 state would not continue as its run would have; format 3: the
 /// particle bank keeps each particle's planned path, and the budget one
-/// launch goal for all sources).
-pub const FORMAT: u32 = 3;
+/// launch goal for all sources; format 4: each window record carries the
+/// body's position on its orbit, and Mercury spins in exact 3:2
+/// resonance, so a format-3 Mercury state would continue on another spin).
+pub const FORMAT: u32 = 4;
 
 /// How to rebuild the scenario of a run.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]

@@ -21,7 +21,7 @@
 //! (cos L, cos eps sin L, sin eps sin L), L counted from the equinox: the
 //! subsolar latitude is delta = asin(sin eps sin L) and the Sun's right
 //! ascension alpha = atan2(cos eps sin L, cos L) (spherical astronomy,
-//! e.g. Smart, Textbook on Spherical Astronomy, ch. 2; from memory). The
+//! e.g. Smart 1977, Textbook on Spherical Astronomy, 6th ed.; from memory). The
 //! Keplerian case reproduces Mercury's non-uniform solar motion (and its
 //! retrograde sunrise near perihelion).
 
@@ -351,7 +351,7 @@ mod tests {
         // Subsolar latitude delta = asin(sin eps sin L): +eps at the
         // northern summer solstice (L = 90 deg), 0 at the equinoxes,
         // -eps at L = 270 deg (spherical astronomy; Smart 1977, Textbook on
-        // Spherical Astronomy, ch. 2, from memory).
+        // Spherical Astronomy, 6th ed.; from memory).
         let eps = 0.4;
         let moon = Body::moon();
         let n_orb = moon.sidereal_rate() - 2.0 * PI / moon.solar_day;
