@@ -48,7 +48,7 @@ fn model(body: Body, temperature: TemperatureLaw, adsorbed_cm2: f64) -> Model {
         species: Species::sodium(),
         grid,
         temperature,
-        sun: SunGeometry { subsolar_latitude: 0.0, subsolar_longitude_at_start: 0.0 },
+        sun: SunGeometry::fixed(0.0, 0.0),
         reservoir,
         solar_wind: exobound::environment::SolarWind::constant(0.0),
         meteoroid_factor: 1.0,

@@ -10,6 +10,7 @@ mod cache;
 mod engine;
 mod numeric_guards;
 mod observe_compare;
+mod orbit;
 mod output_lock;
 mod parameters;
 mod replica;

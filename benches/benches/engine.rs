@@ -121,7 +121,7 @@ fn moon_simulation_with(build: Build, threads: usize, radiation: bool) -> Simula
     let model = Model {
         species: Species::sodium(),
         temperature: TemperatureLaw { night: 100.0, subsolar: 390.0, reference_distance: 1.0 },
-        sun: SunGeometry { subsolar_latitude: 0.0, subsolar_longitude_at_start: 0.0 },
+        sun: SunGeometry::fixed(0.0, 0.0),
         grid,
         reservoir,
         solar_wind: exobound::environment::SolarWind::constant(0.0),

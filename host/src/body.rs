@@ -12,8 +12,14 @@ use core::f64::consts::PI;
 use exobound_sdk::constants::{ASTRONOMICAL_UNIT, BOLTZMANN};
 use exobound_sdk::math;
 
+use crate::transport::frames::{wrap_pi, wrap_two_pi};
+
 /// Seconds per day (86 400 s, the SI day used by the fact sheets).
 pub const DAY: f64 = 86_400.0;
+
+/// Mercury's sidereal orbital period, s (NASA Mercury fact sheet:
+/// 87.969257 d).
+pub const MERCURY_ORBITAL_PERIOD: f64 = 87.969_257 * DAY;
 
 /// Cubic metres per cubic kilometre, for GM given in km^3 s^-2.
 const M3_PER_KM3: f64 = 1.0e9;
@@ -78,8 +84,10 @@ impl Body {
         }
     }
 
-    /// Mercury, at perihelion at t = 0. Sources beside each value
-    /// (JPL DE440 physical parameters; NASA Mercury fact sheet).
+    /// Mercury, at perihelion at t = 0 (see [`HelioOrbit::starting_at`] to
+    /// start elsewhere on the orbit), spinning in exact 3:2 resonance with
+    /// its orbit. Sources beside each value (JPL DE440 physical
+    /// parameters; NASA Mercury fact sheet).
     pub fn mercury() -> Body {
         Body {
             name: "Mercury".to_string(),
@@ -87,16 +95,25 @@ impl Body {
             gm: 22_031.868_55 * M3_PER_KM3,
             // Same source: mean radius 2439.4 km.
             radius: 2439.4e3,
-            // NASA fact sheet: sidereal rotation period 58.6463 d.
-            sidereal_rotation: 58.6463 * DAY,
-            // NASA fact sheet: length of day (solar) 175.9421 d.
-            solar_day: 175.9421 * DAY,
+            // The 3:2 spin-orbit resonance, made exact: three sidereal turns
+            // per two orbits, 58.646171 d (Pettengill & Dyce 1965, Nature
+            // 206, 1240, radar rotation period 59 +- 5 d; Colombo 1965,
+            // Nature 208, 575, the 2/3 explanation; Margot et al. 2007,
+            // Science 316, 710, the spin measured to be resonant to within
+            // their errors: all from memory). The NASA fact sheet's rounded
+            // 58.6463 d differs by 1.3e-4 d, which over one solar day
+            // would move the subsolar point 4.1e-5 rad off its repeat.
+            sidereal_rotation: MERCURY_ORBITAL_PERIOD * 2.0 / 3.0,
+            // With P_sid = 2/3 P_orb the synodic relation 1/P_sol = 1/P_sid
+            // - 1/P_orb gives exactly two orbits, 175.938514 d (the NASA
+            // fact sheet's rounded 175.9421 d differs by 2e-5 relative).
+            solar_day: 2.0 * MERCURY_ORBITAL_PERIOD,
             orbit: HelioOrbit::Kepler {
                 // NASA fact sheet: a = 0.387098 AU, e = 0.20563,
                 // sidereal orbital period 87.969257 d.
                 semi_major_axis_au: 0.387_098,
                 eccentricity: 0.205_63,
-                period_s: 87.969_257 * DAY,
+                period_s: MERCURY_ORBITAL_PERIOD,
                 time_of_perihelion_s: 0.0,
             },
         }
@@ -197,6 +214,47 @@ impl HelioOrbit {
         }
     }
 
+    /// The same orbit with its time of perihelion chosen so that the true
+    /// anomaly at t = 0 is `nu0` (rad): true -> eccentric -> mean anomaly
+    /// M0 (Kepler's equation), and perihelion at t_p = -M0 P / (2 pi) with
+    /// M0 in [0, 2 pi), so that t_p in (-P, 0] is the last perihelion at or
+    /// before the start. `None` for a constant distance, which has no
+    /// perihelion.
+    pub fn starting_at(&self, nu0: f64) -> Option<HelioOrbit> {
+        match *self {
+            HelioOrbit::Constant { .. } => None,
+            HelioOrbit::Kepler { semi_major_axis_au, eccentricity, period_s, .. } => {
+                let m0 = wrap_two_pi(mean_from_true(nu0, eccentricity));
+                Some(HelioOrbit::Kepler {
+                    semi_major_axis_au,
+                    eccentricity,
+                    period_s,
+                    time_of_perihelion_s: -m0 / (2.0 * PI) * period_s,
+                })
+            }
+        }
+    }
+
+    /// Simulation time of the last perihelion passage at or before `t_s`
+    /// (s), s; `None` for a constant distance.
+    pub fn perihelion_at_or_before(&self, t_s: f64) -> Option<f64> {
+        match *self {
+            HelioOrbit::Constant { .. } => None,
+            HelioOrbit::Kepler { period_s, time_of_perihelion_s, .. } => {
+                let turns = ((t_s - time_of_perihelion_s) / period_s).floor();
+                Some(time_of_perihelion_s + turns * period_s)
+            }
+        }
+    }
+
+    /// Orbital (sidereal) period, s; `None` for a constant distance.
+    pub fn period_s(&self) -> Option<f64> {
+        match *self {
+            HelioOrbit::Constant { .. } => None,
+            HelioOrbit::Kepler { period_s, .. } => Some(period_s),
+        }
+    }
+
     /// Eccentric anomaly in [-pi, pi] and the whole number of orbits since
     /// the reference perihelion (as f64), for the Kepler case; (0, 0) for a
     /// constant distance.
@@ -220,6 +278,16 @@ impl HelioOrbit {
 fn true_from_eccentric(e_anom: f64, e: f64) -> f64 {
     let (s, c) = math::sin_cos(0.5 * e_anom);
     2.0 * math::atan2(math::sqrt(1.0 + e) * s, math::sqrt(1.0 - e) * c)
+}
+
+/// Mean anomaly M (rad, in [-pi, pi]) at true anomaly `nu` (rad) on an
+/// ellipse of eccentricity e in [0, 1): the eccentric anomaly
+/// E = 2 atan2(sqrt(1-e) sin(nu/2), sqrt(1+e) cos(nu/2)) (the inverse of
+/// [`true_from_eccentric`]), then Kepler's equation M = E - e sin E.
+pub fn mean_from_true(nu: f64, e: f64) -> f64 {
+    let (s, c) = math::sin_cos(0.5 * wrap_pi(nu));
+    let e_anom = 2.0 * math::atan2(math::sqrt(1.0 - e) * s, math::sqrt(1.0 + e) * c);
+    e_anom - e * math::sin(e_anom)
 }
 
 /// Solves Kepler's equation M = E - e sin E for the eccentric anomaly E,
@@ -354,6 +422,35 @@ mod tests {
         // A constant orbit has none.
         assert_eq!(Body::moon().orbit.radial_velocity(1e6), 0.0);
         assert_eq!(Body::moon().orbit.distance_au(1e6), 1.0);
+    }
+
+    #[test]
+    fn a_start_true_anomaly_sets_the_time_of_perihelion() {
+        for &(e, nu0) in
+            &[(0.205_63, 0.0), (0.205_63, 1.7453), (0.205_63, -2.9), (0.7, 3.1), (0.0, 1.0)]
+        {
+            // Round trip true -> mean -> eccentric -> true (Kepler's equation).
+            let m = mean_from_true(nu0, e);
+            assert!((true_from_eccentric(eccentric_anomaly(m, e), e) - wrap_pi(nu0)).abs() < 1e-12);
+            let orbit = HelioOrbit::Kepler {
+                semi_major_axis_au: 0.387_098,
+                eccentricity: e,
+                period_s: 87.969_257 * DAY,
+                time_of_perihelion_s: 0.0,
+            }
+            .starting_at(nu0)
+            .unwrap();
+            assert!(wrap_pi(orbit.true_anomaly(0.0) - nu0).abs() < 1e-12, "e {e} nu0 {nu0}");
+            // Kepler's first law: r = a (1 - e^2) / (1 + e cos nu).
+            let r = 0.387_098 * (1.0 - e * e) / (1.0 + e * nu0.cos());
+            assert!(rel(orbit.distance_au(0.0), r) < 1e-12);
+            // The last perihelion lies within one period before the start.
+            let tp = orbit.perihelion_at_or_before(0.0).unwrap();
+            assert!(tp <= 0.0 && tp > -87.969_257 * DAY);
+            assert!(orbit.true_anomaly(tp).abs() < 1e-9);
+        }
+        assert_eq!(Body::moon().orbit.starting_at(1.0), None);
+        assert_eq!(Body::moon().orbit.perihelion_at_or_before(5.0), None);
     }
 
     #[test]

@@ -26,7 +26,10 @@ use crate::scenario::{Inputs, Scenario, ScenarioError};
 /// format-1 state would not continue as its run would have; format 3: the
 /// particle bank keeps each particle's planned path, and the budget one
 /// launch goal for all sources; format 4: the ledger books atoms leaving
-/// bound apart from escape, and unbound atoms fly by default).
+/// bound apart from escape, unbound atoms fly by default, each window
+/// record carries the body's position on its orbit, and Mercury spins in
+/// exact 3:2 resonance, so a format-3 Mercury state would continue on
+/// another spin).
 pub const FORMAT: u32 = 4;
 
 /// How to rebuild the scenario of a run.

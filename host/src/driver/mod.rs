@@ -21,7 +21,7 @@ use crate::engine::{EngineError, Simulation};
 use crate::output::{self, Performance, Staging};
 use crate::runtime::Runtime;
 use crate::scenario::{Scenario, ScenarioError};
-pub use windows::{Averages, RunRecord, WindowRecord};
+pub use windows::{Averages, BodyPosition, RunRecord, WindowRecord};
 
 /// Why a run stopped without products.
 #[derive(Debug)]

@@ -92,6 +92,56 @@ pub struct WindowRecord {
     pub equator_profile: Vec<f64>,
     /// Dayside column by latitude bin, atoms cm^-2.
     pub latitude_profile: Vec<f64>,
+    /// Where the body is on its orbit at the window's middle.
+    pub position: BodyPosition,
+}
+
+/// Where the body is on its orbit, and where the Sun stands over it, at
+/// one time. Angles in degrees, as the tables write them.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct BodyPosition {
+    /// Time, s since the run start.
+    pub time: f64,
+    /// True anomaly, deg in [0, 360), 0 at perihelion; NaN at a constant
+    /// heliocentric distance (no perihelion).
+    pub true_anomaly_deg: f64,
+    /// Heliocentric distance, AU.
+    pub heliocentric_distance_au: f64,
+    /// Body-fixed east longitude of the subsolar point, deg in [0, 360).
+    pub subsolar_longitude_deg: f64,
+    /// Subsolar latitude, deg in [-90, 90].
+    pub subsolar_latitude_deg: f64,
+    /// The Sun's orbital longitude from the northward equinox (L_s), deg in
+    /// [0, 360); NaN without an obliquity (no equinox).
+    pub solar_longitude_deg: f64,
+    /// For the Moon, the phase as a fraction of the synodic month since
+    /// new moon, dimensionless in [0, 1), from the subsolar longitude;
+    /// NaN for other bodies.
+    pub lunar_phase: f64,
+}
+
+impl BodyPosition {
+    /// The position of `model`'s body at time `t` (s).
+    pub fn at(model: &crate::engine::Model, t: f64) -> BodyPosition {
+        let (body, sun) = (&model.body, &model.sun);
+        let lon_ss = sun.subsolar_longitude(body, t);
+        BodyPosition {
+            time: t,
+            true_anomaly_deg: match body.orbit {
+                crate::body::HelioOrbit::Kepler { .. } => degrees_0_360(body.orbit.true_anomaly(t)),
+                crate::body::HelioOrbit::Constant { .. } => f64::NAN,
+            },
+            heliocentric_distance_au: body.orbit.distance_au(t),
+            subsolar_longitude_deg: degrees_0_360(lon_ss),
+            subsolar_latitude_deg: sun.subsolar_latitude(body, t).to_degrees(),
+            solar_longitude_deg: sun.solar_longitude(body, t).map_or(f64::NAN, degrees_0_360),
+            lunar_phase: if body.name == crate::body::Body::moon().name {
+                crate::scenario::orbit::lunar_phase_of(lon_ss)
+            } else {
+                f64::NAN
+            },
+        }
+    }
 }
 
 /// The driver's record of a run: averages, windows and where the current window started.
@@ -103,6 +153,13 @@ pub struct RunRecord {
     pub windows: Vec<WindowRecord>,
     /// Step at which the current window started.
     pub window_start_step: u64,
+}
+
+/// An angle (rad) in degrees, in [0, 360).
+fn degrees_0_360(angle: f64) -> f64 {
+    let d = angle.to_degrees().rem_euclid(360.0);
+    // rem_euclid rounds a tiny negative angle up to exactly 360.
+    if d >= 360.0 { 0.0 } else { d }
 }
 
 /// Latitude limit of the "dayside near-surface" mean, rad (30 deg).
@@ -183,6 +240,7 @@ impl RunRecord {
             },
             latitude_profile: profiles::dayside_latitude_profile(&column, n_lt, n_lat),
             equator_profile: profile,
+            position: BodyPosition::at(sim.model(), 0.5 * (from + to) as f64 * dt),
         };
         if !spin_up {
             let a = &mut self.averages;

@@ -215,5 +215,46 @@ pub fn dataset(
         let data: Vec<f64> = record.windows.iter().map(pick).collect();
         ds.add_variable(Variable::new(name, &["window_end"], data, units).with("long_name", long));
     }
+    // Where the body is on its orbit, at each window's middle.
+    type Place = fn(&crate::driver::BodyPosition) -> f64;
+    let orbit: [(&str, &str, &str, Place); 6] = [
+        (
+            "true_anomaly",
+            "degrees",
+            "true anomaly at the window middle (NaN at a constant distance)",
+            |p| p.true_anomaly_deg,
+        ),
+        ("heliocentric_distance", "au", "heliocentric distance at the window middle", |p| {
+            p.heliocentric_distance_au
+        }),
+        (
+            "subsolar_longitude",
+            "degrees_east",
+            "body-fixed longitude of the subsolar point at the window middle",
+            |p| p.subsolar_longitude_deg,
+        ),
+        (
+            "subsolar_latitude",
+            "degrees_north",
+            "latitude of the subsolar point at the window middle",
+            |p| p.subsolar_latitude_deg,
+        ),
+        (
+            "solar_longitude",
+            "degrees",
+            "the Sun's orbital longitude from the northward equinox at the window middle (NaN without an obliquity)",
+            |p| p.solar_longitude_deg,
+        ),
+        (
+            "lunar_phase",
+            "1",
+            "fraction of the synodic month since new moon at the window middle (NaN except for the Moon)",
+            |p| p.lunar_phase,
+        ),
+    ];
+    for (name, units, long, pick) in orbit {
+        let data: Vec<f64> = record.windows.iter().map(|w| pick(&w.position)).collect();
+        ds.add_variable(Variable::new(name, &["window_end"], data, units).with("long_name", long));
+    }
     ds
 }

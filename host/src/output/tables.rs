@@ -62,24 +62,23 @@ pub fn ledger_csv(sim: &Simulation) -> String {
 }
 
 /// The per-window time series as CSV text.
-pub fn windows_csv(sim: &Simulation, record: &RunRecord, latitude_deg: &[f64]) -> String {
-    let model = sim.model();
+pub fn windows_csv(record: &RunRecord, latitude_deg: &[f64]) -> String {
     let lat_rad: Vec<f64> = latitude_deg.iter().map(|d| d.to_radians()).collect();
     let mut s = String::from(
         "start_s,end_s,spin_up,content_atoms,sunlit_content_atoms,adsorbed_atoms,supplied_atoms,\
          released_atoms,escaped_atoms,left_bound_atoms,lost_in_flight_atoms,removed_atoms,stuck_atoms,\
          peak_local_time_h,peak_shift_deg,dayside_near_surface_density_cm-3,subsolar_column_cm-2,\
          subsolar_longitude_deg,heliocentric_distance_au,latitude_cos_power_n,\
-         latitude_fit_relative_residual\n",
+         latitude_fit_relative_residual",
     );
+    s.push_str(ORBIT_HEADER);
     for w in &record.windows {
         // The phase of the body's day (subsolar longitude) and its season
         // (heliocentric distance) at the window's middle.
-        let mid = 0.5 * (w.start + w.end);
-        let lon_ss = model.sun.subsolar_longitude(&model.body, mid).to_degrees();
-        let r_au = model.body.orbit.distance_au(mid);
+        let (lon_ss, r_au) =
+            (w.position.subsolar_longitude_deg, w.position.heliocentric_distance_au);
         let fit = crate::tally::profiles::fit_cos_power(&lat_rad, &w.latitude_profile);
-        let _ = writeln!(
+        let _ = write!(
             s,
             "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
             w.start,
@@ -104,9 +103,20 @@ pub fn windows_csv(sim: &Simulation, record: &RunRecord, latitude_deg: &[f64]) -
             fit.map_or(f64::NAN, |f| f.n),
             fit.map_or(f64::NAN, |f| f.relative_residual),
         );
+        let p = &w.position;
+        let _ = writeln!(
+            s,
+            ",{},{},{},{}",
+            p.true_anomaly_deg, p.subsolar_latitude_deg, p.solar_longitude_deg, p.lunar_phase
+        );
     }
     s
 }
+
+/// The orbit columns that end each `windows.csv` row, all at the window's
+/// middle (`docs/outputs.md`).
+const ORBIT_HEADER: &str =
+    ",true_anomaly_deg,subsolar_latitude_deg,solar_longitude_deg,lunar_phase\n";
 
 /// Write `ledger.csv`, `windows.csv` and `profiles/*.csv` into `dir`.
 pub fn write_all(
@@ -117,7 +127,7 @@ pub fn write_all(
 ) -> std::io::Result<()> {
     let f = Fields::of(scenario, sim, record);
     atomic_write(&dir.join("ledger.csv"), ledger_csv(sim).as_bytes())?;
-    atomic_write(&dir.join("windows.csv"), windows_csv(sim, record, &f.latitude_deg).as_bytes())?;
+    atomic_write(&dir.join("windows.csv"), windows_csv(record, &f.latitude_deg).as_bytes())?;
     std::fs::create_dir_all(dir.join("profiles"))?;
     let mut eq = String::from("local_time_h,column_cm-2,column_error_cm-2\n");
     for ((lt, c), e) in f.local_time_h.iter().zip(&f.equator_profile).zip(&f.equator_error) {

@@ -154,6 +154,10 @@ pub const SPECS: [Spec; 4] = [
             "spin_up",
             "subsolar_longitude_deg",
             "heliocentric_distance_au",
+            "true_anomaly_deg",
+            "subsolar_latitude_deg",
+            "solar_longitude_deg",
+            "lunar_phase",
         ],
         errors: Errors::Append { skip: &[] },
     },
@@ -399,13 +403,13 @@ mod tests {
     #[test]
     fn cells_average_keys_stay_and_errors_are_appended() {
         let a = table(
-            "start_s,end_s,spin_up,subsolar_longitude_deg,heliocentric_distance_au,x_atoms\n0,10,true,1,1,2\n",
+            "start_s,end_s,spin_up,subsolar_longitude_deg,heliocentric_distance_au,true_anomaly_deg,subsolar_latitude_deg,solar_longitude_deg,lunar_phase,x_atoms\n0,10,true,1,1,NaN,0,NaN,0.25,2\n",
         );
         let b = table(
-            "start_s,end_s,spin_up,subsolar_longitude_deg,heliocentric_distance_au,x_atoms\n0,10,true,1,1,4\n",
+            "start_s,end_s,spin_up,subsolar_longitude_deg,heliocentric_distance_au,true_anomaly_deg,subsolar_latitude_deg,solar_longitude_deg,lunar_phase,x_atoms\n0,10,true,1,1,NaN,0,NaN,0.25,4\n",
         );
         let c = table(
-            "start_s,end_s,spin_up,subsolar_longitude_deg,heliocentric_distance_au,x_atoms\n0,10,true,1,1,9\n",
+            "start_s,end_s,spin_up,subsolar_longitude_deg,heliocentric_distance_au,true_anomaly_deg,subsolar_latitude_deg,solar_longitude_deg,lunar_phase,x_atoms\n0,10,true,1,1,NaN,0,NaN,0.25,9\n",
         );
         let inputs: Vec<(PathBuf, Table)> = [a, b, c]
             .into_iter()
@@ -415,9 +419,14 @@ mod tests {
         let m = merge_table(&SPECS[1], &inputs).unwrap();
         assert_eq!(m.header.last().unwrap(), "x_error_atoms");
         // mean 5, sample variance ((9 + 1 + 16) / 2 = 13), s.e. sqrt(13 / 3).
-        assert_eq!(m.rows[0][5], Cell::Number(5.0));
-        assert_eq!(m.rows[0][6], Cell::Number((13.0f64 / 3.0).sqrt()));
+        assert_eq!(m.rows[0][9], Cell::Number(5.0));
+        assert_eq!(m.rows[0][10], Cell::Number((13.0f64 / 3.0).sqrt()));
         assert_eq!(m.rows[0][2], Cell::Text("true".into()));
+        // The orbit columns are keys: kept as written, NaN included, and
+        // given no error column.
+        assert_eq!(m.rows[0][5], Cell::Text("NaN".into()));
+        assert_eq!(m.rows[0][8], Cell::Text("0.25".into()));
+        assert_eq!(m.header.len(), 11);
     }
 
     #[test]

@@ -96,6 +96,38 @@ pub struct BodySection {
     /// Body-fixed east longitude of the subsolar point at the start, e.g. "0 deg" (default).
     #[serde(default)]
     pub subsolar_longitude: Option<String>,
+    /// Custom bodies on an ellipse: semi-major axis, e.g. "0.387 AU".
+    #[serde(default)]
+    pub semi_major_axis: Option<String>,
+    /// Custom bodies on an ellipse: eccentricity, dimensionless, in [0, 1).
+    #[serde(default)]
+    pub eccentricity: Option<f64>,
+    /// Custom bodies on an ellipse: sidereal orbital period, e.g. "87.97 d".
+    #[serde(default)]
+    pub orbital_period: Option<String>,
+    /// Elliptic orbits: true anomaly at the start, e.g. "60 deg" (default "0 deg", perihelion).
+    #[serde(default)]
+    pub start_true_anomaly: Option<String>,
+    /// Mercury: the hot longitude under the Sun at the last perihelion
+    /// before the start, "0 deg" (default) or "180 deg".
+    #[serde(default)]
+    pub perihelion_subsolar_longitude: Option<String>,
+    /// The Moon: phase at the start, fraction of the synodic month since
+    /// new moon, dimensionless, in [0, 1) (0.5 = full moon).
+    #[serde(default)]
+    pub start_lunar_phase: Option<f64>,
+    /// Tilt of the spin axis from the orbit normal, e.g. "1.54 deg"
+    /// (default: none, a fixed subsolar latitude).
+    #[serde(default)]
+    pub obliquity: Option<String>,
+    /// With `obliquity` on an elliptic orbit: true anomaly of the northward
+    /// equinox, e.g. "0 deg" (default).
+    #[serde(default)]
+    pub equinox_true_anomaly: Option<String>,
+    /// With `obliquity` at a constant distance: the Sun's orbital longitude
+    /// from the northward equinox at the start, e.g. "90 deg" (default "0 deg").
+    #[serde(default)]
+    pub start_solar_longitude: Option<String>,
 }
 
 /// `[species]`.

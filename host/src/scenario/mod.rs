@@ -14,6 +14,7 @@ pub mod demo;
 pub mod file;
 pub mod keys;
 pub mod maps;
+pub mod orbit;
 pub mod quantity;
 pub mod sandbox;
 
@@ -29,7 +30,7 @@ use quantity::Kind;
 
 use crate::body::{Body, HelioOrbit};
 use crate::engine::{Model, Processes, RunConfig};
-use crate::environment::{FluxInterval, SolarWind, SunGeometry};
+use crate::environment::{FluxInterval, SolarWind};
 use crate::runtime::Runtime;
 use crate::runtime::backend::ModuleHandle;
 use crate::species::Species;
@@ -279,23 +280,7 @@ impl Validator<'_> {
             ));
         }
         let reservoir = self.reservoir(s, &grid)?;
-        let sun = SunGeometry {
-            subsolar_latitude: self.q_or(
-                "body.subsolar_latitude",
-                &file.body.subsolar_latitude,
-                "0 deg",
-                Kind::Angle,
-            )?,
-            subsolar_longitude_at_start: self.q_or(
-                "body.subsolar_longitude",
-                &file.body.subsolar_longitude,
-                "0 deg",
-                Kind::Angle,
-            )?,
-        };
-        if sun.subsolar_latitude.abs() > core::f64::consts::FRAC_PI_2 {
-            return Err(self.err("body.subsolar_latitude", "must lie within [-90, 90] deg"));
-        }
+        let sun = self.sun(&file.body, &body)?;
         let e = &file.environment;
         let flux = self.within(
             "environment.solar_wind_flux",
@@ -382,19 +367,40 @@ impl Validator<'_> {
                     &need("sidereal_rotation", &b.sidereal_rotation)?,
                     Kind::Time,
                 )?;
-                let day =
-                    self.q("body.solar_day", &need("solar_day", &b.solar_day)?, Kind::Time)?;
                 self.positive("body.gm", gm, "m^3 s^-2")?;
                 self.positive("body.radius", radius, "m")?;
                 self.positive("body.sidereal_rotation", rot, "s")?;
-                self.positive("body.solar_day", day, "s")?;
+                let orbit = self.custom_orbit(b)?;
+                let day = match orbit.and_then(|o| o.period_s()) {
+                    // On an ellipse the mean solar day follows from the two
+                    // periods (synodic relation 1/P_sol = 1/P_sid - 1/P_orb);
+                    // infinite for a spin locked to the orbit, negative if
+                    // the Sun moves east.
+                    Some(p_orb) => {
+                        if b.solar_day.is_some() {
+                            return Err(self.err(
+                                "body.solar_day",
+                                "on an elliptic orbit the mean solar day follows from                                  sidereal_rotation and orbital_period (1/P_sol = 1/P_sid -                                  1/P_orb); remove the key",
+                            ));
+                        }
+                        1.0 / (1.0 / rot - 1.0 / p_orb)
+                    }
+                    None => {
+                        let day = self.q(
+                            "body.solar_day",
+                            &need("solar_day", &b.solar_day)?,
+                            Kind::Time,
+                        )?;
+                        self.positive("body.solar_day", day, "s")?
+                    }
+                };
                 Body::custom(
                     "custom",
                     gm,
                     radius,
                     rot,
                     day,
-                    HelioOrbit::Constant { distance_au: 1.0 },
+                    orbit.unwrap_or(HelioOrbit::Constant { distance_au: 1.0 }),
                 )
             }
             other => {
@@ -410,6 +416,9 @@ impl Validator<'_> {
                 ("radius", &b.radius),
                 ("sidereal_rotation", &b.sidereal_rotation),
                 ("solar_day", &b.solar_day),
+                ("semi_major_axis", &b.semi_major_axis),
+                ("orbital_period", &b.orbital_period),
+                ("eccentricity", &b.eccentricity.map(|e| e.to_string())),
             ] {
                 if v.is_some() {
                     return Err(self.err(
@@ -420,9 +429,16 @@ impl Validator<'_> {
             }
         }
         if let Some(d) = &file.environment.heliocentric_distance {
+            if b.semi_major_axis.is_some() {
+                return Err(self.err(
+                    "environment.heliocentric_distance",
+                    "the custom body already has an elliptic orbit (body.semi_major_axis,                      eccentricity, orbital_period); give either that orbit or a constant                      distance, not both",
+                ));
+            }
             let r = self.helio_distance("environment.heliocentric_distance", d)?;
             body.orbit = HelioOrbit::Constant { distance_au: r };
         }
+        self.start_on_orbit(b, &mut body)?;
         Ok(body)
     }
 
