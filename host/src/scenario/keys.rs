@@ -227,6 +227,7 @@ const TAKES: &[(&str, Takes)] = &[
     ("body.subsolar_latitude", Takes::Quantity(Kind::Angle, "0 deg")),
     ("body.subsolar_longitude", Takes::Quantity(Kind::Angle, "0 deg")),
     ("species.name", Takes::Text("sodium")),
+    ("species.g_factor_table", Takes::Text("g-factors-na.csv")),
     ("surface.latitude_cells", Takes::Whole("18")),
     ("surface.longitude_cells", Takes::Whole("36")),
     ("surface.bulk_map", Takes::Text("maps/bulk-sodium.csv")),
