@@ -49,10 +49,10 @@ impl Species {
         // IUPAC standard atomic weight (via `periodictable`): 22.98976928 u.
         let mass = 22.989_769_28 * ATOMIC_MASS;
         let lines = vec![
-                // NIST/VALD vacuum wavelength; f-value from VALD3.
-                Line { name: "D2".to_string(), wavelength: 589.158e-9, f_value: 0.641 },
-                // NIST/VALD vacuum wavelength; f-value from VALD3.
-                Line { name: "D1".to_string(), wavelength: 589.756e-9, f_value: 0.320 },
+            // NIST/VALD vacuum wavelength; f-value from VALD3.
+            Line { name: "D2".to_string(), wavelength: 589.158e-9, f_value: 0.641 },
+            // NIST/VALD vacuum wavelength; f-value from VALD3.
+            Line { name: "D1".to_string(), wavelength: 589.756e-9, f_value: 0.320 },
         ];
         // The built-in table, with its sources (radiation/tables.rs).
         let g_factors = GFactorModel::bind(tables::sodium(), &lines, mass)
@@ -72,10 +72,10 @@ impl Species {
         // IUPAC standard atomic weight (via `periodictable`): 39.0983 u.
         let mass = 39.0983 * ATOMIC_MASS;
         let lines = vec![
-                // Banerjee et al. 2004 vacuum wavelength; f-value from memory.
-                Line { name: "D2".to_string(), wavelength: 766.702e-9, f_value: 0.682 },
-                // Banerjee et al. 2004 vacuum wavelength; f-value from memory.
-                Line { name: "D1".to_string(), wavelength: 770.109e-9, f_value: 0.339 },
+            // Banerjee et al. 2004 vacuum wavelength; f-value from memory.
+            Line { name: "D2".to_string(), wavelength: 766.702e-9, f_value: 0.682 },
+            // Banerjee et al. 2004 vacuum wavelength; f-value from memory.
+            Line { name: "D1".to_string(), wavelength: 770.109e-9, f_value: 0.339 },
         ];
         // The built-in table, low confidence, with its sources (radiation/tables.rs).
         let g_factors = GFactorModel::bind(tables::potassium(), &lines, mass)
@@ -163,16 +163,22 @@ mod tests {
         assert_eq!(Species::by_name("SODIUM").unwrap().name, "Na");
         assert_eq!(Species::by_name("k").unwrap().name, "K");
         assert!(Species::by_name("Ca").is_none());
-        let t = GFactorTable::parse("radial_velocity_km_s,g_photons_per_s_per_atom
+        let t = GFactorTable::parse(
+            "radial_velocity_km_s,g_photons_per_s_per_atom
 0,2
-", "u.csv")
-            .unwrap();
+",
+            "u.csv",
+        )
+        .unwrap();
         let na = Species::sodium().with_g_factor_table(t).unwrap();
         assert_eq!(na.g_factors.g_total(4e3, 2.0), 0.5);
-        let bad = GFactorTable::parse("radial_velocity_km_s,g_X_photons_per_s_per_atom
+        let bad = GFactorTable::parse(
+            "radial_velocity_km_s,g_X_photons_per_s_per_atom
 0,2
-", "u.csv")
-            .unwrap();
+",
+            "u.csv",
+        )
+        .unwrap();
         assert!(Species::sodium().with_g_factor_table(bad).unwrap_err().contains("u.csv"));
     }
 

@@ -23,9 +23,9 @@ use exobound_products::{
 use serde::Serialize;
 
 use crate::output::{PROVENANCE_FILE, atomic_write, staged};
+use crate::radiation::GFactorTable;
 use crate::vec3;
 use field::DensityField;
-use crate::radiation::GFactorTable;
 use gfactor::brightness_rayleigh;
 use sightline::{Cuts, Ray, column};
 use view::{Distant, Geometry, Orbiter, View};
@@ -206,8 +206,8 @@ pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observati
         .map(|v| v / 1e3)
         .or(attr_num("heliocentric_radial_velocity_km_s"))
         .unwrap_or(0.0);
-    let g = gfactor::g_at(&model, v_km_s, r_au)
-        .map_err(|e| format!("{}: {e}", view_path.display()))?;
+    let g =
+        gfactor::g_at(&model, v_km_s, r_au).map_err(|e| format!("{}: {e}", view_path.display()))?;
 
     staged(out, |dir| {
         let obs = compute_and_write(dir, &field, &view, g, table, r_au, v_km_s).map(

@@ -138,7 +138,10 @@ impl GFactorTable {
                 _ => false,
             });
             if dup {
-                return Err(format!("`{file}` line {hl}, column {}: `{name}` appears twice", k + 1));
+                return Err(format!(
+                    "`{file}` line {hl}, column {}: `{name}` appears twice",
+                    k + 1
+                ));
             }
             columns.push(Column { line, g_1au: Vec::new() });
         }

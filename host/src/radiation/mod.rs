@@ -170,7 +170,8 @@ impl GFactorModel {
         let mut intervals = (span / GRID_SPACING).ceil() as usize;
         intervals = intervals.clamp(1, GRID_MAX_NODES - 1);
         let step = span / intervals as f64;
-        let values = (0..=intervals).map(|j| self.acceleration(lo + j as f64 * step, r_au)).collect();
+        let values =
+            (0..=intervals).map(|j| self.acceleration(lo + j as f64 * step, r_au)).collect();
         AccelerationGrid { first: lo, inverse_step: 1.0 / step, values }
     }
 }
