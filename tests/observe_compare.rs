@@ -40,9 +40,15 @@ fn observe_a_quick_run_from_a_telescope_and_an_orbiter() {
         assert!(out.join(f).is_file(), "missing {f}");
     }
     assert_eq!(obs.samples.len(), 7);
-    // The built-in Na table at rest at 1 AU (the demo's Moon): 0.8 photons
-    // s^-1 atom^-1, from memory (check-values §2: D2 0.3-0.6 + D1 0.2-0.35).
-    assert!((obs.g_factor - 0.8).abs() < 1e-12);
+    // The built-in Na table at rest at 1 AU (the demo's Moon), which the run
+    // used and recorded: D2 0.54 + D1 0.271 photons s^-1 atom^-1
+    // (host/src/radiation/tables.rs; from memory, within Killen, Shemansky &
+    // Mouawad 2009, ApJS 181, 351: D2 0.3-0.6 + D1 0.2-0.35).
+    assert!((obs.g_factor - 0.811).abs() < 1e-12, "{}", obs.g_factor);
+    assert!(obs.g_factor_origin.contains("the run's table: built-in Na table"));
+    // The run records the table's origin in its provenance.
+    let prov = std::fs::read_to_string(run.join("provenance.json")).unwrap();
+    assert!(prov.contains("\"g_factor_table\"") && prov.contains("built-in Na table"));
     for s in &obs.samples {
         // Hunten, Roach & Chamberlain (1956): 4 pi I [R] = g N / 10^6.
         assert!(

@@ -400,3 +400,68 @@ fn a_refused_scenario_exits_with_failure_and_writes_nothing() {
         assert!(!partial.exists(), "{set}: {} exists", partial.display());
     }
 }
+
+#[test]
+fn a_g_factor_table_file_is_read_checked_and_recorded() {
+    let tmp = TempDir::new("g-table");
+    demo::write(tmp.path()).unwrap();
+    let path = tmp.path().join("demo-quick.toml");
+    let text = std::fs::read_to_string(&path)
+        .unwrap()
+        .replace("name = \"sodium\"", "name = \"sodium\"\ng_factor_table = \"g.csv\"");
+    std::fs::write(&path, &text).unwrap();
+    // A per-line table (our layout, docs/scenario.md): used as given.
+    let table = "# made up for the test\n\
+                 radial_velocity_km_s,g_D2_photons_per_s_per_atom,g_D1_photons_per_s_per_atom\n\
+                 0,1.0,0.5\n10,4.0,2.0\n";
+    std::fs::write(tmp.path().join("g.csv"), table).unwrap();
+    let s = Scenario::load(&path, &[], &runtime()).unwrap();
+    let g = &s.model.species.g_factors;
+    // Linear interpolation, 1/r^2 (definition of the table's law): at 5 km/s
+    // and 0.5 AU, (2.5 + 1.25) * 4 = 15 photons/s.
+    assert!((g.g_total(5e3, 0.5) - 15.0).abs() < 1e-12);
+    // The origin names the file and its SHA-256 (FIPS 180-4) for the provenance.
+    let digest = exobound::runtime::module::sha256_hex(table.as_bytes());
+    assert_eq!(g.table.sha256.as_deref(), Some(digest.as_str()));
+    assert!(g.table.origin.contains("g.csv") && g.table.origin.contains(&digest));
+
+    // A bad row: refused naming the key, the file, the line and the column.
+    std::fs::write(
+        tmp.path().join("g.csv"),
+        "radial_velocity_km_s,g_D2_photons_per_s_per_atom,g_D1_photons_per_s_per_atom\n\
+         0,1.0,0.5\n10,4.0,-2\n",
+    )
+    .unwrap();
+    let e = Scenario::load(&path, &[], &runtime()).unwrap_err().to_string();
+    assert!(e.contains("species.g_factor_table") && e.contains("g.csv"), "{e}");
+    assert!(e.contains("line 3, column 3") && e.contains("negative"), "{e}");
+    // A line the species does not have.
+    std::fs::write(
+        tmp.path().join("g.csv"),
+        "radial_velocity_km_s,g_D3_photons_per_s_per_atom\n0,1.0\n",
+    )
+    .unwrap();
+    let e = Scenario::load(&path, &[], &runtime()).unwrap_err().to_string();
+    assert!(e.contains("species.g_factor_table") && e.contains("`D3`"), "{e}");
+    // No file at all.
+    std::fs::remove_file(tmp.path().join("g.csv")).unwrap();
+    let e = Scenario::load(&path, &[], &runtime()).unwrap_err().to_string();
+    assert!(e.contains("species.g_factor_table") && e.contains("cannot read"), "{e}");
+}
+
+#[test]
+fn radiation_pressure_is_on_by_default_for_mercury_only() {
+    let rt = runtime();
+    // docs/scenario.md: default true for Mercury, false for the Moon.
+    let moon = Scenario::demo(true, &[], &rt).unwrap();
+    assert!(!moon.config.radiation_pressure);
+    let mercury = Scenario::demo(true, &["body.name=\"mercury\"".into()], &rt).unwrap();
+    assert!(mercury.config.radiation_pressure);
+    let off = Scenario::demo(
+        true,
+        &["body.name=\"mercury\"".into(), "run.radiation_pressure=false".into()],
+        &rt,
+    )
+    .unwrap();
+    assert!(!off.config.radiation_pressure);
+}

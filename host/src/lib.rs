@@ -21,6 +21,7 @@ pub mod modbuild;
 pub mod observe;
 pub mod output;
 pub mod particles;
+pub mod radiation;
 pub mod replica;
 pub mod runtime;
 pub mod scenario;

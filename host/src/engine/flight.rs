@@ -39,6 +39,7 @@ use rayon::prelude::*;
 
 use super::{EngineError, Simulation, WorkerSet, call};
 use crate::particles::{Chunk, NextEvent, SHADOW_TOGGLES};
+use crate::radiation::AccelerationGrid;
 use crate::tally::{DensityTally, LedgerRow, Sighting, Tally};
 use crate::transport::integrate::{self, FlightEnd};
 use crate::transport::kepler::{Direction, Orbit};
@@ -71,7 +72,9 @@ pub(super) struct StepContext<'a> {
     t_end: f64,
     sun_dir: Vec3,
     r_au: f64,
-    a_rad: f64,
+    /// The radiation acceleration against heliocentric radial velocity at
+    /// this step's mid-time distance, if radiation pressure is on.
+    a_rad: Option<AccelerationGrid>,
     helio_radial_velocity: f64,
     n_losses: usize,
 }
@@ -178,11 +181,10 @@ impl Simulation {
         let r_au = body.orbit.distance_au(t_mid);
         let ctx_values = (
             self.model.sun.sun_direction_bci(body, t_mid),
-            if self.config.radiation_pressure {
-                self.model.species.radiation_acceleration_at(r_au)
-            } else {
-                0.0
-            },
+            // Filled once per step; each atom reads it at its own v_r.
+            self.config
+                .radiation_pressure
+                .then(|| self.model.species.g_factors.acceleration_grid(r_au)),
             body.orbit.radial_velocity(t_mid),
         );
         let chunk_size = self.config.chunk_size;
@@ -337,7 +339,7 @@ impl StepContext<'_> {
                 stream::HOST_SIGHTING,
                 self.step,
             ));
-            let seg = if self.a_rad > 0.0 {
+            let seg = if self.a_rad.is_some() {
                 self.advance_integrated(chunk, i, tau, &mut rng)
             } else {
                 let u = rng.uniform();
@@ -413,7 +415,13 @@ impl StepContext<'_> {
             radius: body.radius,
             boundary_radius: self.config.boundary_radius,
             sun_dir: self.sun_dir,
-            a_rad: self.a_rad,
+            push: match &self.a_rad {
+                Some(grid) => integrate::Push::Doppler {
+                    grid,
+                    helio_radial_velocity: self.helio_radial_velocity,
+                },
+                None => integrate::Push::Constant(0.0),
+            },
         };
         let tol =
             integrate::Tolerance::relative(self.config.integrator_tolerance, body.gm, body.radius);

@@ -1,175 +1,70 @@
-//! Resonance-scattering g-factors and the brightness they give.
+//! The brightness that resonance scattering gives, and the g-factor that
+//! `observe` uses for it.
 //!
 //! Why this exists: an optically thin exosphere scatters g photons per
-//! second per atom, and g depends on where the atoms sit in the solar
-//! Fraunhofer line, i.e. on their heliocentric radial velocity (Doppler
-//! shift), and on the solar flux (1 / r^2). The brightness of a column N is
-//! 4 pi I = g N / 10^6 rayleigh. A user supplies a table measured or
-//! computed for their case; a built-in sodium table, recalled from memory,
-//! serves for quick looks.
-//!
-//! Table file (our own layout): comment lines start with `#`; the first
-//! other line is the header `radial_velocity_km_s,g_photons_per_s_per_atom`
-//! (the units are in the names); then one row per velocity, increasing.
-//! g is given at 1 AU.
+//! second per atom, and the brightness of a column N is 4 pi I = g N / 10^6
+//! rayleigh. g itself (its dependence on the atoms' heliocentric radial
+//! velocity through the solar Fraunhofer line, and on 1 / r^2) is the same
+//! model the engine uses for radiation pressure, [`crate::radiation`]; here
+//! `observe` picks the table: the view's own file, else the one the run
+//! used (recorded in its `exosphere.nc`), else the species' built-in table.
+//! The table file layout is described in [`crate::radiation::file`].
 
-use std::path::Path;
+use crate::radiation::{GFactorModel, GFactorTable};
+use crate::species::Species;
 
 /// Photons cm^-2 s^-1 (into 4 pi sr) per rayleigh: 1 R = 10^6 / (4 pi)
 /// photons cm^-2 s^-1 sr^-1 (Hunten, Roach & Chamberlain 1956).
 pub const PHOTONS_PER_RAYLEIGH: f64 = 1.0e6;
 
-/// The header a table file must have.
-pub const TABLE_HEADER: &str = "radial_velocity_km_s,g_photons_per_s_per_atom";
+/// The netCDF global attribute of `exosphere.nc` holding the run's
+/// g-factor table in the file layout (text).
+pub const RUN_TABLE_ATTRIBUTE: &str = "g_factor_table";
 
-/// g at 1 AU against heliocentric radial velocity.
-#[derive(Clone, Debug, PartialEq)]
-pub struct GFactorTable {
-    /// Heliocentric radial velocities, km s^-1, increasing.
-    pub velocity_km_s: Vec<f64>,
-    /// g-factors at 1 AU, photons s^-1 atom^-1.
-    pub g_1au: Vec<f64>,
-    /// Where the table came from (a file, or the built-in note).
-    pub origin: String,
+/// The netCDF global attribute of `exosphere.nc` naming the run's table's origin.
+pub const RUN_ORIGIN_ATTRIBUTE: &str = "g_factor_origin";
+
+/// The g-factor model for `observe`: the view's table file `view_table`
+/// if given, else the run's table `run_table` (its text and origin, from
+/// `exosphere.nc`), else the built-in table of `species` (`Na` or `K`).
+pub fn model_for(
+    species: &str,
+    view_table: Option<&std::path::Path>,
+    run_table: Option<(&str, &str)>,
+) -> Result<GFactorModel, String> {
+    let sp = Species::by_name(species).ok_or_else(|| {
+        format!("the run's species `{species}` is not known to `observe`; it knows Na and K")
+    })?;
+    let table = match (view_table, run_table) {
+        (Some(p), _) => GFactorTable::read(p)?,
+        (None, Some((text, origin))) => {
+            let mut t = GFactorTable::parse(text, "the run's g-factor table (exosphere.nc)")?;
+            t.origin = format!("the run's table: {origin}");
+            t
+        }
+        (None, None) => return Ok(sp.g_factors),
+    };
+    Ok(sp.with_g_factor_table(table)?.g_factors)
 }
 
-impl GFactorTable {
-    /// The built-in table for sodium (D2 + D1 together). From memory: the
-    /// shape of Killen, Shemansky & Mouawad (2009, ApJS 181, 351), about
-    /// 0.8 photons s^-1 atom^-1 at rest at 1 AU (from memory, Killen, Shemansky
-    /// & Mouawad 2009, ApJS 181, 351: D2 0.3-0.6
-    /// plus D1 0.2-0.35) rising about four-fold by 10 km s^-1 as the line
-    /// leaves the Fraunhofer core; symmetric in the velocity. Good to a
-    /// factor of about 2: supply a table for quantitative work.
-    pub fn sodium_from_memory() -> GFactorTable {
-        let half = [
-            (0.0, 0.80),
-            (1.0, 0.85),
-            (2.0, 1.00),
-            (3.0, 1.25),
-            (4.0, 1.55),
-            (5.0, 1.90),
-            (6.0, 2.20),
-            (8.0, 2.70),
-            (10.0, 3.10),
-            (12.0, 3.40),
-            (15.0, 3.60),
-            (20.0, 3.70),
-            (30.0, 3.80),
-        ];
-        let mut velocity_km_s = Vec::new();
-        let mut g_1au = Vec::new();
-        for &(v, g) in half.iter().rev().filter(|(v, _)| *v > 0.0) {
-            velocity_km_s.push(-v);
-            g_1au.push(g);
-        }
-        for &(v, g) in &half {
-            velocity_km_s.push(v);
-            g_1au.push(g);
-        }
-        GFactorTable {
-            velocity_km_s,
-            g_1au,
-            origin: "built-in Na D1+D2 table, from memory (Killen, Shemansky & Mouawad 2009 \
-                     shape), good to a factor of about 2"
-                .into(),
-        }
+/// Total g over the lines, photons s^-1 atom^-1, at heliocentric radial
+/// velocity `v_km_s` (km s^-1) and distance `r_au` (AU); an error if the
+/// table does not reach `v_km_s` (for a brightness, asked explicitly, the
+/// end value would be a guess).
+pub fn g_at(model: &GFactorModel, v_km_s: f64, r_au: f64) -> Result<f64, String> {
+    if !model.covers(v_km_s * 1e3) {
+        let vs = &model.table.velocity_km_s;
+        let lo = if model.table.symmetric() { -vs[vs.len() - 1] } else { vs[0] };
+        return Err(format!(
+            "radial velocity {v_km_s} km/s is outside the g-factor table ({lo} to {} km/s, {})",
+            vs[vs.len() - 1],
+            model.table.origin
+        ));
     }
-
-    /// The built-in table for `species`, or an error saying to supply one.
-    pub fn built_in(species: &str) -> Result<GFactorTable, String> {
-        match species {
-            "Na" => Ok(GFactorTable::sodium_from_memory()),
-            other => Err(format!(
-                "there is no built-in g-factor table for `{other}`; give one with \
-                 `g_factor_table = \"FILE.csv\"` in the view's [brightness] table \
-                 (header `{TABLE_HEADER}`)"
-            )),
-        }
+    if !(r_au > 0.0) {
+        return Err(format!("heliocentric distance {r_au} AU must be positive"));
     }
-
-    /// Parse a table file's text; `file` names it in errors.
-    pub fn parse(text: &str, file: &str) -> Result<GFactorTable, String> {
-        let mut lines = text
-            .lines()
-            .enumerate()
-            .map(|(i, l)| (i + 1, l.trim()))
-            .filter(|(_, l)| !l.is_empty() && !l.starts_with('#'));
-        let Some((hl, header)) = lines.next() else {
-            return Err(format!("`{file}`: empty g-factor table"));
-        };
-        let header: String = header.split(',').map(str::trim).collect::<Vec<_>>().join(",");
-        if header != TABLE_HEADER {
-            return Err(format!(
-                "`{file}` line {hl}: the header is `{header}`; a g-factor table starts with \
-                 `{TABLE_HEADER}` (velocity in km/s, g at 1 AU in photons s^-1 atom^-1)"
-            ));
-        }
-        let mut velocity_km_s = Vec::new();
-        let mut g_1au = Vec::new();
-        for (ln, l) in lines {
-            let cols: Vec<&str> = l.split(',').map(str::trim).collect();
-            let num = |s: &str| s.parse::<f64>().ok().filter(|x| x.is_finite());
-            let (Some(v), Some(g), 2) =
-                (cols.first().and_then(|s| num(s)), cols.get(1).and_then(|s| num(s)), cols.len())
-            else {
-                return Err(format!(
-                    "`{file}` line {ln}: expected two numbers `velocity,g`, found `{l}`"
-                ));
-            };
-            if g < 0.0 {
-                return Err(format!("`{file}` line {ln}: a g-factor cannot be negative ({g})"));
-            }
-            if let Some(&last) = velocity_km_s.last()
-                && v <= last
-            {
-                return Err(format!(
-                    "`{file}` line {ln}: velocities must increase ({v} after {last})"
-                ));
-            }
-            velocity_km_s.push(v);
-            g_1au.push(g);
-        }
-        if velocity_km_s.is_empty() {
-            return Err(format!("`{file}`: the g-factor table has no rows"));
-        }
-        Ok(GFactorTable { velocity_km_s, g_1au, origin: format!("file {file}") })
-    }
-
-    /// Read a table file.
-    pub fn read(path: &Path) -> Result<GFactorTable, String> {
-        let text = std::fs::read_to_string(path)
-            .map_err(|e| format!("cannot read the g-factor table `{}`: {e}", path.display()))?;
-        GFactorTable::parse(&text, &path.display().to_string())
-    }
-
-    /// g at heliocentric radial velocity `v_km_s` (km s^-1) and distance
-    /// `r_au` (AU), photons s^-1 atom^-1: linear interpolation in the
-    /// table, scaled by 1 / r_AU^2. A table of non-negative velocities only
-    /// is read as symmetric (|v|). Outside the table is an error.
-    pub fn at(&self, v_km_s: f64, r_au: f64) -> Result<f64, String> {
-        let (vs, gs) = (&self.velocity_km_s, &self.g_1au);
-        let v = if vs[0] >= 0.0 { v_km_s.abs() } else { v_km_s };
-        let (lo, hi) = (vs[0], vs[vs.len() - 1]);
-        if !(v >= lo && v <= hi) {
-            return Err(format!(
-                "radial velocity {v_km_s} km/s is outside the g-factor table ({lo} to {hi} \
-                 km/s, {})",
-                self.origin
-            ));
-        }
-        if !(r_au > 0.0) {
-            return Err(format!("heliocentric distance {r_au} AU must be positive"));
-        }
-        let g = if vs.len() == 1 {
-            gs[0]
-        } else {
-            let k = vs.partition_point(|&x| x <= v).clamp(1, vs.len() - 1);
-            let f = (v - vs[k - 1]) / (vs[k] - vs[k - 1]);
-            gs[k - 1] + f * (gs[k] - gs[k - 1])
-        };
-        Ok(g / (r_au * r_au))
-    }
+    Ok(model.g_total(v_km_s * 1e3, r_au))
 }
 
 /// Brightness 4 pi I, rayleigh, of an optically thin column `column_cm2`
@@ -197,37 +92,48 @@ mod tests {
     }
 
     #[test]
-    fn built_in_sodium_table_is_within_the_published_range() {
-        // From memory: Killen, Shemansky & Mouawad 2009 (ApJS 181, 351) tables:
-        // at rest D2 0.3-0.6 plus D1 0.2-0.35, rising 3-5x by 10 km/s.
-        let t = GFactorTable::built_in("Na").unwrap();
-        let g0 = t.at(0.0, 1.0).unwrap();
-        assert!((0.5..=0.95).contains(&g0), "{g0}");
-        let ratio = t.at(10.0, 1.0).unwrap() / g0;
-        assert!((3.0..=5.0).contains(&ratio), "{ratio}");
-        assert_eq!(t.at(-7.0, 1.0).unwrap(), t.at(7.0, 1.0).unwrap());
-        // Solar flux falls as 1/r^2 (law): at 0.4 AU, 6.25 times more.
-        assert!((t.at(3.0, 0.4).unwrap() / t.at(3.0, 1.0).unwrap() - 6.25).abs() < 1e-12);
-        assert!(GFactorTable::built_in("K").unwrap_err().contains("g_factor_table"));
+    fn observe_and_engine_share_one_g_factor() {
+        // The brightness g is the sum of the lines' g from the same model the
+        // engine's push comes from: at Mercury (0.35 AU) and 10 km/s the
+        // engine's acceleration equals sum_l h g_l / (m lambda_l) of the
+        // g's `observe` uses (definition of the law, one code path).
+        let na = Species::sodium();
+        let m = model_for("Na", None, None).unwrap();
+        assert_eq!(m, na.g_factors);
+        let (v, r) = (10.0, 0.35);
+        let g = g_at(&m, v, r).unwrap();
+        let lines: f64 = (0..2).map(|k| m.g_column(k, v * 1e3, r)).sum();
+        assert_eq!(g, lines);
+        let grid = na.g_factors.acceleration_grid(r);
+        let a: f64 = (0..2).map(|k| m.push_per_photon[k] * m.g_column(k, v * 1e3, r)).sum();
+        assert!((grid.at(v * 1e3) - a).abs() <= 1e-12 * a);
+        // Built-in Na at rest at 1 AU: D2 0.54 + D1 0.271 (radiation/tables.rs).
+        assert!((g_at(&m, 0.0, 1.0).unwrap() - 0.811).abs() < 1e-12);
+        // Symmetric table: the sign of v does not matter; 1/r^2 (law).
+        assert_eq!(g_at(&m, -7.0, 1.0).unwrap(), g_at(&m, 7.0, 1.0).unwrap());
+        assert!((g_at(&m, 3.0, 0.4).unwrap() / g_at(&m, 3.0, 1.0).unwrap() - 6.25).abs() < 1e-12);
+        // Beyond the table `observe` refuses rather than guess.
+        assert!(g_at(&m, 61.0, 1.0).unwrap_err().contains("outside"));
+        // K has a (low-confidence) built-in table now; unknown species are refused.
+        assert!(model_for("K", None, None).is_ok());
+        assert!(model_for("Ca", None, None).unwrap_err().contains("Ca"));
     }
 
     #[test]
-    fn table_files_parse_and_refuse() {
-        let t = GFactorTable::parse(
-            "# made up for the test\nradial_velocity_km_s, g_photons_per_s_per_atom\n\
-             -10,2\n0,1\n10,3\n",
-            "t.csv",
-        )
-        .unwrap();
-        // Linear interpolation between rows (definition).
-        assert!((t.at(5.0, 1.0).unwrap() - 2.0).abs() < 1e-12);
-        assert!((t.at(-5.0, 1.0).unwrap() - 1.5).abs() < 1e-12);
-        assert!(t.at(11.0, 1.0).unwrap_err().contains("outside"));
-        let e = GFactorTable::parse("v,g\n0,1\n", "t.csv").unwrap_err();
-        assert!(e.contains("t.csv") && e.contains(TABLE_HEADER), "{e}");
-        let e = GFactorTable::parse(&format!("{TABLE_HEADER}\n0,1\n0,2\n"), "t.csv").unwrap_err();
-        assert!(e.contains("line 3") && e.contains("increase"), "{e}");
-        let e = GFactorTable::parse(&format!("{TABLE_HEADER}\n0,x\n"), "t.csv").unwrap_err();
-        assert!(e.contains("line 2"), "{e}");
+    fn the_run_table_serves_observe_unless_the_view_gives_one() {
+        let run_text = "radial_velocity_km_s,g_photons_per_s_per_atom\n0,2\n10,4\n";
+        let m = model_for("Na", None, Some((run_text, "file u.csv (sha256 abc)"))).unwrap();
+        assert!(m.table.origin.contains("u.csv"));
+        assert!((g_at(&m, 5.0, 1.0).unwrap() - 3.0).abs() < 1e-12);
+        let e = model_for("Na", None, Some(("nonsense\n", "x"))).unwrap_err();
+        assert!(e.contains("exosphere.nc"), "{e}");
+        // A view's file wins over the run's table.
+        let dir = std::env::temp_dir().join(format!("exobound-obs-g-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let p = dir.join("view-g.csv");
+        std::fs::write(&p, "radial_velocity_km_s,g_photons_per_s_per_atom\n0,7\n").unwrap();
+        let m = model_for("Na", Some(&p), Some((run_text, "x"))).unwrap();
+        assert_eq!(g_at(&m, 0.0, 1.0).unwrap(), 7.0);
+        std::fs::remove_dir_all(&dir).unwrap();
     }
 }

@@ -23,9 +23,10 @@ use exobound_products::{
 use serde::Serialize;
 
 use crate::output::{PROVENANCE_FILE, atomic_write, staged};
+use crate::radiation::GFactorTable;
 use crate::vec3;
 use field::DensityField;
-use gfactor::{GFactorTable, brightness_rayleigh};
+use gfactor::brightness_rayleigh;
 use sightline::{Cuts, Ray, column};
 use view::{Distant, Geometry, Orbiter, View};
 
@@ -186,12 +187,17 @@ pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observati
     let view = view::read(view_path, field.radius)?;
     let attr_num = |k: &str| ds.attribute(k).and_then(|a| a.as_number());
     let species = ds.attribute("species").and_then(|a| a.as_text()).unwrap_or("Na").to_string();
-    let table = match &view.g_factor_table {
-        Some(p) => GFactorTable::read(p)?,
-        None => {
-            GFactorTable::built_in(&species).map_err(|e| format!("{}: {e}", view_path.display()))?
-        }
-    };
+    let run_table = ds
+        .attribute(gfactor::RUN_TABLE_ATTRIBUTE)
+        .and_then(|a| a.as_text())
+        .map(|t| (t, ds.attribute(gfactor::RUN_ORIGIN_ATTRIBUTE).and_then(|a| a.as_text())));
+    let model = gfactor::model_for(
+        &species,
+        view.g_factor_table.as_deref(),
+        run_table.map(|(t, o)| (t, o.unwrap_or("recorded in exosphere.nc"))),
+    )
+    .map_err(|e| format!("{}: {e}", view_path.display()))?;
+    let table = &model.table;
     let r_au = view.heliocentric_distance.or(attr_num("heliocentric_distance_au")).ok_or(
         "the run records no heliocentric distance; set [brightness] heliocentric_distance",
     )?;
@@ -200,10 +206,11 @@ pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observati
         .map(|v| v / 1e3)
         .or(attr_num("heliocentric_radial_velocity_km_s"))
         .unwrap_or(0.0);
-    let g = table.at(v_km_s, r_au).map_err(|e| format!("{}: {e}", view_path.display()))?;
+    let g =
+        gfactor::g_at(&model, v_km_s, r_au).map_err(|e| format!("{}: {e}", view_path.display()))?;
 
     staged(out, |dir| {
-        let obs = compute_and_write(dir, &field, &view, g, &table, r_au, v_km_s).map(
+        let obs = compute_and_write(dir, &field, &view, g, table, r_au, v_km_s).map(
             |(samples, geometry, phase, pa)| Observation {
                 run_dir: run_dir.display().to_string(),
                 view_file: view_path.display().to_string(),
@@ -235,6 +242,7 @@ pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observati
             "view_file": view_path.display().to_string(),
             "view_text": std::fs::read_to_string(view_path).unwrap_or_default(),
             "g_factor_origin": table.origin,
+            "g_factor_sha256": table.sha256,
         });
         let json = serde_json::to_vec_pretty(&prov).map_err(|e| e.to_string())?;
         atomic_write(&dir.join(PROVENANCE_FILE), &json).map_err(|e| e.to_string())?;

@@ -32,6 +32,11 @@ pub fn dataset(
     ds.set_attribute("comment", prov.caution.clone());
     ds.set_attribute("body", scenario.model.body.name.clone());
     ds.set_attribute("species", scenario.model.species.name.clone());
+    // The g-factor table the run used (radiation pressure), which `observe`
+    // then uses for this run's brightness unless its view gives one.
+    let g_table = &scenario.model.species.g_factors.table;
+    ds.set_attribute(crate::observe::gfactor::RUN_ORIGIN_ATTRIBUTE, g_table.origin.clone());
+    ds.set_attribute(crate::observe::gfactor::RUN_TABLE_ATTRIBUTE, g_table.to_text());
     ds.set_attribute("seed", scenario.config.seed as f64);
     ds.set_attribute("estimator", crate::tally::DensityTally::ESTIMATOR);
     // Geometry and illumination that lines of sight (`exobound observe`) need.

@@ -30,6 +30,15 @@ pub struct ModuleRecord {
     pub parameters: serde_json::Value,
 }
 
+/// The g-factor table a run used.
+#[derive(Clone, Debug, Serialize)]
+pub struct GFactorRecord {
+    /// The built-in table's name and sources, or the file's path and digest.
+    pub origin: String,
+    /// SHA-256 of the table file, hex (`None` for a built-in table).
+    pub sha256: Option<String>,
+}
+
 /// The provenance of a run.
 #[derive(Clone, Debug, Serialize)]
 pub struct Provenance {
@@ -51,6 +60,8 @@ pub struct Provenance {
     pub scenario_text: String,
     /// The modules, in scenario order.
     pub modules: Vec<ModuleRecord>,
+    /// The g-factor table behind radiation pressure and brightness.
+    pub g_factor_table: GFactorRecord,
     /// A reminder of what the numbers are.
     pub caution: String,
 }
@@ -80,6 +91,10 @@ impl Provenance {
                     parameters: serde_json::to_value(&m.parameters).unwrap_or_default(),
                 })
                 .collect(),
+            g_factor_table: GFactorRecord {
+                origin: scenario.model.species.g_factors.table.origin.clone(),
+                sha256: scenario.model.species.g_factors.table.sha256.clone(),
+            },
             caution: "Model output: a scientific estimate from a Monte Carlo model, not \
                       flight-operations data."
                 .into(),

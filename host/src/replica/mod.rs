@@ -217,8 +217,8 @@ const RUN_KEYS_IGNORED: [&str; 3] = ["seed", "threads", "checkpoint_every"];
 
 /// What [`scenario_digest`] hashes: the engine and ABI versions, the
 /// resolved scenario without the keys of [`RUN_KEYS_IGNORED`] and the
-/// `[sandbox]` table, and every module's name, version, role, SHA-256 and
-/// parameters.
+/// `[sandbox]` table, every module's name, version, role, SHA-256 and
+/// parameters, and the g-factor table's record if there is one.
 pub fn identity(p: &ProvenanceFile) -> Value {
     let mut resolved = p.scenario_resolved.clone();
     if let Some(obj) = resolved.as_object_mut() {
@@ -239,12 +239,19 @@ pub fn identity(p: &ProvenanceFile) -> Value {
             })
         })
         .collect();
-    json!({
+    let mut id = json!({
         "engine_version": p.engine_version,
         "abi_version": p.abi_version,
         "scenario": resolved,
         "modules": modules,
-    })
+    });
+    // The g-factor table (its origin and file digest), when the run records
+    // one: replicas whose tables differ are different runs. Left out when
+    // absent, so older runs keep their digest.
+    if let (Some(g), Some(obj)) = (p.other.get("g_factor_table"), id.as_object_mut()) {
+        obj.insert("g_factor_table".into(), g.clone());
+    }
+    id
 }
 
 /// SHA-256 (hex) of the compact JSON of [`identity`]: equal for replicas of

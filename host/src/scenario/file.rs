@@ -136,6 +136,10 @@ pub struct BodySection {
 pub struct SpeciesSection {
     /// `sodium` (or `Na`) or `potassium` (or `K`).
     pub name: String,
+    /// A g-factor table file (CSV, relative to the scenario file) for
+    /// radiation pressure and brightness (default: the species' built-in table).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub g_factor_table: Option<String>,
 }
 
 /// `[surface]`.
@@ -247,7 +251,8 @@ pub struct RunSection {
     /// Checkpoint interval in simulated time, e.g. "1 d" (default: none).
     #[serde(default)]
     pub checkpoint_every: Option<String>,
-    /// Integrate with radiation pressure (default false).
+    /// Integrate with radiation pressure (default true for Mercury, false
+    /// for the Moon and a custom body).
     #[serde(default)]
     pub radiation_pressure: Option<bool>,
     /// Outer boundary in body radii (default 20).

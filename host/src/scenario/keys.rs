@@ -236,6 +236,7 @@ const TAKES: &[(&str, Takes)] = &[
     ("body.equinox_true_anomaly", Takes::Quantity(Kind::Angle, "0 deg")),
     ("body.start_solar_longitude", Takes::Quantity(Kind::Angle, "90 deg")),
     ("species.name", Takes::Text("sodium")),
+    ("species.g_factor_table", Takes::Text("g-factors-na.csv")),
     ("surface.latitude_cells", Takes::Whole("18")),
     ("surface.longitude_cells", Takes::Whole("36")),
     ("surface.bulk_map", Takes::Text("maps/bulk-sodium.csv")),

@@ -250,6 +250,7 @@ impl Validator<'_> {
                 ));
             }
         };
+        let species = self.g_factor_table(&file, species)?;
         let s = &file.surface;
         let n_lat = s.latitude_cells.unwrap_or(18);
         let n_lon = s.longitude_cells.unwrap_or(36);
@@ -347,6 +348,32 @@ impl Validator<'_> {
             config,
             plan,
         })
+    }
+
+    /// `species` with the table `species.g_factor_table` names, if any:
+    /// read relative to the scenario's directory, checked against the
+    /// species' lines; errors name the file, its line and column, and the key.
+    fn g_factor_table(
+        &self,
+        file: &ScenarioFile,
+        species: Species,
+    ) -> Result<Species, ScenarioError> {
+        const KEY: &str = "species.g_factor_table";
+        let Some(rel) = &file.species.g_factor_table else {
+            return Ok(species);
+        };
+        let path = match self.inputs {
+            Inputs::Dir(d) => d.join(rel),
+            Inputs::Demo => {
+                return Err(self.err(
+                    KEY,
+                    "the built-in demo has no table files; write the scenario to a file \
+                     (`exobound demo --write DIR`) and put the table beside it",
+                ));
+            }
+        };
+        let table = crate::radiation::GFactorTable::read(&path).map_err(|e| self.err(KEY, e))?;
+        species.with_g_factor_table(table).map_err(|e| self.err(KEY, e))
     }
 
     fn body(&self, file: &ScenarioFile) -> Result<Body, ScenarioError> {
@@ -761,7 +788,11 @@ impl Validator<'_> {
                 ));
             }
         };
-        c.radiation_pressure = r.radiation_pressure.unwrap_or(false);
+        // On by default where it matters: for sodium at Mercury the push
+        // reaches about half of the surface gravity; at the Moon a few per
+        // cent, and the closed-form hops are far cheaper.
+        c.radiation_pressure =
+            r.radiation_pressure.unwrap_or(file.body.name.eq_ignore_ascii_case("mercury"));
         c.escape_when_unbound = r.remove_unbound_at_launch.unwrap_or(false);
         let radii = r.boundary_radii.unwrap_or(20.0);
         if !(radii > 1.0 && radii <= bounds::BOUNDARY_RADII_MAX) {
