@@ -455,13 +455,15 @@ fn radiation_pressure_is_on_by_default_for_mercury_only() {
     // docs/scenario.md: default true for Mercury, false for the Moon.
     let moon = Scenario::demo(true, &[], &rt).unwrap();
     assert!(!moon.config.radiation_pressure);
-    let mercury = Scenario::demo(true, &["body.name=\"mercury\"".into()], &rt).unwrap();
-    assert!(mercury.config.radiation_pressure);
-    let off = Scenario::demo(
-        true,
-        &["body.name=\"mercury\"".into(), "run.radiation_pressure=false".into()],
-        &rt,
-    )
-    .unwrap();
-    assert!(!off.config.radiation_pressure);
+    // The demo at Mercury: its lunar phase key gives way to Mercury's own.
+    let text = exobound::scenario::demo::scenario_text(true)
+        .replace("name = \"moon\"", "name = \"mercury\"")
+        .replace("start_lunar_phase = 0.0", "start_true_anomaly = \"0 deg\"")
+        .replace("heliocentric_distance = \"1 AU\"\n", "");
+    let at = |o: &[String]| {
+        Scenario::from_text(&text, "demo at Mercury", exobound::scenario::Inputs::Demo, o, &rt)
+            .unwrap()
+    };
+    assert!(at(&[]).config.radiation_pressure);
+    assert!(!at(&["run.radiation_pressure=false".into()]).config.radiation_pressure);
 }

@@ -38,8 +38,9 @@ title = "{title}"
 
 [body]
 name = "moon"
-subsolar_latitude = "0 deg"
-subsolar_longitude = "0 deg"
+# New moon at the start (the Sun over the far side), so full moon falls at
+# day 14.8, inside the geomagnetic-tail interval below.
+start_lunar_phase = 0.0
 
 [species]
 name = "sodium"
