@@ -14,6 +14,7 @@ mod orbit;
 mod output_lock;
 mod parameters;
 mod replica;
+mod resolved_fields;
 mod run_outputs;
 mod safe_text;
 mod sandbox;

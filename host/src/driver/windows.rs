@@ -27,6 +27,14 @@ pub struct Averages {
     pub density_sum: Vec<f64>,
     /// Sum over windows of (mean column x snapshots), atoms cm^-2, layout (lt, lat).
     pub column_sum: Vec<f64>,
+    /// Per source: sum over windows of (mean density x snapshots), atoms
+    /// cm^-3, layout (source, alt, lt, lat).
+    #[serde(default)]
+    pub density_by_source_sum: Vec<f64>,
+    /// Per source: sum over windows of (mean column x snapshots), atoms
+    /// cm^-2, layout (source, lt, lat).
+    #[serde(default)]
+    pub column_by_source_sum: Vec<f64>,
     /// Atoms released from each surface cell.
     pub released: Vec<f64>,
     /// Atoms that stuck in each surface cell.
@@ -47,6 +55,18 @@ impl Averages {
         let s = self.snapshots.max(1) as f64;
         self.column_sum.iter().map(|x| x / s).collect()
     }
+
+    /// Mean density by source, atoms cm^-3, layout (source, alt, lt, lat).
+    pub fn density_by_source_cm3(&self) -> Vec<f64> {
+        let s = self.snapshots.max(1) as f64;
+        self.density_by_source_sum.iter().map(|x| x / s).collect()
+    }
+
+    /// Mean vertical column by source, atoms cm^-2, layout (source, lt, lat).
+    pub fn column_by_source_cm2(&self) -> Vec<f64> {
+        let s = self.snapshots.max(1) as f64;
+        self.column_by_source_sum.iter().map(|x| x / s).collect()
+    }
 }
 
 /// The summary measures of one window.
@@ -58,6 +78,16 @@ pub struct WindowRecord {
     pub end: f64,
     /// Whether the window lies in the spin-up.
     pub spin_up: bool,
+    /// Snapshots (steps) averaged in the window, dimensionless.
+    #[serde(default)]
+    pub snapshots: u64,
+    /// The window's mean vertical column, atoms cm^-2, layout (lt, lat).
+    #[serde(default)]
+    pub column: Vec<f64>,
+    /// The window's mean density in the lowest altitude bin, atoms cm^-3,
+    /// layout (lt, lat).
+    #[serde(default)]
+    pub near_surface_density: Vec<f64>,
     /// Mean atoms in flight, atoms.
     pub content: f64,
     /// Mean atoms in flight and in sunlight, atoms.
@@ -211,6 +241,9 @@ impl RunRecord {
             start: from as f64 * dt,
             end: to as f64 * dt,
             spin_up,
+            snapshots: snaps,
+            column: column.clone(),
+            near_surface_density: density[..n_lt * n_lat].to_vec(),
             content: rows.iter().map(|r| r.in_flight).sum::<f64>() / n,
             sunlit_content: sunlit.iter().sum::<f64>() / n,
             adsorbed: rows.last().map_or(0.0, |r| r.adsorbed),
@@ -247,6 +280,9 @@ impl RunRecord {
             if a.density_sum.is_empty() {
                 a.density_sum = vec![0.0; n_alt * n_lt * n_lat];
                 a.column_sum = vec![0.0; n_lt * n_lat];
+                let n_src = tally.n_sources();
+                a.density_by_source_sum = vec![0.0; n_src * n_alt * n_lt * n_lat];
+                a.column_by_source_sum = vec![0.0; n_src * n_lt * n_lat];
                 let cells = sim.model().grid.len();
                 a.released = vec![0.0; cells];
                 a.stuck = vec![0.0; cells];
@@ -257,6 +293,12 @@ impl RunRecord {
                 *acc += d * s;
             }
             for (acc, c) in a.column_sum.iter_mut().zip(&column) {
+                *acc += c * s;
+            }
+            for (acc, d) in a.density_by_source_sum.iter_mut().zip(&tally.density_by_source_cm3()) {
+                *acc += d * s;
+            }
+            for (acc, c) in a.column_by_source_sum.iter_mut().zip(&tally.column_by_source_cm2()) {
                 *acc += c * s;
             }
             let maps = sim.maps();

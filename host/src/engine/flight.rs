@@ -377,6 +377,7 @@ impl StepContext<'_> {
                 local_time,
                 latitude: lat,
                 sunlit: shadow::is_sunlit(r, self.sun_dir, radius),
+                source: chunk.source[i],
             });
             if self.n_losses > 0 {
                 s.records.push(InFlight {

@@ -278,7 +278,8 @@ impl Simulation {
             EngineError::Config(
                 "alt_edges must increase from >= 0 m; bin counts must be > 0".into(),
             )
-        })?;
+        })?
+        .with_sources(processes.sources.len());
         let pool =
             rayon::ThreadPoolBuilder::new().num_threads(config.threads.max(1)).build().map_err(
                 |e| EngineError::Config(format!("cannot start {} threads: {e}", config.threads)),

@@ -29,6 +29,15 @@ pub struct DensityTally {
     area_cm2: Vec<f64>,
     weight: Vec<f64>,
     column_weight: Vec<f64>,
+    /// Per source: the density bins' weights, layout (source, alt, lt, lat).
+    #[serde(default)]
+    source_weight: Vec<f64>,
+    /// Per source: the columns' weights, layout (source, lt, lat).
+    #[serde(default)]
+    source_column_weight: Vec<f64>,
+    /// Sources the tally splits by (0: no split).
+    #[serde(default)]
+    n_sources: usize,
     snapshots: u64,
 }
 
@@ -83,8 +92,25 @@ impl DensityTally {
             area_cm2,
             weight: vec![0.0; n],
             column_weight: vec![0.0; n_lt * n_lat],
+            source_weight: Vec::new(),
+            source_column_weight: Vec::new(),
+            n_sources: 0,
             snapshots: 0,
         })
+    }
+
+    /// The same tally, also split by the source that released each atom:
+    /// `n_sources` sources, indexed as [`super::Sighting::source`].
+    pub fn with_sources(mut self, n_sources: usize) -> DensityTally {
+        self.n_sources = n_sources;
+        self.source_weight = vec![0.0; n_sources * self.weight.len()];
+        self.source_column_weight = vec![0.0; n_sources * self.column_weight.len()];
+        self
+    }
+
+    /// Sources the tally is split by, dimensionless.
+    pub fn n_sources(&self) -> usize {
+        self.n_sources
     }
 
     /// Altitude bin edges, m.
@@ -130,6 +156,20 @@ impl DensityTally {
         self.column_weight[column] += w;
     }
 
+    /// [`DensityTally::add`], and the same weight to source `source`'s
+    /// share when the tally is split by source.
+    #[inline]
+    pub fn add_from(&mut self, source: u16, bin: Option<usize>, column: usize, w: f64) {
+        self.add(bin, column, w);
+        let s = source as usize;
+        if s < self.n_sources {
+            if let Some(b) = bin {
+                self.source_weight[s * self.weight.len() + b] += w;
+            }
+            self.source_column_weight[s * self.column_weight.len() + column] += w;
+        }
+    }
+
     /// Close one snapshot.
     pub fn end_snapshot(&mut self) {
         self.snapshots += 1;
@@ -150,6 +190,26 @@ impl DensityTally {
     pub fn column_cm2(&self) -> Vec<f64> {
         let s = self.snapshots.max(1) as f64;
         self.column_weight.iter().zip(&self.area_cm2).map(|(w, a)| w / s / a).collect()
+    }
+
+    /// Mean density per source and bin, atoms cm^-3, layout (source, alt,
+    /// lt, lat); empty when the tally is not split by source.
+    pub fn density_by_source_cm3(&self) -> Vec<f64> {
+        let s = self.snapshots.max(1) as f64;
+        let n = self.volume_cm3.len();
+        self.source_weight.iter().enumerate().map(|(k, w)| w / s / self.volume_cm3[k % n]).collect()
+    }
+
+    /// Mean vertical column per source, atoms cm^-2, layout (source, lt,
+    /// lat); empty when the tally is not split by source.
+    pub fn column_by_source_cm2(&self) -> Vec<f64> {
+        let s = self.snapshots.max(1) as f64;
+        let n = self.area_cm2.len();
+        self.source_column_weight
+            .iter()
+            .enumerate()
+            .map(|(k, w)| w / s / self.area_cm2[k % n])
+            .collect()
     }
 
     /// Mean weight per snapshot in each density bin, atoms.
@@ -181,6 +241,8 @@ impl DensityTally {
     pub fn reset(&mut self) {
         self.weight.iter_mut().for_each(|w| *w = 0.0);
         self.column_weight.iter_mut().for_each(|w| *w = 0.0);
+        self.source_weight.iter_mut().for_each(|w| *w = 0.0);
+        self.source_column_weight.iter_mut().for_each(|w| *w = 0.0);
         self.snapshots = 0;
     }
 }
@@ -195,7 +257,7 @@ impl super::Tally for DensityTally {
     }
 
     fn score(&mut self, (bin, column): Self::Place, s: &super::Sighting, dt: f64) {
-        self.add(bin, column, s.weight * s.dwell / dt);
+        self.add_from(s.source, bin, column, s.weight * s.dwell / dt);
     }
 
     fn end_step(&mut self) {

@@ -41,6 +41,9 @@ pub struct Sighting {
     pub latitude: f64,
     /// Whether the sampled point is in sunlight.
     pub sunlit: bool,
+    /// Index of the source module that released the atom (the order of
+    /// the scenario's sources), dimensionless.
+    pub source: u16,
 }
 
 /// Something that counts sightings: one filter, estimator and score.
