@@ -15,4 +15,6 @@ pub use colour::colour;
 pub use dataset::{AttrValue, Dataset, Variable};
 pub use error::ProductError;
 pub use netcdf::{read_netcdf, write_netcdf};
-pub use plots::{Line, LinePlot, LineStyle, MapPlot, Marker, draw_lines, draw_map};
+pub use plots::{
+    Line, LinePlot, LineStyle, MapPanels, MapPlot, Marker, draw_lines, draw_map, draw_map_panels,
+};

@@ -708,3 +708,165 @@ mod tests {
         assert!(outside.is_empty());
     }
 }
+
+/// Several maps of one quantity on one shared colour scale, drawn as a grid of small panels
+/// (small multiples): e.g. the column map of each averaging window of a run, so that its
+/// change with the phase or season shows at a glance.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MapPanels {
+    /// Figure title.
+    pub title: String,
+    /// Horizontal axis label, with its unit.
+    pub x_label: String,
+    /// Vertical axis label, with its unit.
+    pub y_label: String,
+    /// Cell edges along x, strictly increasing (nx + 1 values), shared by every panel.
+    pub x_edges: Vec<f64>,
+    /// Cell edges along y, strictly increasing (ny + 1 values), shared by every panel.
+    pub y_edges: Vec<f64>,
+    /// One (panel title, values row-major `[y][x]`) per panel, in reading order.
+    pub panels: Vec<(String, Vec<f64>)>,
+    /// Colour-bar label, with the unit.
+    pub colour_label: String,
+    /// Colour by log10 of the value (non-positive cells are then drawn grey).
+    pub log_scale: bool,
+    /// Panels per row, at least 1.
+    pub columns: usize,
+    /// Tick positions along x (default: round values).
+    pub x_ticks: Option<Vec<f64>>,
+    /// Tick positions along y (default: round values).
+    pub y_ticks: Option<Vec<f64>>,
+}
+
+/// Height of one row of [`MapPanels`], in pixels.
+const PANEL_ROW: u32 = 190;
+/// Size of the tick numbers of [`MapPanels`], in pixels.
+const PANEL_TICK_SIZE: f64 = 12.0;
+
+/// Draws `plot` as a PNG at `path`: [`MAP_SIZE`]'s width, one [`PANEL_ROW`] per row of panels.
+pub fn draw_map_panels(plot: &MapPanels, path: &Path) -> Result<(), ProductError> {
+    let nx = plot.x_edges.len().saturating_sub(1);
+    let ny = plot.y_edges.len().saturating_sub(1);
+    let bad = |m: String| Err(ProductError::file(path, format!("panels `{}`: {m}", plot.title)));
+    if nx == 0 || ny == 0 || plot.panels.is_empty() || plot.columns == 0 {
+        return bad("needs two edges along each axis, a panel and a column".into());
+    }
+    if let Some((name, v)) = plot.panels.iter().find(|(_, v)| v.len() != nx * ny) {
+        return bad(format!("panel `{name}` has {} values for a {ny}×{nx} grid", v.len()));
+    }
+    for (axis, edges) in [("x", &plot.x_edges), ("y", &plot.y_edges)] {
+        if edges.iter().any(|e| !e.is_finite()) || edges.windows(2).any(|w| w[1] <= w[0]) {
+            return bad(format!("{axis} edges must be finite and strictly increasing"));
+        }
+    }
+    ensure_registered().map_err(|e| e.in_file(path))?;
+    let to_coord = |v: f64| match plot.log_scale {
+        true if v > 0.0 && v.is_finite() => Some(v.log10()),
+        false if v.is_finite() => Some(v),
+        _ => None,
+    };
+    // One colour scale for every panel, so that panels compare by colour.
+    let all = plot.panels.iter().flat_map(|(_, v)| v.iter().filter_map(|&x| to_coord(x)));
+    let (mut lo, mut hi) = finite_extent(all).unwrap_or((0.0, 1.0));
+    if hi <= lo {
+        let pad = if plot.log_scale { 0.5 } else { lo.abs().max(1.0) * 0.5 };
+        (lo, hi) = (lo - pad, hi + pad);
+    }
+    let bar = if plot.log_scale { Axis::log10(lo, hi, 7) } else { Axis::linear(lo, hi, None, 6) };
+    let (x0, x1) = (plot.x_edges[0], plot.x_edges[nx]);
+    let (y0, y1) = (plot.y_edges[0], plot.y_edges[ny]);
+    let xa = Axis::linear(x0, x1, plot.x_ticks.as_deref(), 5);
+    let ya = Axis::linear(y0, y1, plot.y_ticks.as_deref(), 4);
+    let cols = plot.columns.min(plot.panels.len());
+    let rows = plot.panels.len().div_ceil(cols);
+    let (w, bottom_band) = (MAP_SIZE.0, 56);
+    let size = (w, TITLE_BAND + rows as u32 * PANEL_ROW + bottom_band);
+
+    raster::render(path, size, |root, labels| {
+        labels.push(title(&plot.title));
+        let area = root.margin(TITLE_BAND, bottom_band, 64, 0);
+        let (grid, _) = area.split_horizontally(w - 64 - BAR_PANEL);
+        let cells = grid.split_evenly((rows, cols));
+        let mut extent = (i32::MAX, i32::MIN, i32::MAX, i32::MIN);
+        for (k, (name, values)) in plot.panels.iter().enumerate() {
+            let mut chart = ChartBuilder::on(&cells[k])
+                .margin_top(20)
+                .margin_right(10)
+                .x_label_area_size(18)
+                .y_label_area_size(30)
+                .build_cartesian_2d(xa.clone(), ya.clone())?;
+            chart
+                .configure_mesh()
+                .disable_mesh()
+                .axis_style(INK)
+                .label_style((FAMILY, PANEL_TICK_SIZE))
+                .axis_desc_style((FAMILY, PANEL_TICK_SIZE))
+                .set_all_tick_mark_size(3)
+                .x_label_formatter(&|_| String::new())
+                .y_label_formatter(&|_| String::new())
+                .draw()?;
+            chart.draw_series((0..ny).flat_map(|j| (0..nx).map(move |i| (i, j))).map(|(i, j)| {
+                let fill = match to_coord(values[j * nx + i]) {
+                    Some(c) => rgb(colour(bar.fraction(c))),
+                    None => NO_DATA,
+                };
+                Rectangle::new(
+                    [(plot.x_edges[i], plot.y_edges[j]), (plot.x_edges[i + 1], plot.y_edges[j + 1])],
+                    fill.filled(),
+                )
+            }))?;
+            chart.draw_series([Rectangle::new([(x0, y0), (x1, y1)], INK.stroke_width(1))])?;
+            let (px, py) = chart.plotting_area().get_pixel_range();
+            extent = (
+                extent.0.min(px.start),
+                extent.1.max(px.end),
+                extent.2.min(py.start),
+                extent.3.max(py.end),
+            );
+            labels.push(
+                Label::new(name, (f64::from(px.start), f64::from(py.start) - 4.0), KEY_SIZE, INK_RGB)
+                    .anchored(Align::Start, Baseline::Bottom),
+            );
+            if k % cols == 0 {
+                for (t, text) in ya.ticks.iter().zip(&ya.labels) {
+                    let y = f64::from(chart.backend_coord(&(xa.lo, *t)).1);
+                    let at = (f64::from(px.start) - 6.0, y);
+                    labels.push(
+                        Label::new(text, at, PANEL_TICK_SIZE, INK_RGB)
+                            .anchored(Align::End, Baseline::Middle),
+                    );
+                }
+            }
+            if k / cols == rows - 1 || k + cols >= plot.panels.len() {
+                for (t, text) in xa.ticks.iter().zip(&xa.labels) {
+                    let x = f64::from(chart.backend_coord(&(*t, ya.lo)).0);
+                    labels.push(
+                        Label::new(text, (x, f64::from(py.end) + 5.0), PANEL_TICK_SIZE, INK_RGB)
+                            .anchored(Align::Middle, Baseline::Top),
+                    );
+                }
+            }
+        }
+        let (left, right, top, bottom) = extent;
+        let mid_x = f64::from(left + right) / 2.0;
+        labels.push(
+            Label::new(&plot.x_label, (mid_x, f64::from(bottom) + 24.0), AXIS_LABEL_SIZE, INK_RGB)
+                .anchored(Align::Middle, Baseline::Top),
+        );
+        let mid_y = f64::from(top + bottom) / 2.0;
+        labels.push(
+            Label::new(&plot.y_label, (AXIS_LABEL_SIZE + 4.0, mid_y), AXIS_LABEL_SIZE, INK_RGB)
+                .anchored(Align::Middle, Baseline::Bottom)
+                .upright(),
+        );
+        let bar_left = (w - BAR_PANEL) as i32 + 12;
+        let widest = colour_bar(root, &bar, bar_left, top, bottom, labels)?;
+        let label_x = f64::from(bar_left + BAR_WIDTH + 10) + widest + 14.0;
+        labels.push(
+            Label::new(&plot.colour_label, (label_x, mid_y), AXIS_LABEL_SIZE, INK_RGB)
+                .anchored(Align::Middle, Baseline::Top)
+                .upright(),
+        );
+        Ok(())
+    })
+}

@@ -10,7 +10,9 @@
 
 use std::path::Path;
 
-use exobound_products::{Line, LinePlot, LineStyle, MapPlot, Marker, draw_lines, draw_map};
+use exobound_products::{
+    Line, LinePlot, LineStyle, MapPanels, MapPlot, Marker, draw_lines, draw_map, draw_map_panels,
+};
 
 use super::fields::Fields;
 use crate::driver::RunRecord;
@@ -113,6 +115,97 @@ pub(crate) fn equator_plot(
         log_y: false,
         x_range: Some((0.0, 24.0)),
         x_ticks: lt_ticks(),
+    }
+}
+
+/// The equatorial column (atoms cm^-2) by local time (h), the total and
+/// each source module's share (`by_source`: name, profile), with the
+/// terminators and subsolar point marked.
+pub(crate) fn source_equator_plot(
+    title: String,
+    local_time_h: Vec<f64>,
+    total: Vec<f64>,
+    by_source: Vec<(String, Vec<f64>)>,
+) -> LinePlot {
+    let mut lines = vec![Line {
+        label: "all sources".into(),
+        x: local_time_h.clone(),
+        y: total,
+        y_err: None,
+        style: LineStyle::Solid,
+    }];
+    for (name, y) in by_source {
+        lines.push(Line {
+            label: name,
+            x: local_time_h.clone(),
+            y,
+            y_err: None,
+            style: LineStyle::Dashed,
+        });
+    }
+    LinePlot {
+        title,
+        x_label: "local time (h)".into(),
+        y_label: "column (atoms cm^-2)".into(),
+        lines,
+        markers: vec![
+            Marker { x: 6.0, label: "dawn terminator".into() },
+            Marker { x: 12.0, label: "subsolar".into() },
+            Marker { x: 18.0, label: "dusk terminator".into() },
+        ],
+        log_y: true,
+        x_range: Some((0.0, 24.0)),
+        x_ticks: lt_ticks(),
+    }
+}
+
+/// Most panels of the per-window column figure; with more windows every
+/// k-th one is drawn, dimensionless.
+const MOST_PANELS: usize = 36;
+
+/// The column map of each averaging window after the spin-up, as small
+/// multiples on one colour scale; each panel named by its middle (d) and
+/// the body's place on its orbit then (lunar phase, or true anomaly).
+pub(crate) fn window_panels(
+    title: String,
+    n_lt: usize,
+    n_lat: usize,
+    windows: &[&crate::driver::WindowRecord],
+) -> MapPanels {
+    let step = windows.len().div_ceil(MOST_PANELS).max(1);
+    let panels: Vec<(String, Vec<f64>)> = windows
+        .iter()
+        .step_by(step)
+        .map(|w| {
+            let day = 0.5 * (w.start + w.end) / 86_400.0;
+            let p = &w.position;
+            let place = if p.lunar_phase.is_finite() {
+                format!(", phase {:.2}", p.lunar_phase)
+            } else if p.true_anomaly_deg.is_finite() {
+                format!(", TA {:.0} deg", p.true_anomaly_deg)
+            } else {
+                String::new()
+            };
+            (format!("day {day:.1}{place}"), transpose(&w.column, n_lt, n_lat))
+        })
+        .collect();
+    let columns = match panels.len() {
+        0..=4 => 2,
+        5..=12 => 4,
+        _ => 6,
+    };
+    MapPanels {
+        title,
+        x_label: "local time (h)".into(),
+        y_label: "latitude (deg)".into(),
+        x_edges: edges(0.0, 24.0, n_lt),
+        y_edges: edges(-90.0, 90.0, n_lat),
+        panels,
+        colour_label: "column (atoms cm^-2)".into(),
+        log_scale: true,
+        columns,
+        x_ticks: Some(vec![0.0, 6.0, 12.0, 18.0, 24.0]),
+        y_ticks: Some(vec![-90.0, 0.0, 90.0]),
     }
 }
 
@@ -307,9 +400,45 @@ pub fn draw_all(
     let spin_up_days = scenario.plan.spin_up_steps as f64 * scenario.config.dt / 86_400.0;
     let title = format!("{sp} ledger over the run");
     e(draw_lines(&ledger_plot(title, series, spin_up_days), &dir.join("ledger.png")))?;
+    // The exosphere by source: each source module's equatorial column.
+    let by_source = record.averages.column_by_source_cm2();
+    let n_col = n_lt * n_lat;
+    if by_source.len() == scenario.processes.sources.len() * n_col && !by_source.is_empty() {
+        let band = scenario.plan.equator_band;
+        let parts = scenario
+            .processes
+            .sources
+            .iter()
+            .zip(by_source.chunks(n_col))
+            .map(|(m, c)| {
+                let profile = crate::tally::profiles::equatorial_profile(c, n_lt, n_lat, band);
+                (m.name().to_string(), profile)
+            })
+            .collect();
+        e(draw_lines(
+            &source_equator_plot(
+                format!("equatorial {sp} column by local time and source"),
+                f.local_time_h.clone(),
+                f.equator_profile.clone(),
+                parts,
+            ),
+            &dir.join("equator_by_source.png"),
+        ))?;
+    }
     // Phase-resolved shape measures: the peak shift window by window.
     let win: Vec<&crate::driver::windows::WindowRecord> =
         record.windows.iter().filter(|w| !w.spin_up).collect();
+    if win.iter().all(|w| w.column.len() == n_col) && !win.is_empty() {
+        e(draw_map_panels(
+            &window_panels(
+                format!("{sp} column at {body}, window by window"),
+                n_lt,
+                n_lat,
+                &win,
+            ),
+            &dir.join("column_by_window.png"),
+        ))?;
+    }
     if !win.is_empty() {
         e(draw_lines(
             &shift_plot(
