@@ -89,3 +89,24 @@ fn sources_add_up_and_windows_average_to_the_run_fields() {
     // And the windows differ: the point of resolving them.
     assert_ne!(win[0].column, win[1].column);
 }
+
+#[test]
+fn the_summary_splits_the_dayside_exosphere_by_source() {
+    let tmp = crate::support::TempDir::new("by-source");
+    let out = tmp.path().join("run");
+    crate::run_outputs::run_quick(&out, &[]);
+    let s: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let parts = s.pointer("/by_source/sources").and_then(|v| v.as_array()).unwrap();
+    let names: Vec<&str> = parts.iter().map(|p| p["source"].as_str().unwrap()).collect();
+    assert_eq!(names, ["photon-desorption", "impact-vapor", "ion-sputter"]);
+    for key in ["dayside_equatorial_column_share", "dayside_near_surface_density_share"] {
+        let shares: Vec<f64> = parts.iter().map(|p| p[key].as_f64().unwrap()).collect();
+        // Fractions of one whole (the per-source fields add up to the total).
+        assert!((shares.iter().sum::<f64>() - 1.0).abs() < 1e-12, "{key}: {shares:?}");
+        assert!(shares.iter().all(|&x| x > 0.0 && x < 1.0), "{key}: {shares:?}");
+    }
+    for f in ["plots/column_by_window.png", "plots/equator_by_source.png"] {
+        assert!(out.join(f).is_file(), "missing {f}");
+    }
+}

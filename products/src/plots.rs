@@ -805,16 +805,21 @@ pub fn draw_map_panels(plot: &MapPanels, path: &Path) -> Result<(), ProductError
                 .x_label_formatter(&|_| String::new())
                 .y_label_formatter(&|_| String::new())
                 .draw()?;
-            chart.draw_series((0..ny).flat_map(|j| (0..nx).map(move |i| (i, j))).map(|(i, j)| {
-                let fill = match to_coord(values[j * nx + i]) {
-                    Some(c) => rgb(colour(bar.fraction(c))),
-                    None => NO_DATA,
-                };
-                Rectangle::new(
-                    [(plot.x_edges[i], plot.y_edges[j]), (plot.x_edges[i + 1], plot.y_edges[j + 1])],
-                    fill.filled(),
-                )
-            }))?;
+            chart.draw_series((0..ny).flat_map(|j| (0..nx).map(move |i| (i, j))).map(
+                |(i, j)| {
+                    let fill = match to_coord(values[j * nx + i]) {
+                        Some(c) => rgb(colour(bar.fraction(c))),
+                        None => NO_DATA,
+                    };
+                    Rectangle::new(
+                        [
+                            (plot.x_edges[i], plot.y_edges[j]),
+                            (plot.x_edges[i + 1], plot.y_edges[j + 1]),
+                        ],
+                        fill.filled(),
+                    )
+                },
+            ))?;
             chart.draw_series([Rectangle::new([(x0, y0), (x1, y1)], INK.stroke_width(1))])?;
             let (px, py) = chart.plotting_area().get_pixel_range();
             extent = (
@@ -824,8 +829,13 @@ pub fn draw_map_panels(plot: &MapPanels, path: &Path) -> Result<(), ProductError
                 extent.3.max(py.end),
             );
             labels.push(
-                Label::new(name, (f64::from(px.start), f64::from(py.start) - 4.0), KEY_SIZE, INK_RGB)
-                    .anchored(Align::Start, Baseline::Bottom),
+                Label::new(
+                    name,
+                    (f64::from(px.start), f64::from(py.start) - 4.0),
+                    KEY_SIZE,
+                    INK_RGB,
+                )
+                .anchored(Align::Start, Baseline::Bottom),
             );
             if k % cols == 0 {
                 for (t, text) in ya.ticks.iter().zip(&ya.labels) {

@@ -430,12 +430,7 @@ pub fn draw_all(
         record.windows.iter().filter(|w| !w.spin_up).collect();
     if win.iter().all(|w| w.column.len() == n_col) && !win.is_empty() {
         e(draw_map_panels(
-            &window_panels(
-                format!("{sp} column at {body}, window by window"),
-                n_lt,
-                n_lat,
-                &win,
-            ),
+            &window_panels(format!("{sp} column at {body}, window by window"), n_lt, n_lat, &win),
             &dir.join("column_by_window.png"),
         ))?;
     }

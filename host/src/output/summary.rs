@@ -51,6 +51,56 @@ fn escape_note(scenario: &Scenario) -> String {
     )
 }
 
+/// Each source module's share of the run-averaged exosphere: of the
+/// dayside (6-18 h) equatorial column, and of the near-surface density
+/// over the dayside within 30 deg of the equator (weighted by `volumes`,
+/// cm^3 of the lowest altitude bin, as `dayside_near_surface_density`).
+fn by_source(
+    scenario: &Scenario,
+    record: &RunRecord,
+    (n_lt, n_lat): (usize, usize),
+    volumes: &[f64],
+) -> Value {
+    let a = &record.averages;
+    let (columns, densities) = (a.column_by_source_cm2(), a.density_by_source_cm3());
+    let n_col = n_lt * n_lat;
+    let n_den = a.density_sum.len();
+    let sources = &scenario.processes.sources;
+    if columns.len() != sources.len() * n_col || n_den < n_col {
+        return Value::Null;
+    }
+    let band = scenario.plan.equator_band;
+    let dayside_eq = |c: &[f64]| -> f64 {
+        let p = profiles::equatorial_profile(c, n_lt, n_lat, band);
+        (0..n_lt)
+            .filter(|&i| (6.0..18.0).contains(&profiles::local_time_centre(i, n_lt)))
+            .map(|i| p[i])
+            .sum()
+    };
+    let total_col = dayside_eq(&a.column_cm2());
+    let near = |d: &[f64]| crate::driver::windows::dayside_near_surface(d, volumes, n_lt, n_lat);
+    let total_near = near(&a.density_cm3()[..n_col]);
+    let share = |x: f64, total: f64| num(if total > 0.0 { x / total } else { f64::NAN });
+    let parts: Vec<Value> = sources
+        .iter()
+        .enumerate()
+        .map(|(s, m)| {
+            let c = &columns[s * n_col..(s + 1) * n_col];
+            let d = &densities[s * n_den..s * n_den + n_col];
+            json!({
+                "source": m.name(),
+                "dayside_equatorial_column_share": share(dayside_eq(c), total_col),
+                "dayside_near_surface_density_share": share(near(d), total_near),
+            })
+        })
+        .collect();
+    json!({
+        "unit": "1",
+        "definition": "each source module's fraction of the run-averaged dayside (6-18 h) equatorial column and of the dayside near-surface density; the fractions add up to 1",
+        "sources": parts,
+    })
+}
+
 impl Summary {
     /// Summarise a finished run.
     pub fn of(
@@ -198,6 +248,7 @@ impl Summary {
                 "windows": ns.len(),
                 "method": "least-squares A cos^n(latitude) to the dayside (6-18 h) column by latitude; uncertainty = standard error of the per-window exponents",
             },
+            "by_source": by_source(scenario, record, (n_lt, n_lat), volumes),
             "total_content": q(content, "atoms"),
             "escape_rate": q(rate(&|r| r.escaped), "atoms s^-1"),
             "bound_boundary_loss_rate": q(rate(&|r| r.left_bound), "atoms s^-1"),
