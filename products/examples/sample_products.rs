@@ -43,6 +43,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             log_scale: true,
             x_ticks: Some(vec![0.0, 3.0, 6.0, 9.0, 12.0, 15.0, 18.0, 21.0, 24.0]),
             y_ticks: Some(vec![-90.0, -60.0, -30.0, 0.0, 30.0, 60.0, 90.0]),
+            overlays: vec![],
         },
         &dir.join("column_map.png"),
     )?;
@@ -70,6 +71,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             log_scale: false,
             x_ticks: Some((0..=6).map(|k| 60.0 * k as f64).collect()),
             y_ticks: Some(vec![-90.0, -45.0, 0.0, 45.0, 90.0]),
+            overlays: vec![],
         },
         &dir.join("reservoir_map.png"),
     )?;

@@ -12,6 +12,7 @@ use crate::ticks::Axis;
 use crate::{ProductError, raster};
 use plotters::coord::Shift;
 use plotters::coord::ranged1d::{DefaultFormatting, KeyPointHint, Ranged};
+use plotters::element::DashedPathElement;
 use plotters::prelude::*;
 
 /// Size of a map figure, in pixels (width, height).
@@ -42,6 +43,19 @@ pub struct MapPlot {
     pub x_ticks: Option<Vec<f64>>,
     /// Tick positions along y (default: round values).
     pub y_ticks: Option<Vec<f64>>,
+    /// Lines drawn over the cells (terminators, a limb, a scale bar), in data coordinates.
+    pub overlays: Vec<Overlay>,
+}
+
+/// A labelled line drawn over a map's cells, in the map's data coordinates.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Overlay {
+    /// Text written next to the line's last point (empty for none).
+    pub label: String,
+    /// The points of the line, (x, y) in data units; one point draws a small cross.
+    pub points: Vec<(f64, f64)>,
+    /// [`LineStyle::Solid`], [`LineStyle::Dashed`] or [`LineStyle::Dotted`].
+    pub style: LineStyle,
 }
 
 /// How a [`Line`] is drawn.
@@ -213,6 +227,9 @@ pub fn draw_map(plot: &MapPlot, path: &Path) -> Result<(), ProductError> {
             )
         }))?;
         chart.draw_series([Rectangle::new([(x0, y0), (x1, y1)], INK.stroke_width(1))])?;
+        for o in &plot.overlays {
+            draw_overlay(&mut chart, o, (x0, x1, y0, y1), labels)?;
+        }
         axis_text(&chart, &xa, &ya, &plot.x_label, &plot.y_label, labels);
 
         let (_, py) = chart.plotting_area().get_pixel_range();
@@ -441,6 +458,77 @@ fn frame<'a, 'b>(
     }
     mesh.draw()?;
     Ok(chart)
+}
+
+/// Colour of overlays: white with a dark edge reads on every part of the colour scale.
+const OVERLAY: RGBColor = RGBColor(255, 255, 255);
+
+/// Draws overlay `o` on a map `chart` whose data extent is (x0, x1, y0, y1), clipped to it.
+fn draw_overlay(
+    chart: &mut Chart<'_, '_>,
+    o: &Overlay,
+    (x0, x1, y0, y1): (f64, f64, f64, f64),
+    labels: &mut Vec<Label>,
+) -> raster::DrawResult {
+    let inside = |&(x, y): &(f64, f64)| x >= x0 && x <= x1 && y >= y0 && y <= y1;
+    let (dash, gap) = match o.style {
+        LineStyle::Dashed => (8, 5),
+        LineStyle::Dotted => (2, 4),
+        _ => (0, 0),
+    };
+    if let [p] = o.points.as_slice() {
+        if inside(p) {
+            chart.draw_series([Cross::new(*p, 7, INK.stroke_width(4))])?;
+            chart.draw_series([Cross::new(*p, 7, OVERLAY.stroke_width(2))])?;
+        }
+    } else {
+        // Runs of consecutive points inside the extent.
+        let mut runs: Vec<Vec<(f64, f64)>> = vec![Vec::new()];
+        for p in &o.points {
+            if inside(p) {
+                runs.last_mut().expect("one run at least").push(*p);
+            } else if !runs.last().expect("one run at least").is_empty() {
+                runs.push(Vec::new());
+            }
+        }
+        for r in runs.into_iter().filter(|r| r.len() > 1) {
+            for (pen, width) in [(INK, 4), (OVERLAY, 2)] {
+                if dash == 0 {
+                    chart.draw_series([PathElement::new(r.clone(), pen.stroke_width(width))])?;
+                } else {
+                    chart.draw_series([DashedPathElement::new(
+                        r.clone(),
+                        dash,
+                        gap,
+                        pen.stroke_width(width),
+                    )])?;
+                }
+            }
+        }
+    }
+    if let Some(&last) = o.points.iter().rev().find(|p| inside(p))
+        && !o.label.is_empty()
+    {
+        // Dark text on a white box, below and right of the last point (so
+        // that a line ending at the top edge keeps its label inside).
+        let (x, y) = chart.backend_coord(&last);
+        let area = chart.plotting_area().strip_coord_spec();
+        let (bx, by) = area.get_base_pixel();
+        let (dim_x, _) = area.dim_in_pixel();
+        let width = text_width(&o.label, KEY_SIZE, Weight::Regular).ceil() as i32 + 8;
+        let left = (x + 8).min(bx + dim_x as i32 - width - 2);
+        let top = y + 8;
+        let corner = |(px, py): (i32, i32)| (px - bx, py - by);
+        area.draw(&Rectangle::new(
+            [corner((left, top)), corner((left + width, top + KEY_SIZE as i32 + 6))],
+            WHITE.mix(0.85).filled(),
+        ))?;
+        labels.push(
+            Label::new(&o.label, (f64::from(left + 4), f64::from(top + 3)), KEY_SIZE, INK_RGB)
+                .anchored(Align::Start, Baseline::Top),
+        );
+    }
+    Ok(())
 }
 
 /// Tick numbers and axis labels around the chart's plotting area. Tick numbers that would

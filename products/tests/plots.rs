@@ -51,6 +51,7 @@ fn column_map(log_scale: bool) -> MapPlot {
         log_scale,
         x_ticks: Some(vec![0.0, 6.0, 12.0, 18.0, 24.0]),
         y_ticks: Some(vec![-90.0, -45.0, 0.0, 45.0, 90.0]),
+        overlays: vec![],
     }
 }
 

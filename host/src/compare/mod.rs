@@ -451,6 +451,7 @@ fn write_products(dir: &Path, c: &Comparison, results: &[Vec<RunResult>]) -> Res
                 log_scale: false,
                 x_ticks: Some(vec![0.0, 3.0, 6.0, 9.0, 12.0, 15.0, 18.0, 21.0, 24.0]),
                 y_ticks: Some(vec![-90.0, -60.0, -30.0, 0.0, 30.0, 60.0, 90.0]),
+                overlays: vec![],
             },
             &plots.join(format!("column_difference_{}.png", c.variants[k])),
         ))?;

@@ -317,6 +317,7 @@ fn compute_and_write(
                     log_scale: true,
                     x_ticks: None,
                     y_ticks: None,
+                    overlays: vec![],
                 },
                 &plots.join("disk_image.png"),
             ))?;

@@ -11,7 +11,8 @@
 use std::path::Path;
 
 use exobound_products::{
-    Line, LinePlot, LineStyle, MapPanels, MapPlot, Marker, draw_lines, draw_map, draw_map_panels,
+    Line, LinePlot, LineStyle, MapPanels, MapPlot, Marker, Overlay, draw_lines, draw_map,
+    draw_map_panels,
 };
 
 use super::fields::Fields;
@@ -48,9 +49,49 @@ fn lat_ticks() -> Option<Vec<f64>> {
     Some(vec![-90.0, -60.0, -30.0, 0.0, 30.0, 60.0, 90.0])
 }
 
+/// The terminator and the subsolar point on a local time (h) x latitude
+/// (deg) map, for a subsolar latitude `delta` (rad): where cos SZA = sin
+/// lat sin delta + cos lat cos delta cos h = 0, h the hour angle, i.e.
+/// lat = atan(-cos h / tan delta), or the meridians 6 h and 18 h when
+/// delta = 0 (spherical law of cosines).
+pub(crate) fn terminators(delta: f64) -> Vec<Overlay> {
+    let mut out = Vec::new();
+    if delta.abs() < 1e-9 {
+        for (lt, label) in [(6.0, "dawn terminator"), (18.0, "dusk terminator")] {
+            out.push(Overlay {
+                label: label.into(),
+                points: vec![(lt, -90.0), (lt, 90.0)],
+                style: LineStyle::Dashed,
+            });
+        }
+    } else {
+        let points = (0..=480)
+            .map(|k| {
+                let lt = 24.0 * k as f64 / 480.0;
+                let h = (lt - 12.0) * std::f64::consts::PI / 12.0;
+                (lt, (-h.cos() / delta.tan()).atan().to_degrees())
+            })
+            .collect();
+        out.push(Overlay { label: "terminator".into(), points, style: LineStyle::Dashed });
+    }
+    out.push(Overlay {
+        label: "subsolar".into(),
+        points: vec![(12.0, delta.to_degrees())],
+        style: LineStyle::Solid,
+    });
+    out
+}
+
 /// The column map over local time x latitude; `column` (atoms cm^-2) in
-/// `[local time][latitude]` order.
-pub(crate) fn column_map(title: String, n_lt: usize, n_lat: usize, column: &[f64]) -> MapPlot {
+/// `[local time][latitude]` order; the terminators and the subsolar point
+/// drawn when the subsolar latitude `subsolar_latitude` (rad) is known.
+pub(crate) fn column_map(
+    title: String,
+    n_lt: usize,
+    n_lat: usize,
+    column: &[f64],
+    subsolar_latitude: Option<f64>,
+) -> MapPlot {
     MapPlot {
         title,
         x_label: "local time (h)".into(),
@@ -62,6 +103,7 @@ pub(crate) fn column_map(title: String, n_lt: usize, n_lat: usize, column: &[f64
         log_scale: true,
         x_ticks: lt_ticks(),
         y_ticks: lat_ticks(),
+        overlays: subsolar_latitude.map(terminators).unwrap_or_default(),
     }
 }
 
@@ -84,6 +126,7 @@ pub(crate) fn reservoir_map(title: String, gm: usize, gl: usize, reservoir: &[f6
         log_scale: !positive.is_empty() && hi > 100.0 * lo,
         x_ticks: Some(vec![0.0, 60.0, 120.0, 180.0, 240.0, 300.0, 360.0]),
         y_ticks: lat_ticks(),
+        overlays: vec![],
     }
 }
 
@@ -357,7 +400,11 @@ pub fn draw_all(
     let (n_lt, n_lat) = (f.local_time_h.len(), f.latitude_deg.len());
     let e = |r: Result<(), exobound_products::ProductError>| r.map_err(|e| e.to_string());
     let title = format!("{sp} column density at {body}, run average");
-    e(draw_map(&column_map(title, n_lt, n_lat, &f.column), &dir.join("column_map.png")))?;
+    // The terminators where the Sun stood at the middle of the averaged time.
+    let mid = 0.5 * (scenario.plan.spin_up_steps + scenario.plan.steps) as f64 * scenario.config.dt;
+    let delta = scenario.model.sun.subsolar_latitude(&scenario.model.body, mid);
+    let map = column_map(title, n_lt, n_lat, &f.column, Some(delta));
+    e(draw_map(&map, &dir.join("column_map.png")))?;
     let (gl, gm) = (f.grid_latitude_deg.len(), f.grid_longitude_deg.len());
     let title = format!("adsorbed {sp} reservoir at the end of the run");
     e(draw_map(&reservoir_map(title, gm, gl, &f.reservoir), &dir.join("reservoir_map.png")))?;

@@ -49,7 +49,8 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
 
     let (n_lt, n_lat) = (var("local_time")?.len(), var("latitude")?.len());
     let title = format!("{sp} column density at {body}, run average, {of}");
-    e(draw_map(&column_map(title, n_lt, n_lat, &var("column")?), &dir.join("column_map.png")))?;
+    let map = column_map(title, n_lt, n_lat, &var("column")?, None);
+    e(draw_map(&map, &dir.join("column_map.png")))?;
     done("column_map.png");
 
     let (gm, gl) = (var("cell_longitude")?.len(), var("cell_latitude")?.len());

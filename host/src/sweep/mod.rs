@@ -520,6 +520,7 @@ fn draw(out: &Path, r: &SweepResult) -> Result<(), String> {
                     log_scale: false,
                     x_ticks: Some((0..n1).map(|i| i as f64).collect()),
                     y_ticks: Some((0..n0).map(|i| i as f64).collect()),
+                    overlays: vec![],
                 },
                 &plots.join(format!("map_{name}.png")),
             ))?;
