@@ -16,5 +16,6 @@ pub use dataset::{AttrValue, Dataset, Variable};
 pub use error::ProductError;
 pub use netcdf::{read_netcdf, write_netcdf};
 pub use plots::{
-    Line, LinePlot, LineStyle, MapPanels, MapPlot, Marker, Overlay, draw_lines, draw_map, draw_map_panels,
+    Line, LinePlot, LineStyle, MapPanels, MapPlot, Marker, Overlay, draw_lines, draw_map,
+    draw_map_panels,
 };

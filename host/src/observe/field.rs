@@ -100,6 +100,26 @@ impl DensityField {
             .ok_or_else(|| format!("`{name}`: the density grid is inconsistent"))
     }
 
+    /// Atoms in the whole field, atoms: the sum of density times each
+    /// bin's exact volume, (r2^3 - r1^3)/3 dlt (sin lat2 - sin lat1).
+    pub fn content_atoms(&self) -> f64 {
+        let dlt = 2.0 * PI / self.n_lt as f64;
+        let mut total = 0.0;
+        for k in 0..self.alt_edges.len() - 1 {
+            let (r1, r2) = (self.radius + self.alt_edges[k], self.radius + self.alt_edges[k + 1]);
+            let shell_cm3 = (r2.powi(3) - r1.powi(3)) / 3.0 * 1.0e6;
+            for i in 0..self.n_lt {
+                for j in 0..self.n_lat {
+                    let lat = |j: usize| -FRAC_PI_2 + PI * j as f64 / self.n_lat as f64;
+                    let band = lat(j + 1).sin() - lat(j).sin();
+                    let n = self.density_cm3[(k * self.n_lt + i) * self.n_lat + j];
+                    total += n * shell_cm3 * dlt * band;
+                }
+            }
+        }
+        total
+    }
+
     /// Outer radius of the field, m.
     pub fn top_radius(&self) -> f64 {
         self.radius + self.alt_edges[self.alt_edges.len() - 1]

@@ -18,7 +18,7 @@ pub mod view;
 use std::path::{Path, PathBuf};
 
 use exobound_products::{
-    Dataset, Line, LinePlot, LineStyle, MapPlot, Variable, draw_lines, draw_map,
+    Dataset, Line, LinePlot, LineStyle, MapPlot, Overlay, Variable, draw_lines, draw_map,
 };
 use serde::Serialize;
 
@@ -27,7 +27,7 @@ use crate::radiation::GFactorTable;
 use crate::vec3;
 use field::DensityField;
 use gfactor::brightness_rayleigh;
-use sightline::{Cuts, Ray, column};
+use sightline::{Cuts, Ray, column, hits_surface};
 use view::{Distant, Geometry, Orbiter, View};
 
 /// Sub-lines per side of a square aperture.
@@ -46,6 +46,10 @@ pub struct Sample {
     pub column_cm2: f64,
     /// Brightness 4 pi I, rayleigh.
     pub brightness_r: f64,
+    /// Fraction of the sample's lines of sight (the aperture's sub-lines)
+    /// that end on the body's surface, so see nothing behind it,
+    /// dimensionless: 0 for a line clear of the body, 1 for a nadir look.
+    pub blocked_fraction: f64,
 }
 
 /// Everything `observe` computed.
@@ -75,6 +79,20 @@ pub struct Observation {
     pub samples: Vec<Sample>,
     /// Brightest sample, rayleigh.
     pub peak_brightness_r: f64,
+    /// Top of the run's density field, the outer boundary of its domain,
+    /// km above the mean radius: every line of sight is integrated up to it.
+    pub field_top_altitude_km: f64,
+    /// Atoms in the run's whole density field (its time average), atoms.
+    pub field_content_atoms: f64,
+    /// Of those, the fraction in the disk image's lines of sight
+    /// (distant view): atoms outside the image's field of view and behind
+    /// the body are not in it, dimensionless.
+    pub image_content_fraction: Option<f64>,
+    /// Angular scale of the image, arcsec per km on the sky plane, if the
+    /// view gives the observer's distance.
+    pub arcsec_per_km: Option<f64>,
+    /// What the reader should know about these lines of sight.
+    pub notes: Vec<String>,
     /// A reminder of what the numbers are.
     pub caution: String,
 }
@@ -95,32 +113,36 @@ pub struct Image {
 }
 
 /// The mean column through a square aperture of side `aperture` (m) centred
-/// at sky point `c` (m), seen along `-to_observer` from far away.
-fn distant_column(field: &DensityField, d: &Distant, c: vec3::Vec3, cuts: &mut Cuts) -> f64 {
+/// at sky point `c` (m), seen along `-to_observer` from far away, and the
+/// fraction of its lines of sight that end on the body.
+fn distant_column(field: &DensityField, d: &Distant, c: vec3::Vec3, cuts: &mut Cuts) -> (f64, f64) {
     let far = 4.0 * field.top_radius();
     let ray_at = |p: vec3::Vec3| Ray {
         origin: vec3::add_scaled(p, d.to_observer, far),
         direction: vec3::scale(d.to_observer, -1.0),
     };
     if d.aperture <= 0.0 {
-        return column(field, &ray_at(c), cuts);
+        let ray = ray_at(c);
+        return (column(field, &ray, cuts), hits_surface(field, &ray) as u8 as f64);
     }
     let n = APERTURE_SUBLINES;
-    let mut sum = 0.0;
+    let (mut sum, mut blocked) = (0.0, 0);
     for a in 0..n {
         for b in 0..n {
             let u = ((a as f64 + 0.5) / n as f64 - 0.5) * d.aperture;
             let v = ((b as f64 + 0.5) / n as f64 - 0.5) * d.aperture;
             let p = vec3::add(vec3::add_scaled(c, d.right, u), vec3::scale(d.up, v));
-            sum += column(field, &ray_at(p), cuts);
+            let ray = ray_at(p);
+            sum += column(field, &ray, cuts);
+            blocked += hits_surface(field, &ray) as usize;
         }
     }
-    sum / (n * n) as f64
+    (sum / (n * n) as f64, blocked as f64 / (n * n) as f64)
 }
 
 /// Slit samples of a distant observer: (altitude above the limb, m;
-/// column, atoms cm^-2).
-pub fn distant_slit(field: &DensityField, d: &Distant) -> Vec<(f64, f64)> {
+/// column, atoms cm^-2; fraction of the lines of sight ending on the body).
+pub fn distant_slit(field: &DensityField, d: &Distant) -> Vec<(f64, f64, f64)> {
     let mut cuts = Cuts::default();
     let dir = vec3::add(
         vec3::scale(d.up, d.position_angle.cos()),
@@ -130,7 +152,8 @@ pub fn distant_slit(field: &DensityField, d: &Distant) -> Vec<(f64, f64)> {
         .iter()
         .map(|&h| {
             let c = vec3::scale(dir, field.radius + h);
-            (h, distant_column(field, d, c, &mut cuts))
+            let (col, blocked) = distant_column(field, d, c, &mut cuts);
+            (h, col, blocked)
         })
         .collect()
 }
@@ -151,23 +174,25 @@ pub fn distant_image(field: &DensityField, d: &Distant) -> Image {
     for &b in &y {
         for &a in &x {
             let c = vec3::add(vec3::scale(d.right, a), vec3::scale(d.up, b));
-            col.push(distant_column(field, &point, c, &mut cuts));
+            col.push(distant_column(field, &point, c, &mut cuts).0);
         }
     }
     let km = |v: Vec<f64>| v.into_iter().map(|a| a / 1e3).collect();
     Image { x_km: km(x), y_km: km(y), column_cm2: col }
 }
 
-/// Columns seen by an orbiter: (tangent altitude m or NaN, elevation deg, column).
-pub fn orbiter_looks(field: &DensityField, o: &Orbiter) -> Vec<(f64, f64, f64)> {
+/// Columns seen by an orbiter: (tangent altitude m or NaN, elevation deg,
+/// column atoms cm^-2, 1 if the look ends on the surface else 0).
+pub fn orbiter_looks(field: &DensityField, o: &Orbiter) -> Vec<(f64, f64, f64, f64)> {
     let mut cuts = Cuts::default();
     let up = vec3::normalize(o.position);
     o.looks
         .iter()
         .map(|(ht, d)| {
             let elev = vec3::dot(*d, up).clamp(-1.0, 1.0).asin().to_degrees();
-            let c = column(field, &Ray { origin: o.position, direction: *d }, &mut cuts);
-            (ht.unwrap_or(f64::NAN), elev, c)
+            let ray = Ray { origin: o.position, direction: *d };
+            let c = column(field, &ray, &mut cuts);
+            (ht.unwrap_or(f64::NAN), elev, c, hits_surface(field, &ray) as u8 as f64)
         })
         .collect()
 }
@@ -211,7 +236,7 @@ pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observati
 
     staged(out, |dir| {
         let obs = compute_and_write(dir, &field, &view, g, table, r_au, v_km_s).map(
-            |(samples, geometry, phase, pa)| Observation {
+            |(samples, geometry, phase, pa, image_fraction)| Observation {
                 run_dir: run_dir.display().to_string(),
                 view_file: view_path.display().to_string(),
                 species: species.clone(),
@@ -223,6 +248,11 @@ pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observati
                 phase_angle_deg: phase,
                 slit_position_angle_deg: pa,
                 peak_brightness_r: samples.iter().map(|s| s.brightness_r).fold(0.0, f64::max),
+                field_top_altitude_km: (field.top_radius() - field.radius) / 1e3,
+                field_content_atoms: field.content_atoms(),
+                image_content_fraction: image_fraction,
+                arcsec_per_km: arcsec_per_km(&view),
+                notes: notes(&samples, &field),
                 samples,
                 caution: "Model output: a scientific estimate from a Monte Carlo model, not \
                           flight-operations data."
@@ -250,7 +280,99 @@ pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observati
     })
 }
 
-type Computed = (Vec<Sample>, String, Option<f64>, Option<f64>);
+type Computed = (Vec<Sample>, String, Option<f64>, Option<f64>, Option<f64>);
+
+/// Arcseconds per radian (180 x 3600 / pi).
+const ARCSEC_PER_RAD: f64 = 206_264.806_247_096_36;
+
+/// The image's angular scale, arcsec per km on the sky plane, for a
+/// distant view that gives the observer's distance (small-angle
+/// approximation: the body subtends well under a degree).
+fn arcsec_per_km(view: &View) -> Option<f64> {
+    match &view.geometry {
+        Geometry::Distant(d) => d.observer_distance.map(|m| 1.0e3 / m * ARCSEC_PER_RAD),
+        Geometry::Orbiter(_) => None,
+    }
+}
+
+/// What a reader of `observation.json` should know about the samples.
+fn notes(samples: &[Sample], field: &DensityField) -> Vec<String> {
+    let mut notes = vec![format!(
+        "every line of sight is integrated through the run's whole density field, up to {:.0} \
+         km above the mean radius (the model's outer boundary)",
+        (field.top_radius() - field.radius) / 1e3
+    )];
+    let cut = samples.iter().filter(|s| s.blocked_fraction > 0.0).count();
+    if cut > 0 {
+        notes.push(format!(
+            "{cut} of {} samples have lines of sight that end on the body's surface \
+             (blocked_fraction > 0): they see only the exosphere in front of it",
+            samples.len()
+        ));
+    }
+    notes
+}
+
+/// Marks drawn over a distant observer's image, in sky-plane km: the limb,
+/// the visible half of the terminator, the direction to the Sun projected
+/// on the sky, and a scale bar (with its angle when `arcsec_per_km` is
+/// known). The Sun lies along +x of the solar-fixed frame.
+fn disk_overlays(d: &Distant, radius_m: f64, arcsec_per_km: Option<f64>) -> Vec<Overlay> {
+    let r = radius_m / 1e3;
+    let sky = |p: vec3::Vec3| (vec3::dot(p, d.right), vec3::dot(p, d.up));
+    let n = 360;
+    let limb = (0..=n)
+        .map(|k| {
+            let t = std::f64::consts::TAU * k as f64 / n as f64;
+            (r * t.cos(), r * t.sin())
+        })
+        .collect();
+    let mut out = vec![Overlay { label: String::new(), points: limb, style: LineStyle::Solid }];
+    // The terminator: the great circle at right angles to the Sun, its
+    // half on the observer's side.
+    let sun = [1.0, 0.0, 0.0];
+    let a = [0.0, 1.0, 0.0];
+    let b = [0.0, 0.0, 1.0];
+    let on = |t: f64| vec3::add(vec3::scale(a, r * t.cos()), vec3::scale(b, r * t.sin()));
+    let visible = |t: f64| vec3::dot(on(t), d.to_observer) >= 0.0;
+    let ts: Vec<f64> = (0..n).map(|k| std::f64::consts::TAU * k as f64 / n as f64).collect();
+    if let Some(start) = (0..n).find(|&k| visible(ts[k]) && !visible(ts[(k + n - 1) % n])) {
+        let arc: Vec<(f64, f64)> = (0..n)
+            .map(|k| ts[(start + k) % n])
+            .take_while(|&t| visible(t))
+            .map(|t| sky(on(t)))
+            .collect();
+        out.push(Overlay { label: "terminator".into(), points: arc, style: LineStyle::Dashed });
+    }
+    let (sx, sy) = sky(sun);
+    let len = (sx * sx + sy * sy).sqrt();
+    if len > 0.05 {
+        let (ux, uy) = (sx / len, sy / len);
+        // An arrow: the shaft, then the two barbs of its head.
+        let tip = (1.6 * r * ux, 1.6 * r * uy);
+        let barb = |side: f64| {
+            (
+                tip.0 - 0.12 * r * ux - side * 0.07 * r * uy,
+                tip.1 - 0.12 * r * uy + side * 0.07 * r * ux,
+            )
+        };
+        out.push(Overlay {
+            label: "to the Sun".into(),
+            points: vec![(1.15 * r * ux, 1.15 * r * uy), tip, barb(1.0), tip, barb(-1.0)],
+            style: LineStyle::Solid,
+        });
+    }
+    // A scale bar of a round length near half the radius, lower left.
+    let w = d.image_half_width / 1e3;
+    let bar = exobound_products::ticks::round_ticks(0.0, 0.5 * r, 2).get(1).copied().unwrap_or(r);
+    let (x0, y0) = (-1.35 * w, -0.85 * w);
+    let label = match arcsec_per_km {
+        Some(s) => format!("{bar} km = {:.3} arcsec", bar * s),
+        None => format!("{bar} km"),
+    };
+    out.push(Overlay { label, points: vec![(x0, y0), (x0 + bar, y0)], style: LineStyle::Solid });
+    out
+}
 
 fn compute_and_write(
     dir: &Path,
@@ -269,11 +391,12 @@ fn compute_and_write(
         Geometry::Distant(d) => {
             let samples: Vec<Sample> = distant_slit(field, d)
                 .into_iter()
-                .map(|(h, c)| Sample {
+                .map(|(h, c, blocked)| Sample {
                     altitude_km: h / 1e3,
                     elevation_deg: f64::NAN,
                     column_cm2: c,
                     brightness_r: brightness_rayleigh(g, c),
+                    blocked_fraction: blocked,
                 })
                 .collect();
             let mut csv = String::from(
@@ -317,7 +440,7 @@ fn compute_and_write(
                     log_scale: true,
                     x_ticks: None,
                     y_ticks: None,
-                    overlays: vec![],
+                    overlays: disk_overlays(d, field.radius, arcsec_per_km(view)),
                 },
                 &plots.join("disk_image.png"),
             ))?;
@@ -351,21 +474,27 @@ fn compute_and_write(
             );
             exobound_products::write_netcdf(&ds, &dir.join("image.nc"))
                 .map_err(|e| e.to_string())?;
+            // Atoms in the image: column times pixel area, against the field.
+            let pix_cm = 2.0 * d.image_half_width / d.image_pixels as f64 * 100.0;
+            let seen: f64 = img.column_cm2.iter().sum::<f64>() * pix_cm * pix_cm;
+            let content = field.content_atoms();
             Ok((
                 samples,
                 "distant".into(),
                 Some(d.phase_angle.to_degrees()),
                 Some(d.position_angle.to_degrees()),
+                (content > 0.0).then_some(seen / content),
             ))
         }
         Geometry::Orbiter(o) => {
             let samples: Vec<Sample> = orbiter_looks(field, o)
                 .into_iter()
-                .map(|(h, el, c)| Sample {
+                .map(|(h, el, c, blocked)| Sample {
                     altitude_km: h / 1e3,
                     elevation_deg: el,
                     column_cm2: c,
                     brightness_r: brightness_rayleigh(g, c),
+                    blocked_fraction: blocked,
                 })
                 .collect();
             let mut csv = String::from(
@@ -393,7 +522,7 @@ fn compute_and_write(
                     &plots.join("brightness_altitude.png"),
                 )?;
             }
-            Ok((samples, "orbiter".into(), None, None))
+            Ok((samples, "orbiter".into(), None, None, None))
         }
     }
 }

@@ -15,6 +15,7 @@ use serde::Deserialize;
 use crate::scenario::keys::describe;
 use crate::scenario::quantity::{Kind, parse};
 use crate::vec3::{self, Vec3};
+use exobound_sdk::constants::ASTRONOMICAL_UNIT;
 
 /// The view file as written.
 #[derive(Clone, Debug, Deserialize)]
@@ -71,6 +72,10 @@ pub struct DistantSection {
     /// Pixels along each side of the image.
     #[serde(default = "default_pixels")]
     pub image_pixels: usize,
+    /// Distance from the observer to the body, e.g. "384400 km" or
+    /// "0.6 AU"; gives the image an angular scale (arcsec). Default: none.
+    #[serde(default)]
+    pub observer_distance: Option<String>,
 }
 
 /// `[orbiter]`: a spacecraft inside or near the exosphere.
@@ -168,6 +173,8 @@ pub struct Distant {
     pub image_half_width: f64,
     /// Pixels along a side of the image.
     pub image_pixels: usize,
+    /// Distance from the observer to the body's centre, m, if given.
+    pub observer_distance: Option<f64>,
 }
 
 /// A checked orbiter geometry, SI units.
@@ -350,6 +357,22 @@ fn distant(d: &DistantSection, radius: f64) -> Result<Distant, String> {
     if !(8..=1024).contains(&d.image_pixels) {
         return Err(format!("[distant] image_pixels: {}; use 8 to 1024", d.image_pixels));
     }
+    let observer_distance = match &d.observer_distance {
+        None => None,
+        Some(text) => {
+            let au = parse(text, Kind::HelioDistance).map(|au| au * ASTRONOMICAL_UNIT);
+            let m = parse(text, Kind::Length).or(au).map_err(|e| {
+                format!("[distant] observer_distance: {e} (a length such as \"384400 km\", or AU)")
+            })?;
+            if !(m > radius) {
+                return Err(format!(
+                    "[distant] observer_distance: {text} lies inside the body; a distant \
+                     observer is outside it (use [orbiter] for a spacecraft)"
+                ));
+            }
+            Some(m)
+        }
+    };
     Ok(Distant {
         phase_angle: alpha,
         to_observer: o,
@@ -360,6 +383,7 @@ fn distant(d: &DistantSection, radius: f64) -> Result<Distant, String> {
         aperture,
         image_half_width,
         image_pixels: d.image_pixels,
+        observer_distance,
     })
 }
 

@@ -272,7 +272,7 @@ pub struct OutputsSection {
     #[serde(default)]
     pub altitude_edges: Option<QuantityList>,
     /// Logarithmically spaced altitude bins added above the last edge, up
-    /// to the outer boundary (default 12; 0 for none).
+    /// to the outer boundary (default 24; 0 for none).
     #[serde(default)]
     pub outer_bins: Option<usize>,
     /// Local-time bins over 24 h (default 24).

@@ -273,7 +273,7 @@ const TAKES: &[(&str, Takes)] = &[
     ("outputs.altitude_edges.values", Takes::List("[0, 50, 100, 500]")),
     ("outputs.altitude_edges.values[]", Takes::Number("50")),
     ("outputs.altitude_edges.unit", Takes::Text("km")),
-    ("outputs.outer_bins", Takes::Whole("12")),
+    ("outputs.outer_bins", Takes::Whole("24")),
     ("outputs.local_time_bins", Takes::Whole("24")),
     ("outputs.latitude_bins", Takes::Whole("18")),
     ("outputs.window", Takes::Quantity(Kind::Time, "1 d")),

@@ -969,7 +969,7 @@ pub const DEFAULT_ALTITUDE_EDGES_KM: [f64; 16] = [
 
 /// Default number of logarithmically spaced altitude bins between the
 /// last altitude edge and the outer boundary, dimensionless.
-pub const DEFAULT_OUTER_BINS: usize = 12;
+pub const DEFAULT_OUTER_BINS: usize = 24;
 
 /// Most outer bins a scenario may ask for, dimensionless.
 const MAX_OUTER_BINS: usize = 200;
