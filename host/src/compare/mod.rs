@@ -21,7 +21,7 @@ use serde::Serialize;
 
 use crate::checkpoint::ScenarioSource;
 use crate::driver::{self, Outcome, Progress, Session};
-use crate::output::{PROVENANCE_FILE, atomic_write, staged};
+use crate::output::{PROVENANCE_FILE, atomic_write, number, staged};
 use crate::runtime::Runtime;
 use stats::{Difference, mean_and_se, paired};
 
@@ -154,17 +154,37 @@ pub fn measures_of(summary: &serde_json::Value) -> Vec<f64> {
         .collect()
 }
 
-/// A profile CSV of a run (`profiles/*.csv`) as (coordinate, column) pairs.
+/// A profile CSV of a run (`profiles/*.csv`) as (coordinate, column) pairs
+/// (the coordinate in the unit of the first column's name, the column in
+/// atoms cm^-2). A line that does not hold two numbers (NaN allowed) is an
+/// error naming the file and the line, never skipped.
 pub fn read_profile(path: &Path) -> Result<Vec<(f64, f64)>, String> {
     let text = std::fs::read_to_string(path).map_err(|e| format!("`{}`: {e}", path.display()))?;
-    Ok(text
-        .lines()
-        .skip(1)
-        .filter_map(|l| {
-            let mut c = l.split(',');
-            Some((c.next()?.parse().ok()?, c.next()?.parse().ok()?))
-        })
-        .collect())
+    let mut lines = text.lines();
+    let header = lines.next().unwrap_or_default();
+    if header.split(',').nth(1) != Some("column_cm-2") {
+        return Err(format!(
+            "`{}` line 1: expected a profile header `COORDINATE,column_cm-2,...`, found `{header}`; \
+             rerun with this exobound version",
+            path.display()
+        ));
+    }
+    let mut out = Vec::new();
+    for (k, l) in lines.enumerate() {
+        let mut c = l.split(',').map(|x| x.parse::<f64>().ok());
+        match (c.next().flatten(), c.next().flatten()) {
+            (Some(x), Some(y)) => out.push((x, y)),
+            _ => {
+                return Err(format!(
+                    "`{}` line {}: `{l}` is not a coordinate and a column; the file is damaged: \
+                     rerun that run",
+                    path.display(),
+                    k + 2
+                ));
+            }
+        }
+    }
+    Ok(out)
 }
 
 fn read_run(dir: &Path) -> Result<RunResult, String> {
@@ -293,21 +313,17 @@ pub fn comparison_csv(c: &Comparison) -> String {
     );
     for r in &c.rows {
         for (k, v) in c.variants.iter().enumerate() {
-            let (d, de, rel, sig) = if k == 0 {
-                (String::new(), String::new(), String::new(), "reference".to_string())
+            // The reference row has no difference from itself: NaN.
+            let (diff, verdict) = if k == 0 {
+                ([f64::NAN; 3], "reference")
             } else {
                 let d = &r.difference[k - 1];
-                (
-                    format!("{:e}", d.mean),
-                    format!("{:e}", d.se),
-                    format!("{:e}", d.mean / r.mean[0]),
-                    d.verdict.as_str().to_string(),
-                )
+                ([d.mean, d.se, d.mean / r.mean[0]], d.verdict.as_str())
             };
-            s.push_str(&format!(
-                "{},{},{},{:e},{:e},{d},{de},{rel},{sig}\n",
-                r.measure, r.unit, v, r.mean[k], r.se[k]
-            ));
+            s.push_str(&format!("{},{},{v}", r.measure, r.unit));
+            number::push_cells(&mut s, &[r.mean[k], r.se[k]]);
+            number::push_cells(&mut s, &diff);
+            s.push_str(&format!(",{verdict}\n"));
         }
     }
     s
