@@ -492,4 +492,30 @@ mod tests {
         let names = names_for_files(&[PathBuf::from("a/x.toml"), PathBuf::from("b/x.toml")]);
         assert_eq!(names, vec!["x", "x-2"]);
     }
+
+    #[test]
+    fn a_profile_reads_back_and_a_damaged_line_is_named() {
+        let dir = std::env::temp_dir().join(format!("exobound-profile-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let p = dir.join("latitude.csv");
+        std::fs::write(
+            &p,
+            "latitude_deg,column_cm-2,column_error_cm-2\n-85.0,7.5e8,NaN\n5.0,NaN,1.0\n",
+        )
+        .unwrap();
+        let v = read_profile(&p).unwrap();
+        assert_eq!(v[0], (-85.0, 7.5e8));
+        assert!(v[1].0 == 5.0 && v[1].1.is_nan());
+        // The line that once was dropped without a word is now an error.
+        std::fs::write(&p, "latitude_deg,column_cm-2,column_error_cm-2\n-85.0,7.5e8,1\n5.0,x,1\n")
+            .unwrap();
+        let e = read_profile(&p).unwrap_err();
+        assert!(e.contains("latitude.csv` line 3") && e.contains("`5.0,x,1`"), "{e}");
+        std::fs::write(&p, "# old comment\nlatitude_deg,column_cm-2\n").unwrap();
+        assert!(read_profile(&p).unwrap_err().contains("line 1"));
+        std::fs::write(&p, "latitude_deg,column_cm-2,column_error_cm-2\n-85.0,7.5e8,1\n\n")
+            .unwrap();
+        assert!(read_profile(&p).unwrap_err().contains("line 3"));
+        std::fs::remove_dir_all(&dir).unwrap();
+    }
 }
