@@ -46,7 +46,11 @@ pub struct Table {
 }
 
 impl Table {
-    /// Read a CSV table written by a run (no quoting: numbers and words).
+    /// Read a CSV table written by a run: a header, then rows of numbers
+    /// (any that `str::parse::<f64>` reads, `NaN` included) and the words
+    /// `true` / `false`. A row of the wrong length, an empty line or any
+    /// other cell is an error naming the file, line and column, never
+    /// skipped or averaged as NaN.
     pub fn read(path: &Path) -> Result<Table, String> {
         let text = std::fs::read_to_string(path)
             .map_err(|e| format!("cannot read `{}`: {e}", path.display()))?;
@@ -69,6 +73,18 @@ impl Table {
                     row.len(),
                     header.len()
                 ));
+            }
+            for (c, cell) in row.iter().enumerate() {
+                let Cell::Text(t) = cell else { continue };
+                if t != "true" && t != "false" && t.parse::<f64>().is_err() {
+                    return Err(format!(
+                        "`{}` line {}, column `{}`: `{t}` is not a number; the file is damaged: \
+                         rerun that replica",
+                        path.display(),
+                        k + 2,
+                        header[c]
+                    ));
+                }
             }
             rows.push(row);
         }
@@ -393,6 +409,25 @@ mod tests {
         let rows =
             lines.map(|l| l.split(',').map(|c| Cell::Text(c.to_string())).collect()).collect();
         Table { header, rows }
+    }
+
+    #[test]
+    fn a_damaged_table_is_refused_naming_file_line_and_column() {
+        let dir = std::env::temp_dir().join(format!("exobound-table-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let p = dir.join("windows.csv");
+        let good = "start_s,spin_up,content_atoms\n0.0,true,3.1e25\n900.0,false,NaN\n";
+        std::fs::write(&p, good).unwrap();
+        let t = Table::read(&p).unwrap();
+        assert_eq!(t.rows[1][1], Cell::Text("false".into()));
+        assert_eq!(t.column("content_atoms").unwrap()[0], 3.1e25);
+        std::fs::write(&p, "start_s,spin_up,content_atoms\n0.0,true,3.1e25\n900.0,false,\n")
+            .unwrap();
+        let e = Table::read(&p).unwrap_err();
+        assert!(e.contains("windows.csv` line 3, column `content_atoms`"), "{e}");
+        std::fs::write(&p, format!("{good}\n")).unwrap();
+        assert!(Table::read(&p).unwrap_err().contains("line 4"));
+        std::fs::remove_dir_all(&dir).unwrap();
     }
 
     #[test]
