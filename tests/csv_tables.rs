@@ -1,7 +1,7 @@
 //! Every CSV table the quick demo's commands write reads as numbers: a
 //! run, `observe` (a distant slit and an orbiter's nadir look), a 2-replica
-//! `merge-replicas` and a 2-variant `compare`, all through the `exobound`
-//! binary. Each table is header + rows (no comment line), every float cell
+//! `merge-replicas`, a 2-variant `compare`, a 2-point `sweep` and a short
+//! `fit`, all through the `exobound` binary. Each table is header + rows (no comment line), every float cell
 //! is in the one number style of `exobound::output::number` and reads back
 //! to the value whose text it is, and `tests/python/check_csv.py` reads
 //! each with pandas: float64 columns, `np.log10` on atom counts.
@@ -144,6 +144,34 @@ fn every_csv_reads_as_numbers_in_rust_and_pandas() {
         ]
         .concat(),
     );
+    // A 2-point sweep and a fit cut to a few evaluations (1500 particles).
+    std::fs::write(
+        tmp.path().join("plan.toml"),
+        "title = \"csv sweep\"\nscenario = \"demo-quick\"\n\
+         set = [\"run.particles=1500\", \"run.duration=\\\"12 h\\\"\"]\nseeds = [5]\n\
+         [[parameters]]\nkey = \"processes.impact-vapor.parameters.flux\"\n\
+         values = [\"5e4 cm^-2 s^-1\", \"2e5 cm^-2 s^-1\"]\n",
+    )
+    .unwrap();
+    ok(&bin, &["sweep", &t("plan.toml"), "--out", &t("sweep")]);
+    std::fs::write(
+        tmp.path().join("observed.csv"),
+        "kind,coordinate,value,uncertainty,unit\nequator_column,10.5 h,1.2e9,1e8,cm^-2\n\
+         latitude_column,30 deg,8e8,1e8,cm^-2\nsummary:dayside_near_surface_density,,20,5,cm^-3\n",
+    )
+    .unwrap();
+    ok(
+        &bin,
+        &[
+            &["fit", "--quick", "--observed", &t("observed.csv"), "--out", &t("fit")][..],
+            &["--free", "processes.impact-vapor.parameters.flux=5e4..5e5 cm^-2 s^-1"],
+            &["--grid", "2", "--max-iterations", "2", "--set", "run.particles=1500"],
+            &short,
+        ]
+        .concat(),
+    );
+    // The observations file is the user's input (comments allowed, docs/fit.md).
+    std::fs::remove_file(tmp.path().join("observed.csv")).unwrap();
 
     let files = csv_files(tmp.path());
     let rel: Vec<String> =
@@ -159,6 +187,9 @@ fn every_csv_reads_as_numbers_in_rust_and_pandas() {
         "slit/brightness.csv",
         "nadir/brightness.csv",
         "cmp/comparison.csv",
+        "sweep/sweep.csv",
+        "fit/residuals.csv",
+        "fit/evaluations.csv",
     ] {
         assert!(rel.iter().any(|r| r == want), "{want} not written: {rel:?}");
     }
