@@ -7,6 +7,7 @@ mod support;
 
 mod abi_equivalence;
 mod cache;
+mod csv_tables;
 mod engine;
 mod numeric_guards;
 mod observe_compare;

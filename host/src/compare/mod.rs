@@ -21,7 +21,7 @@ use serde::Serialize;
 
 use crate::checkpoint::ScenarioSource;
 use crate::driver::{self, Outcome, Progress, Session};
-use crate::output::{PROVENANCE_FILE, atomic_write, staged};
+use crate::output::{PROVENANCE_FILE, atomic_write, number, staged};
 use crate::runtime::Runtime;
 use stats::{Difference, mean_and_se, paired};
 
@@ -154,17 +154,37 @@ pub fn measures_of(summary: &serde_json::Value) -> Vec<f64> {
         .collect()
 }
 
-/// A profile CSV of a run (`profiles/*.csv`) as (coordinate, column) pairs.
+/// A profile CSV of a run (`profiles/*.csv`) as (coordinate, column) pairs
+/// (the coordinate in the unit of the first column's name, the column in
+/// atoms cm^-2). A line that does not hold two numbers (NaN allowed) is an
+/// error naming the file and the line, never skipped.
 pub fn read_profile(path: &Path) -> Result<Vec<(f64, f64)>, String> {
     let text = std::fs::read_to_string(path).map_err(|e| format!("`{}`: {e}", path.display()))?;
-    Ok(text
-        .lines()
-        .skip(1)
-        .filter_map(|l| {
-            let mut c = l.split(',');
-            Some((c.next()?.parse().ok()?, c.next()?.parse().ok()?))
-        })
-        .collect())
+    let mut lines = text.lines();
+    let header = lines.next().unwrap_or_default();
+    if header.split(',').nth(1) != Some("column_cm-2") {
+        return Err(format!(
+            "`{}` line 1: expected a profile header `COORDINATE,column_cm-2,...`, found `{header}`; \
+             rerun with this exobound version",
+            path.display()
+        ));
+    }
+    let mut out = Vec::new();
+    for (k, l) in lines.enumerate() {
+        let mut c = l.split(',').map(|x| x.parse::<f64>().ok());
+        match (c.next().flatten(), c.next().flatten()) {
+            (Some(x), Some(y)) => out.push((x, y)),
+            _ => {
+                return Err(format!(
+                    "`{}` line {}: `{l}` is not a coordinate and a column; the file is damaged: \
+                     rerun that run",
+                    path.display(),
+                    k + 2
+                ));
+            }
+        }
+    }
+    Ok(out)
 }
 
 fn read_run(dir: &Path) -> Result<RunResult, String> {
@@ -293,21 +313,17 @@ pub fn comparison_csv(c: &Comparison) -> String {
     );
     for r in &c.rows {
         for (k, v) in c.variants.iter().enumerate() {
-            let (d, de, rel, sig) = if k == 0 {
-                (String::new(), String::new(), String::new(), "reference".to_string())
+            // The reference row has no difference from itself: NaN.
+            let (diff, verdict) = if k == 0 {
+                ([f64::NAN; 3], "reference")
             } else {
                 let d = &r.difference[k - 1];
-                (
-                    format!("{:e}", d.mean),
-                    format!("{:e}", d.se),
-                    format!("{:e}", d.mean / r.mean[0]),
-                    d.verdict.as_str().to_string(),
-                )
+                ([d.mean, d.se, d.mean / r.mean[0]], d.verdict.as_str())
             };
-            s.push_str(&format!(
-                "{},{},{},{:e},{:e},{d},{de},{rel},{sig}\n",
-                r.measure, r.unit, v, r.mean[k], r.se[k]
-            ));
+            s.push_str(&format!("{},{},{v}", r.measure, r.unit));
+            number::push_cells(&mut s, &[r.mean[k], r.se[k]]);
+            number::push_cells(&mut s, &diff);
+            s.push_str(&format!(",{verdict}\n"));
         }
     }
     s
@@ -476,5 +492,31 @@ mod tests {
         assert!(parse_variant("n:novalue").is_err());
         let names = names_for_files(&[PathBuf::from("a/x.toml"), PathBuf::from("b/x.toml")]);
         assert_eq!(names, vec!["x", "x-2"]);
+    }
+
+    #[test]
+    fn a_profile_reads_back_and_a_damaged_line_is_named() {
+        let dir = std::env::temp_dir().join(format!("exobound-profile-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let p = dir.join("latitude.csv");
+        std::fs::write(
+            &p,
+            "latitude_deg,column_cm-2,column_error_cm-2\n-85.0,7.5e8,NaN\n5.0,NaN,1.0\n",
+        )
+        .unwrap();
+        let v = read_profile(&p).unwrap();
+        assert_eq!(v[0], (-85.0, 7.5e8));
+        assert!(v[1].0 == 5.0 && v[1].1.is_nan());
+        // The line that once was dropped without a word is now an error.
+        std::fs::write(&p, "latitude_deg,column_cm-2,column_error_cm-2\n-85.0,7.5e8,1\n5.0,x,1\n")
+            .unwrap();
+        let e = read_profile(&p).unwrap_err();
+        assert!(e.contains("latitude.csv` line 3") && e.contains("`5.0,x,1`"), "{e}");
+        std::fs::write(&p, "# old comment\nlatitude_deg,column_cm-2\n").unwrap();
+        assert!(read_profile(&p).unwrap_err().contains("line 1"));
+        std::fs::write(&p, "latitude_deg,column_cm-2,column_error_cm-2\n-85.0,7.5e8,1\n\n")
+            .unwrap();
+        assert!(read_profile(&p).unwrap_err().contains("line 3"));
+        std::fs::remove_dir_all(&dir).unwrap();
     }
 }

@@ -25,7 +25,7 @@ use serde::Serialize;
 
 use crate::checkpoint::ScenarioSource;
 use crate::driver::{self, Outcome, Session};
-use crate::output::{PROVENANCE_FILE, atomic_write, staged};
+use crate::output::{PROVENANCE_FILE, atomic_write, number, staged};
 use crate::runtime::Runtime;
 use crate::scenario::quantity;
 use observed::{Observable, Observation};
@@ -502,7 +502,9 @@ fn write_products(dir: &Path, r: &FitResult, obs: &[Observation]) -> Result<(), 
     atomic_write(&dir.join("fit.json"), &json).map_err(io)?;
     let mut csv = String::from("observation,observed,uncertainty,model,normalised_residual,unit\n");
     for (label, o, s, m, u) in &r.residuals {
-        csv.push_str(&format!("{label},{o:e},{s:e},{m:e},{:e},{u}\n", (m - o) / s));
+        csv.push_str(label);
+        number::push_cells(&mut csv, &[*o, *s, *m, (m - o) / s]);
+        csv.push_str(&format!(",{u}\n"));
     }
     atomic_write(&dir.join("residuals.csv"), csv.as_bytes()).map_err(io)?;
     let mut ev = String::new();
@@ -516,9 +518,11 @@ fn write_products(dir: &Path, r: &FitResult, obs: &[Observation]) -> Result<(), 
     ev.push_str("chi2,stage\n");
     for e in &r.evaluations {
         for v in &e.values {
-            ev.push_str(&format!("{v:e},"));
+            number::push(&mut ev, *v);
+            ev.push(',');
         }
-        ev.push_str(&format!("{:e},{}\n", e.chi2, e.stage));
+        number::push(&mut ev, e.chi2);
+        ev.push_str(&format!(",{}\n", e.stage));
     }
     atomic_write(&dir.join("evaluations.csv"), ev.as_bytes()).map_err(io)?;
     let plots = dir.join("plots");

@@ -22,7 +22,7 @@ use exobound_products::{
 };
 use serde::Serialize;
 
-use crate::output::{PROVENANCE_FILE, atomic_write, staged};
+use crate::output::{PROVENANCE_FILE, atomic_write, number, staged};
 use crate::radiation::GFactorTable;
 use crate::vec3;
 use field::DensityField;
@@ -399,15 +399,11 @@ fn compute_and_write(
                     blocked_fraction: blocked,
                 })
                 .collect();
-            let mut csv = String::from(
-                "# exobound observe: distant observer, slit above the limb\n\
-                 altitude_above_limb_km,column_cm-2,brightness_R\n",
-            );
+            // Header and rows only: the geometry ("distant") and the g-factor
+            // are in observation.json (docs/observe.md).
+            let mut csv = String::from("altitude_above_limb_km,column_cm-2,brightness_R\n");
             for s in &samples {
-                csv.push_str(&format!(
-                    "{},{:e},{:e}\n",
-                    s.altitude_km, s.column_cm2, s.brightness_r
-                ));
+                csv.push_str(&number::row(&[s.altitude_km, s.column_cm2, s.brightness_r]));
             }
             atomic_write(&dir.join("brightness.csv"), csv.as_bytes()).map_err(|e| e.to_string())?;
             brightness_plot(
@@ -497,20 +493,17 @@ fn compute_and_write(
                     blocked_fraction: blocked,
                 })
                 .collect();
-            let mut csv = String::from(
-                "# exobound observe: orbiter looks (tangent altitude empty for nadir)\n\
-                 tangent_altitude_km,elevation_deg,column_cm-2,brightness_R\n",
-            );
+            // Header and rows only; a nadir look has no tangent point, so
+            // its tangent altitude is NaN (docs/observe.md).
+            let mut csv =
+                String::from("tangent_altitude_km,elevation_deg,column_cm-2,brightness_R\n");
             for s in &samples {
-                let h = if s.altitude_km.is_finite() {
-                    s.altitude_km.to_string()
-                } else {
-                    String::new()
-                };
-                csv.push_str(&format!(
-                    "{h},{},{:e},{:e}\n",
-                    s.elevation_deg, s.column_cm2, s.brightness_r
-                ));
+                csv.push_str(&number::row(&[
+                    s.altitude_km,
+                    s.elevation_deg,
+                    s.column_cm2,
+                    s.brightness_r,
+                ]));
             }
             atomic_write(&dir.join("brightness.csv"), csv.as_bytes()).map_err(|e| e.to_string())?;
             if samples.len() > 1 {

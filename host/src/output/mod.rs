@@ -15,6 +15,7 @@ pub mod fields;
 pub mod figures;
 pub mod lock;
 pub mod netcdf;
+pub mod number;
 pub mod provenance;
 pub mod summary;
 pub mod tables;

@@ -2,15 +2,19 @@
 //! the equatorial local-time and latitude profiles.
 //!
 //! Why this exists: a table opens anywhere (a spreadsheet, pandas, awk).
-//! Every column name ends with its unit (`_s`, `_atoms`, `_cm-2`); numbers
-//! are written with Rust's shortest round-trip formatting, so a value read
-//! back is the value computed.
+//! Every column name ends with its unit (`_s`, `_atoms`, `_cm-2`); every
+//! float goes through [`super::number`] (shortest round-trip digits, an
+//! exponent when large or small, `NaN` when missing), so a value read back
+//! is the value computed and pandas reads every float column as float64.
+//! Counts (`step`, `particles`, `hops`) are integers; `spin_up` is
+//! `true` / `false`.
 
 use std::fmt::Write as _;
 use std::path::Path;
 
 use super::atomic_write;
 use super::fields::Fields;
+use super::number;
 use crate::driver::RunRecord;
 use crate::engine::Simulation;
 use crate::scenario::Scenario;
@@ -34,29 +38,28 @@ pub fn ledger_csv(sim: &Simulation) -> String {
     }
     s.push_str(",roulette_atoms,in_flight_atoms,adsorbed_atoms,particles,hops,closure_error\n");
     for r in &l.rows {
-        let _ = write!(
-            s,
-            "{},{},{},{},{},{},{},{},{},{},{}",
-            r.step,
-            r.time,
-            r.supplied_from_bulk,
-            r.released,
-            r.released_from_adsorbed,
-            r.landed,
-            r.stuck,
-            r.bounced,
-            r.escaped,
-            r.left_bound,
-            r.buried
+        let _ = write!(s, "{}", r.step);
+        number::push_cells(
+            &mut s,
+            &[
+                r.time,
+                r.supplied_from_bulk,
+                r.released,
+                r.released_from_adsorbed,
+                r.landed,
+                r.stuck,
+                r.bounced,
+                r.escaped,
+                r.left_bound,
+                r.buried,
+            ],
         );
-        for x in r.losses.iter().chain(&r.removed) {
-            let _ = write!(s, ",{x}");
-        }
-        let _ = writeln!(
-            s,
-            ",{},{},{},{},{},{}",
-            r.roulette, r.in_flight, r.adsorbed, r.particles, r.hops, r.closure_error
-        );
+        number::push_cells(&mut s, &r.losses);
+        number::push_cells(&mut s, &r.removed);
+        number::push_cells(&mut s, &[r.roulette, r.in_flight, r.adsorbed]);
+        let _ = write!(s, ",{},{}", r.particles, r.hops);
+        number::push_cells(&mut s, &[r.closure_error]);
+        s.push('\n');
     }
     s
 }
@@ -78,37 +81,38 @@ pub fn windows_csv(record: &RunRecord, latitude_deg: &[f64]) -> String {
         let (lon_ss, r_au) =
             (w.position.subsolar_longitude_deg, w.position.heliocentric_distance_au);
         let fit = crate::tally::profiles::fit_cos_power(&lat_rad, &w.latitude_profile);
-        let _ = write!(
-            s,
-            "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
-            w.start,
-            w.end,
-            w.spin_up,
-            w.content,
-            w.sunlit_content,
-            w.adsorbed,
-            w.supplied,
-            w.released,
-            w.escaped,
-            w.left_bound,
-            w.lost_in_flight,
-            w.removed,
-            w.stuck,
-            w.peak_local_time,
-            w.shift_deg,
-            w.dayside_near_surface,
-            w.subsolar_column,
-            lon_ss,
-            r_au,
-            fit.map_or(f64::NAN, |f| f.n),
-            fit.map_or(f64::NAN, |f| f.relative_residual),
+        number::push(&mut s, w.start);
+        number::push_cells(&mut s, &[w.end]);
+        let _ = write!(s, ",{}", w.spin_up);
+        number::push_cells(
+            &mut s,
+            &[
+                w.content,
+                w.sunlit_content,
+                w.adsorbed,
+                w.supplied,
+                w.released,
+                w.escaped,
+                w.left_bound,
+                w.lost_in_flight,
+                w.removed,
+                w.stuck,
+                w.peak_local_time,
+                w.shift_deg,
+                w.dayside_near_surface,
+                w.subsolar_column,
+                lon_ss,
+                r_au,
+                fit.map_or(f64::NAN, |f| f.n),
+                fit.map_or(f64::NAN, |f| f.relative_residual),
+            ],
         );
         let p = &w.position;
-        let _ = writeln!(
-            s,
-            ",{},{},{},{}",
-            p.true_anomaly_deg, p.subsolar_latitude_deg, p.solar_longitude_deg, p.lunar_phase
+        number::push_cells(
+            &mut s,
+            &[p.true_anomaly_deg, p.subsolar_latitude_deg, p.solar_longitude_deg, p.lunar_phase],
         );
+        s.push('\n');
     }
     s
 }
@@ -131,12 +135,12 @@ pub fn write_all(
     std::fs::create_dir_all(dir.join("profiles"))?;
     let mut eq = String::from("local_time_h,column_cm-2,column_error_cm-2\n");
     for ((lt, c), e) in f.local_time_h.iter().zip(&f.equator_profile).zip(&f.equator_error) {
-        let _ = writeln!(eq, "{lt},{c},{e}");
+        eq.push_str(&number::row(&[*lt, *c, *e]));
     }
     atomic_write(&dir.join("profiles/equator_local_time.csv"), eq.as_bytes())?;
     let mut lat = String::from("latitude_deg,column_cm-2,column_error_cm-2\n");
     for ((l, c), e) in f.latitude_deg.iter().zip(&f.latitude_profile).zip(&f.latitude_error) {
-        let _ = writeln!(lat, "{l},{c},{e}");
+        lat.push_str(&number::row(&[*l, *c, *e]));
     }
     atomic_write(&dir.join("profiles/latitude.csv"), lat.as_bytes())?;
     Ok(())

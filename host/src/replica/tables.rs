@@ -12,10 +12,10 @@
 //! error; elsewhere an error column is appended after the run's columns, so
 //! readers that go by position or name still find every run column.
 
-use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
 use super::merge::mean_and_standard_error;
+use crate::output::number;
 
 /// One cell of a merged table.
 #[derive(Clone, Debug, PartialEq)]
@@ -46,7 +46,11 @@ pub struct Table {
 }
 
 impl Table {
-    /// Read a CSV table written by a run (no quoting: numbers and words).
+    /// Read a CSV table written by a run: a header, then rows of numbers
+    /// (any that `str::parse::<f64>` reads, `NaN` included) and the words
+    /// `true` / `false`. A row of the wrong length, an empty line or any
+    /// other cell is an error naming the file, line and column, never
+    /// skipped or averaged as NaN.
     pub fn read(path: &Path) -> Result<Table, String> {
         let text = std::fs::read_to_string(path)
             .map_err(|e| format!("cannot read `{}`: {e}", path.display()))?;
@@ -70,6 +74,18 @@ impl Table {
                     header.len()
                 ));
             }
+            for (c, cell) in row.iter().enumerate() {
+                let Cell::Text(t) = cell else { continue };
+                if t != "true" && t != "false" && t.parse::<f64>().is_err() {
+                    return Err(format!(
+                        "`{}` line {}, column `{}`: `{t}` is not a number; the file is damaged: \
+                         rerun that replica",
+                        path.display(),
+                        k + 2,
+                        header[c]
+                    ));
+                }
+            }
             rows.push(row);
         }
         Ok(Table { header, rows })
@@ -86,8 +102,8 @@ impl Table {
         Some(self.rows.iter().map(|r| r[k].value()).collect())
     }
 
-    /// The table as CSV text, numbers in Rust's shortest round-trip form
-    /// (plain decimal, no exponent), as the run's own tables are written.
+    /// The table as CSV text, computed numbers written by
+    /// [`crate::output::number`], as the run's own tables are.
     pub fn to_csv(&self) -> String {
         let mut s = self.header.join(",");
         s.push('\n');
@@ -98,9 +114,7 @@ impl Table {
                 }
                 match c {
                     Cell::Text(t) => s.push_str(t),
-                    Cell::Number(x) => {
-                        let _ = write!(s, "{x}");
-                    }
+                    Cell::Number(x) => number::push(&mut s, *x),
                 }
             }
             s.push('\n');
@@ -280,10 +294,19 @@ pub fn merge_table(spec: &Spec, inputs: &[(PathBuf, Table)]) -> Result<Table, St
                 continue;
             }
             if same {
-                // Every replica wrote the same text: kept exactly; no
-                // scatter, unless the value is missing (NaN).
-                errors[c] = if cells[0].value().is_nan() { f64::NAN } else { 0.0 };
-                row.push(cells[0].clone());
+                // Every replica wrote the same value: no scatter, unless it
+                // is missing (NaN). A number is the mean, a float (the mean
+                // of integer counts such as `particles` is written as one
+                // in every row, so the column has one type); a float
+                // written by a run reads back and is written again to the
+                // same text (`output::number`).
+                let x = cells[0].value();
+                errors[c] = if x.is_nan() { f64::NAN } else { 0.0 };
+                let kept = match cells[0] {
+                    Cell::Text(t) if x.is_nan() && t != "NaN" => cells[0].clone(),
+                    _ => Cell::Number(x),
+                };
+                row.push(kept);
                 continue;
             }
             let mut xs = Vec::with_capacity(cells.len());
@@ -319,7 +342,7 @@ pub fn merge_table(spec: &Spec, inputs: &[(PathBuf, Table)]) -> Result<Table, St
 fn text(c: &Cell) -> String {
     match c {
         Cell::Text(t) => format!("`{t}`"),
-        Cell::Number(x) => format!("`{x}`"),
+        Cell::Number(x) => format!("`{}`", number::text(*x)),
     }
 }
 
@@ -386,6 +409,25 @@ mod tests {
         let rows =
             lines.map(|l| l.split(',').map(|c| Cell::Text(c.to_string())).collect()).collect();
         Table { header, rows }
+    }
+
+    #[test]
+    fn a_damaged_table_is_refused_naming_file_line_and_column() {
+        let dir = std::env::temp_dir().join(format!("exobound-table-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let p = dir.join("windows.csv");
+        let good = "start_s,spin_up,content_atoms\n0.0,true,3.1e25\n900.0,false,NaN\n";
+        std::fs::write(&p, good).unwrap();
+        let t = Table::read(&p).unwrap();
+        assert_eq!(t.rows[1][1], Cell::Text("false".into()));
+        assert_eq!(t.column("content_atoms").unwrap()[0], 3.1e25);
+        std::fs::write(&p, "start_s,spin_up,content_atoms\n0.0,true,3.1e25\n900.0,false,\n")
+            .unwrap();
+        let e = Table::read(&p).unwrap_err();
+        assert!(e.contains("windows.csv` line 3, column `content_atoms`"), "{e}");
+        std::fs::write(&p, format!("{good}\n")).unwrap();
+        assert!(Table::read(&p).unwrap_err().contains("line 4"));
+        std::fs::remove_dir_all(&dir).unwrap();
     }
 
     #[test]
@@ -462,14 +504,14 @@ mod tests {
 
     #[test]
     fn the_profile_error_column_holds_the_between_replica_error() {
-        let a = table("latitude_deg,column_cm-2,column_error_cm-2\n5,1,0.1\n");
-        let b = table("latitude_deg,column_cm-2,column_error_cm-2\n5,3,0.2\n");
+        let a = table("latitude_deg,column_cm-2,column_error_cm-2\n5.0,1.0,0.1\n");
+        let b = table("latitude_deg,column_cm-2,column_error_cm-2\n5.0,3.0,0.2\n");
         let inputs = vec![(PathBuf::from("a"), a), (PathBuf::from("b"), b)];
         let m = merge_table(&SPECS[3], &inputs).unwrap();
         assert_eq!(m.header, vec!["latitude_deg", "column_cm-2", "column_error_cm-2"]);
         assert_eq!(m.rows[0][1], Cell::Number(2.0));
         // s = sqrt(2), s.e. = s / sqrt(2) = 1.
         assert_eq!(m.rows[0][2], Cell::Number(1.0));
-        assert_eq!(m.to_csv(), "latitude_deg,column_cm-2,column_error_cm-2\n5,2,1\n");
+        assert_eq!(m.to_csv(), "latitude_deg,column_cm-2,column_error_cm-2\n5.0,2.0,1.0\n");
     }
 }

@@ -24,7 +24,7 @@ use serde::{Deserialize, Serialize};
 use crate::compare::MEASURES;
 use crate::compare::stats::mean_and_se;
 use crate::driver::{self, Outcome, Session};
-use crate::output::{PROVENANCE_FILE, atomic_write};
+use crate::output::{PROVENANCE_FILE, atomic_write, number};
 use crate::runtime::Runtime;
 use plan::{Axis, Plan, Point};
 
@@ -410,13 +410,14 @@ pub fn sweep_csv(r: &SweepResult) -> String {
         s.push_str(&p.index.to_string());
         for (v, lit) in p.values.iter().zip(&p.literals) {
             if v.is_finite() {
-                s.push_str(&format!(",{v:e}"))
+                number::push_cells(&mut s, &[*v]);
             } else {
+                // A word (e.g. a pattern name): a text column.
                 s.push_str(&format!(",{}", lit.trim_matches('"')))
             }
         }
         for (m, e) in p.mean.iter().zip(&p.se) {
-            s.push_str(&format!(",{m:e},{e:e}"));
+            number::push_cells(&mut s, &[*m, *e]);
         }
         s.push('\n');
     }
