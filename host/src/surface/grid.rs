@@ -135,6 +135,22 @@ mod tests {
     use super::*;
 
     #[test]
+    fn degree_centres_are_exact_decimals() {
+        // 18 x 36 cells of 10 degrees: centres -85, ..., 5, ..., 85 and 5, ..., 355 exactly,
+        // which the radian centres converted to degrees are not (4.999999999999995).
+        let g = Grid::new(18, 36, 1.0).unwrap();
+        assert_eq!(g.latitude_centre_deg(9), 5.0);
+        assert_eq!(g.latitude_centre_deg(0), -85.0);
+        assert_eq!(g.longitude_centre_deg(29), 295.0);
+        assert_eq!((g.latitude_edge_deg(0), g.latitude_edge_deg(18)), (-90.0, 90.0));
+        assert_eq!(g.longitude_edge_deg(36), 360.0);
+        for i in 0..18 {
+            let (lat, _) = g.centre(i * 36);
+            assert!((g.latitude_centre_deg(i) - lat.to_degrees()).abs() < 1e-12);
+        }
+    }
+
+    #[test]
     fn areas_sum_to_the_sphere() {
         // Surface of a sphere 4 pi R^2 (textbook); Moon radius 1737.4 km (JPL planetary and satellite physical parameters, DE440).
         let g = Grid::new(36, 72, 1.7374e6).unwrap();

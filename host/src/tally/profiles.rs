@@ -224,6 +224,17 @@ mod tests {
     use super::*;
 
     #[test]
+    fn bin_centres_are_the_means_of_round_edges() {
+        assert_eq!(latitude_centre_deg(9, 18), 5.0);
+        assert_eq!(latitude_centre_deg(17, 18), 85.0);
+        assert_eq!(local_time_centre(10, 24), 10.5);
+        assert_eq!(local_time_edge(24, 24), 24.0);
+        for j in 0..18 {
+            assert!((latitude_centre_deg(j, 18) - latitude_centre(j, 18).to_degrees()).abs() < 1e-12);
+        }
+    }
+
+    #[test]
     fn peak_of_a_shifted_cosine_is_recovered() {
         // A dayside profile 1 + cos(2 pi (LT - LT0)/24) has its maximum at
         // LT0 exactly (closed form); sampled on 24 bin centres.
