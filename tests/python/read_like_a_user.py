@@ -31,8 +31,16 @@ def check(path):
         ds = xr.open_dataset(path, engine="scipy")
     except Exception as exc:  # any reason it cannot be opened is a failure to report
         failures.append(f"cannot open with default decoding: {exc}")
+        summary["ok"] = False
         return summary
     with ds:
+        needed = CELL_COORDINATES + ["window_end", "time", "time_bounds", "column", "density"]
+        needed += ["source_flux", "reservoir", "cell_area"]
+        missing = [name for name in needed if name not in ds.variables]
+        if missing:
+            failures.append(f"variables missing: {missing}")
+            summary["ok"] = False
+            return summary
         lt = ds["local_time"]
         summary["local_time_dtype"] = str(lt.dtype)
         if lt.dtype.kind != "f":
@@ -98,7 +106,7 @@ def main(argv):
         return 2
     summary = check(argv[1])
     print(json.dumps(summary, indent=2))
-    return 0 if summary["ok"] else 1
+    return 0 if not summary["failures"] else 1
 
 
 if __name__ == "__main__":

@@ -230,7 +230,9 @@ mod tests {
         assert_eq!(local_time_centre(10, 24), 10.5);
         assert_eq!(local_time_edge(24, 24), 24.0);
         for j in 0..18 {
-            assert!((latitude_centre_deg(j, 18) - latitude_centre(j, 18).to_degrees()).abs() < 1e-12);
+            assert!(
+                (latitude_centre_deg(j, 18) - latitude_centre(j, 18).to_degrees()).abs() < 1e-12
+            );
         }
     }
 
