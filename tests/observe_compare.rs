@@ -61,9 +61,10 @@ fn observe_a_quick_run_from_a_telescope_and_an_orbiter() {
     assert!(obs.samples[1].column_cm2 > 2.0 * obs.samples[6].column_cm2);
     let img = exobound_products::read_netcdf(&out.join("image.nc")).unwrap();
     let b = img.variable("brightness").unwrap();
-    assert_eq!(b.attribute("units").and_then(|a| a.as_text()), Some("R"));
+    assert_eq!(b.attribute("units").and_then(|a| a.as_text()), Some("1e10 m-2 s-1"));
     // 24 rows and 1.5 times as many columns of square pixels.
     assert_eq!(b.data.len(), 24 * 36);
+    crate::support::cf_checker(&out.join("image.nc"));
 
     // An orbiter looking at nadir sees the vertical column of the field
     // below it (the density grid reaches the outer boundary, far above).

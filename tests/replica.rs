@@ -277,9 +277,13 @@ fn merging_gives_the_replica_mean_and_error_in_any_order_with_a_closed_ledger() 
     // (c) Means and standard errors, recomputed from the replicas' files.
     let ncs: Vec<PathBuf> = r.iter().map(|d| d.join("exosphere.nc")).collect();
     let m_nc = m1.join("exosphere.nc");
-    for (var, min_differing) in
-        [("density", 100), ("column", 100), ("reservoir", 50), ("content", 1), ("source_flux", 50)]
-    {
+    for (var, min_differing) in [
+        ("density", 100),
+        ("column", 100),
+        ("reservoir", 50),
+        ("atoms_in_flight", 1),
+        ("source_flux", 50),
+    ] {
         let reps: Vec<Vec<f64>> = ncs.iter().map(|p| nc(p, var)).collect();
         let n =
             check_mean_and_error(var, &reps, &nc(&m_nc, var), &nc(&m_nc, &format!("{var}_error")));
@@ -291,7 +295,7 @@ fn merging_gives_the_replica_mean_and_error_in_any_order_with_a_closed_ledger() 
         ("density", "cm-3"),
         ("density_error", "cm-3"),
         ("column_error", "cm-2"),
-        ("content_error", "1"),
+        ("atoms_in_flight_error", "1"),
     ] {
         assert_eq!(
             ds.variable(var).unwrap().attribute("units").and_then(|u| u.as_text()),
@@ -406,6 +410,8 @@ fn merging_gives_the_replica_mean_and_error_in_any_order_with_a_closed_ledger() 
     }
 
     xarray_check(&m_nc);
+    crate::support::read_like_a_user(&m_nc);
+    crate::support::cf_checker(&m_nc);
 }
 
 /// The merged file through Python xarray (scipy backend), as the run tests
@@ -434,8 +440,8 @@ fn xarray_check(nc: &Path) {
             "column",
             "column_error",
             "reservoir_error",
-            "content",
-            "content_error",
+            "atoms_in_flight",
+            "atoms_in_flight_error",
         ])
         .output()
         .expect("run python3");

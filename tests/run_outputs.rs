@@ -65,15 +65,37 @@ fn quick_demo_writes_every_product() {
 
     // The NetCDF file reads back with the crate, with units on every variable.
     let ds = exobound_products::read_netcdf(&out.join("exosphere.nc")).unwrap();
-    for v in ["density", "column", "reservoir", "source_flux", "loss_flux", "content"] {
+    for v in ["density", "column", "reservoir", "source_flux", "loss_flux", "atoms_in_flight"] {
         assert!(ds.variable(v).is_some(), "exosphere.nc lacks `{v}`");
     }
+    // Units on every variable but the bounds, which take their coordinate's (CF Conventions
+    // 1.8, section 7.1 (cell boundaries)).
     for v in &ds.variables {
-        assert!(v.attribute("units").is_some(), "`{}` has no units", v.name);
+        let is_bounds = ds.bounds_parent(&v.name).is_some();
+        assert_eq!(v.attribute("units").is_some(), !is_bounds, "`{}` units", v.name);
     }
-    assert_eq!(ds.variable("density").unwrap().dimensions, ["altitude", "local_time", "latitude"]);
+    assert!(ds.variable("content").is_none(), "`content` is now `atoms_in_flight`");
+    // CF dimension order (CF 1.8 section 2.4): axis-less local_time first, then Z, Y, X.
+    assert_eq!(ds.variable("density").unwrap().dimensions, ["local_time", "altitude", "latitude"]);
     assert_eq!(ds.variable("column").unwrap().dimensions, ["local_time", "latitude"]);
-    assert_eq!(ds.variable("reservoir").unwrap().dimensions, ["cell_longitude", "cell_latitude"]);
+    assert_eq!(ds.variable("reservoir").unwrap().dimensions, ["cell_latitude", "cell_longitude"]);
+    // Coordinates are exact decimals from degree edges: 5, 15, ... and 0.5, 1.5, ...
+    let coord = |n: &str| ds.variable(n).unwrap().data.clone();
+    assert!(coord("latitude").contains(&5.0) && coord("latitude")[0] == -85.0);
+    assert_eq!(coord("local_time")[10], 10.5);
+    assert_eq!(coord("latitude_bounds")[..2], [-90.0, -80.0]);
+    assert!(coord("cell_longitude").iter().all(|x| (x * 2.0).fract() == 0.0));
+    // Surface-cell areas tile the sphere: 4 pi R^2 to round-off.
+    let r_m = ds.attribute("body_radius_km").and_then(|a| a.as_number()).unwrap() * 1e3;
+    let total: f64 = coord("cell_area").iter().sum();
+    let sphere = 4.0 * std::f64::consts::PI * r_m * r_m;
+    assert!((total / sphere - 1.0).abs() < 1e-12, "cell areas sum to {total}, sphere {sphere}");
+    // summary.json carries the same exact values as the file.
+    let summary = json(&out.join("summary.json"));
+    let peak_lat = summary["peak_near_surface_density"]["latitude_deg"].as_f64().unwrap();
+    assert!(coord("latitude").contains(&peak_lat), "summary latitude {peak_lat}");
+    let history = ds.attribute("history").and_then(|a| a.as_text()).unwrap();
+    assert!(history.contains("exobound ") && history.contains(" run"), "{history}");
     assert_eq!(
         ds.variable("latitude").unwrap().attribute("units").unwrap().as_text(),
         Some("degrees_north")
@@ -118,6 +140,8 @@ fn quick_demo_writes_every_product() {
     assert!(p["scenario_text"].as_str().unwrap().contains("[surface.temperature]"));
 
     xarray_check(&out.join("exosphere.nc"));
+    crate::support::read_like_a_user(&out.join("exosphere.nc"));
+    crate::support::cf_checker(&out.join("exosphere.nc"));
 }
 
 /// Open the file with Python xarray (scipy backend, no netCDF C library).
@@ -141,7 +165,7 @@ fn xarray_check(nc: &Path) {
     let out = std::process::Command::new("python3")
         .arg(&script)
         .arg(nc)
-        .args(["density", "column", "reservoir", "source_flux", "loss_flux", "content"])
+        .args(["density", "column", "reservoir", "source_flux", "loss_flux", "atoms_in_flight"])
         .output()
         .expect("run python3");
     assert!(

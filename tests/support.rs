@@ -242,3 +242,69 @@ pub fn constant_rate_export(name: &str, value: &str) -> String {
     (local.get $n))"#
     )
 }
+
+/// Runs the IOOS compliance-checker's CF 1.8 suite on `nc` (tests/python/cf_check.py) and
+/// fails on any error or warning that docs/outputs.md does not quote with its reason. `.ci/run`
+/// installs the checker and sets EXOBOUND_REQUIRE_CF_CHECKER=1; only without that variable
+/// and without the checker is the check reported and skipped.
+pub fn cf_checker(nc: &Path) {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let required = std::env::var_os("EXOBOUND_REQUIRE_CF_CHECKER").is_some();
+    let has = std::process::Command::new("python3")
+        .args(["-c", "import compliance_checker, netCDF4"])
+        .output()
+        .is_ok_and(|o| o.status.success());
+    if !has {
+        assert!(
+            !required,
+            "EXOBOUND_REQUIRE_CF_CHECKER is set but python3 cannot import compliance_checker \
+             and netCDF4 (pip install compliance-checker)"
+        );
+        eprintln!(
+            "skipping the CF checker on {}: compliance-checker is not installed",
+            nc.display()
+        );
+        return;
+    }
+    let out = std::process::Command::new("python3")
+        .arg(root.join("python/cf_check.py"))
+        .arg(nc)
+        .arg(root.join("../docs/outputs.md"))
+        .output()
+        .expect("run python3");
+    assert!(
+        out.status.success(),
+        "compliance-checker (CF 1.8) findings on {} that docs/outputs.md does not explain:\n{}\n{}",
+        nc.display(),
+        String::from_utf8_lossy(&out.stdout),
+        String::from_utf8_lossy(&out.stderr)
+    );
+}
+
+/// Opens a run's `nc` with xarray's default decoding as a user would
+/// (tests/python/read_like_a_user.py): dates, exact coordinates, bounds, cell methods.
+/// Skipped without xarray unless EXOBOUND_REQUIRE_XARRAY is set.
+pub fn read_like_a_user(nc: &Path) {
+    let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("python/read_like_a_user.py");
+    let required = std::env::var_os("EXOBOUND_REQUIRE_XARRAY").is_some();
+    let has = std::process::Command::new("python3")
+        .args(["-c", "import xarray, scipy"])
+        .output()
+        .is_ok_and(|o| o.status.success());
+    if !has {
+        assert!(
+            !required,
+            "EXOBOUND_REQUIRE_XARRAY is set but python3 cannot import xarray and scipy"
+        );
+        eprintln!("skipping the xarray user read: python3 cannot import xarray and scipy");
+        return;
+    }
+    let out = std::process::Command::new("python3").arg(&script).arg(nc).output().expect("python3");
+    assert!(
+        out.status.success(),
+        "reading {} with default xarray decoding failed:\n{}\n{}",
+        nc.display(),
+        String::from_utf8_lossy(&out.stdout),
+        String::from_utf8_lossy(&out.stderr)
+    );
+}

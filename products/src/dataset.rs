@@ -175,10 +175,21 @@ impl Dataset {
         self.dimensions.iter().find(|(n, _)| n == name).map(|(_, l)| *l)
     }
 
+    /// The variable whose `bounds` attribute names `name`, if any (then `name` is a CF
+    /// boundary variable).
+    pub fn bounds_parent(&self, name: &str) -> Option<&Variable> {
+        self.variables
+            .iter()
+            .find(|v| v.attribute("bounds").and_then(AttrValue::as_text) == Some(name))
+    }
+
     /// Checks the dataset can be written as CF NetCDF-3: valid unique names, every variable's
     /// dimensions defined and used once, data length = product of dimension lengths, a text
-    /// `units` attribute on every variable ("1" when dimensionless), coordinate data finite and
-    /// strictly monotonic, and a global `Conventions` attribute. The first problem is reported.
+    /// `units` attribute on every variable ("1" when dimensionless) except boundary variables,
+    /// which must have none and their parent's dimensions plus a vertex dimension (CF 1.8
+    /// section 7.1), every variable named by `bounds`, `cell_measures` or `coordinates`
+    /// present, coordinate data finite and strictly monotonic, and a global `Conventions`
+    /// attribute. The first problem is reported.
     pub fn check(&self) -> Result<(), ProductError> {
         let fail = |m: String| Err(ProductError::content(m));
         for (i, (name, len)) in self.dimensions.iter().enumerate() {
@@ -237,6 +248,41 @@ impl Dataset {
                     shape.join(", ")
                 ));
             }
+            if let Some(parent) = self.bounds_parent(name) {
+                // CF Conventions 1.8, section 7.1 (cell boundaries): a boundary variable has
+                // its parent's dimensions plus a trailing vertex dimension, and takes its units
+                // from the parent, so it carries none of its own.
+                let ok = var.dimensions.len() == parent.dimensions.len() + 1
+                    && var.dimensions[..parent.dimensions.len()] == parent.dimensions[..];
+                if !ok {
+                    return fail(format!(
+                        "bounds variable `{name}` of `{}` has dimensions {:?}; it needs `{}`'s \
+                         dimensions {:?} plus one vertex dimension",
+                        parent.name, var.dimensions, parent.name, parent.dimensions
+                    ));
+                }
+                if var.attribute("units").is_some() {
+                    return fail(format!(
+                        "bounds variable `{name}` has a `units` attribute; CF 1.8 section 7.1 \
+                         gives it the units of `{}`, so leave it out",
+                        parent.name
+                    ));
+                }
+                check_attributes(&format!("variable `{name}`"), &var.attributes)?;
+                continue;
+            }
+            for key in ["bounds", "cell_measures", "coordinates"] {
+                if let Some(AttrValue::Text(t)) = var.attribute(key) {
+                    for word in t.split_whitespace().filter(|w| !w.ends_with(':')) {
+                        if self.variable(word).is_none() {
+                            return fail(format!(
+                                "variable `{name}`: attribute `{key}` names `{word}`, which is \
+                                 not a variable of the dataset"
+                            ));
+                        }
+                    }
+                }
+            }
             match var.attribute("units") {
                 Some(AttrValue::Text(u)) if !u.is_empty() => {}
                 Some(_) => {
@@ -286,4 +332,20 @@ fn check_attributes(owner: &str, attributes: &[(String, AttrValue)]) -> Result<(
         }
     }
     Ok(())
+}
+
+/// `data` laid out row-major as `[a][b][inner]` (`n_a` x `n_b` blocks of `inner` values),
+/// returned laid out as `[b][a][inner]`: swaps the two outermost axes of an array, e.g. to
+/// put dimensions in the order a file needs. Its own inverse with `n_a` and `n_b` swapped.
+/// Panics if `data.len() != n_a * n_b * inner`.
+pub fn swap_outer_axes(data: &[f64], n_a: usize, n_b: usize, inner: usize) -> Vec<f64> {
+    assert_eq!(data.len(), n_a * n_b * inner, "swap_outer_axes: data length");
+    let mut out = Vec::with_capacity(data.len());
+    for b in 0..n_b {
+        for a in 0..n_a {
+            let at = (a * n_b + b) * inner;
+            out.extend_from_slice(&data[at..at + inner]);
+        }
+    }
+    out
 }

@@ -12,7 +12,7 @@ pub mod text;
 pub mod ticks;
 
 pub use colour::colour;
-pub use dataset::{AttrValue, Dataset, Variable};
+pub use dataset::{AttrValue, Dataset, Variable, swap_outer_axes};
 pub use error::ProductError;
 pub use netcdf::{read_netcdf, write_netcdf};
 pub use plots::{

@@ -134,6 +134,71 @@ fn check_refuses_other_mistakes() {
     assert!(ds.check().unwrap_err().to_string().contains("defined twice"));
 }
 
+/// The sample with `alt_bounds(alt, nv)` named by `alt`'s `bounds` attribute.
+fn with_bounds() -> Dataset {
+    let mut ds = sample();
+    ds.add_dimension("nv", 2);
+    let alt = ds.variables.iter_mut().find(|v| v.name == "alt").unwrap();
+    *alt = alt.clone().with("bounds", "alt_bounds");
+    let mut b =
+        Variable::new("alt_bounds", &["alt", "nv"], vec![0.0, 50.0, 50.0, 200.0, 200.0, 400.0], "");
+    b.attributes.clear();
+    ds.add_variable(b);
+    ds
+}
+
+#[test]
+fn bounds_variables_take_their_parents_units_and_shape() {
+    // CF Conventions 1.8, section 7.1 (cell boundaries): no units of their own, the parent's
+    // dimensions plus a vertex dimension.
+    let ds = with_bounds();
+    ds.check().expect("bounds without units are valid");
+    let scratch = Scratch::new("bounds");
+    let path = scratch.join("bounds.nc");
+    write_netcdf(&ds, &path).unwrap();
+    let back = read_netcdf(&path).unwrap();
+    assert!(back.variable("alt_bounds").unwrap().attribute("units").is_none());
+    assert_eq!(back.bounds_parent("alt_bounds").map(|v| v.name.as_str()), Some("alt"));
+    back.check().unwrap();
+
+    let mut ds = with_bounds();
+    let b = ds.variables.iter_mut().find(|v| v.name == "alt_bounds").unwrap();
+    *b = b.clone().with("units", "km");
+    let err = ds.check().unwrap_err().to_string();
+    assert!(err.contains("`alt_bounds`") && err.contains("`units`"), "{err}");
+
+    let mut ds = with_bounds();
+    let b = ds.variables.iter_mut().find(|v| v.name == "alt_bounds").unwrap();
+    b.dimensions = vec!["nv".into(), "alt".into()];
+    let err = ds.check().unwrap_err().to_string();
+    assert!(err.contains("bounds variable `alt_bounds`") && err.contains("vertex"), "{err}");
+
+    // A cell measure that names no variable is refused.
+    let mut ds = with_bounds();
+    let c = ds.variables.iter_mut().find(|v| v.name == "column").unwrap();
+    *c = c.clone().with("cell_measures", "area: cell_area");
+    let err = ds.check().unwrap_err().to_string();
+    assert!(err.contains("`cell_area`") && err.contains("cell_measures"), "{err}");
+}
+
+#[test]
+fn swapping_outer_axes_moves_whole_blocks_and_round_trips() {
+    // [a][b][inner] with a = 2, b = 3, inner = 2: value = 100 a + 10 b + i.
+    let data: Vec<f64> = (0..2)
+        .flat_map(|a| {
+            (0..3).flat_map(move |b| (0..2).map(move |i| f64::from(100 * a + 10 * b + i)))
+        })
+        .collect();
+    let swapped = exobound_products::swap_outer_axes(&data, 2, 3, 2);
+    let expected: Vec<f64> = (0..3)
+        .flat_map(|b| {
+            (0..2).flat_map(move |a| (0..2).map(move |i| f64::from(100 * a + 10 * b + i)))
+        })
+        .collect();
+    assert_eq!(swapped, expected);
+    assert_eq!(exobound_products::swap_outer_axes(&swapped, 3, 2, 2), data);
+}
+
 #[test]
 fn write_refuses_a_bad_dataset_naming_the_file_and_writes_nothing() {
     let scratch = Scratch::new("refuse");

@@ -65,30 +65,37 @@ impl DensityField {
             v.attribute("units").and_then(|a| a.as_text()).unwrap_or("").to_string()
         };
         let density = var("density")?;
-        if density.dimensions != ["altitude", "local_time", "latitude"] {
+        let dims = crate::output::netcdf::ATMOSPHERE_DIMS;
+        if density.dimensions != dims {
             return Err(format!(
-                "`{name}`: density has dimensions {:?}, expected (altitude, local_time, latitude)",
+                "`{name}`: density has dimensions {:?}, expected {dims:?}; files written before \
+                 the CF dimension order must be remade: rerun the scenario",
                 density.dimensions
             ));
         }
         if units(density) != "cm-3" {
             return Err(format!("`{name}`: density is in `{}`, expected `cm-3`", units(density)));
         }
-        let bounds = var("altitude_bounds")?;
-        if units(bounds) != "km" {
-            return Err(format!(
-                "`{name}`: altitude_bounds is in `{}`, expected `km`",
-                units(bounds)
-            ));
+        // The bounds carry no units of their own (CF 1.8 section 7.1): the altitude's apply.
+        let altitude = var("altitude")?;
+        if units(altitude) != "km" {
+            return Err(format!("`{name}`: altitude is in `{}`, expected `km`", units(altitude)));
         }
+        let bounds = var("altitude_bounds")?;
         let n_alt = ds.dimension_len("altitude").unwrap_or(0);
         let n_lt = ds.dimension_len("local_time").unwrap_or(0);
         let n_lat = ds.dimension_len("latitude").unwrap_or(0);
         if bounds.data.len() != 2 * n_alt || n_alt == 0 {
             return Err(format!("`{name}`: altitude_bounds does not match the altitude axis"));
         }
+        if density.data.len() != n_alt * n_lt * n_lat {
+            return Err(format!("`{name}`: density does not match its dimensions"));
+        }
         let mut edges: Vec<f64> = bounds.data.chunks(2).map(|b| b[0] * 1e3).collect();
         edges.push(bounds.data[2 * n_alt - 1] * 1e3);
+        // The file's (local_time, altitude, latitude) to this field's (altitude, local_time,
+        // latitude).
+        let data = exobound_products::swap_outer_axes(&density.data, n_lt, n_alt, n_lat);
         let radius_km =
             ds.attribute("body_radius_km").and_then(|a| a.as_number()).ok_or_else(|| {
                 format!(
@@ -96,7 +103,7 @@ impl DensityField {
                      older exobound, so rerun the scenario"
                 )
             })?;
-        DensityField::new(radius_km * 1e3, edges, n_lt, n_lat, density.data.clone())
+        DensityField::new(radius_km * 1e3, edges, n_lt, n_lat, data)
             .ok_or_else(|| format!("`{name}`: the density grid is inconsistent"))
     }
 

@@ -101,6 +101,10 @@ pub struct Observation {
 /// figure's plotting area, so that the disk is drawn round.
 pub const IMAGE_ASPECT: f64 = 1.5;
 
+/// UDUNITS spelling of the rayleigh (1e10 photons m^-2 s^-1; photons are counted, not a
+/// unit), the units of `brightness` in image.nc.
+pub const RAYLEIGH_UNITS: &str = "1e10 m-2 s-1";
+
 /// A distant observer's image: pixel centres (km on the sky plane) and columns.
 #[derive(Clone, Debug)]
 pub struct Image {
@@ -445,6 +449,16 @@ fn compute_and_write(
                 "comment",
                 "Model output: a scientific estimate, not flight-operations data.",
             );
+            // What made the file, without a date (reproducible; CF 1.8 section 2.6.2).
+            ds.set_attribute(
+                "history",
+                format!(
+                    "exobound {} observe: view \"{}\" of a run's exosphere.nc (no date: \
+                     reproducible)",
+                    env!("CARGO_PKG_VERSION"),
+                    view.title
+                ),
+            );
             ds.set_attribute("g_factor_photons_per_s_per_atom", g);
             ds.set_attribute("g_factor_origin", table.origin.clone());
             ds.set_attribute("phase_angle_deg", d.phase_angle.to_degrees());
@@ -465,8 +479,12 @@ fn compute_and_write(
                     .with("long_name", "line-of-sight column"),
             );
             ds.add_variable(
-                Variable::new("brightness", &["y", "x"], bright, "R")
-                    .with("long_name", "brightness 4 pi I (optically thin)"),
+                // 1 rayleigh = 1e10 photons m-2 s-1 column emission rate (Hunten, Roach &
+                // Chamberlain 1956); "R" would read as roentgen in UDUNITS.
+                Variable::new("brightness", &["y", "x"], bright, RAYLEIGH_UNITS).with(
+                    "long_name",
+                    "brightness 4 pi I in rayleigh (optically thin; 1 R = 1e10 photons m-2 s-1)",
+                ),
             );
             exobound_products::write_netcdf(&ds, &dir.join("image.nc"))
                 .map_err(|e| e.to_string())?;

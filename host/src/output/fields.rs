@@ -17,14 +17,24 @@ pub struct Fields {
     pub altitude_km: Vec<f64>,
     /// Altitude bin edges, km.
     pub altitude_edges_km: Vec<f64>,
-    /// Local-time bin centres, h.
+    /// Local-time bin centres, h (exact decimals: means of the edges).
     pub local_time_h: Vec<f64>,
-    /// Tally latitude bin centres, deg.
+    /// Local-time bin edges, h, `local_time_h.len() + 1` of them from 0 to 24.
+    pub local_time_edges_h: Vec<f64>,
+    /// Tally latitude bin centres, deg (exact decimals: means of the degree edges).
     pub latitude_deg: Vec<f64>,
+    /// Tally latitude bin edges, deg, from -90 to 90.
+    pub latitude_edges_deg: Vec<f64>,
     /// Surface-grid latitude centres, deg.
     pub grid_latitude_deg: Vec<f64>,
+    /// Surface-grid latitude edges, deg, from -90 to 90.
+    pub grid_latitude_edges_deg: Vec<f64>,
     /// Surface-grid east-longitude centres, deg.
     pub grid_longitude_deg: Vec<f64>,
+    /// Surface-grid east-longitude edges, deg, from 0 to 360.
+    pub grid_longitude_edges_deg: Vec<f64>,
+    /// Surface-cell areas, m^2, one per latitude row (every cell of a row has the same area).
+    pub grid_row_area_m2: Vec<f64>,
     /// Run-averaged density, atoms cm^-3, layout (alt, lt, lat).
     pub density: Vec<f64>,
     /// Run-averaged vertical column, atoms cm^-2, layout (lt, lat).
@@ -91,11 +101,16 @@ impl Fields {
             altitude_km: edges.windows(2).map(|w| 0.5 * (w[0] + w[1])).collect(),
             altitude_edges_km: edges.clone(),
             local_time_h: (0..n_lt).map(|i| profiles::local_time_centre(i, n_lt)).collect(),
-            latitude_deg: (0..n_lat)
-                .map(|j| profiles::latitude_centre(j, n_lat).to_degrees())
+            local_time_edges_h: (0..=n_lt).map(|i| profiles::local_time_edge(i, n_lt)).collect(),
+            latitude_deg: (0..n_lat).map(|j| profiles::latitude_centre_deg(j, n_lat)).collect(),
+            latitude_edges_deg: (0..=n_lat)
+                .map(|j| profiles::latitude_edge_deg(j, n_lat))
                 .collect(),
-            grid_latitude_deg: (0..gl).map(|i| grid.centre(i * gm).0.to_degrees()).collect(),
-            grid_longitude_deg: (0..gm).map(|j| grid.centre(j).1.to_degrees()).collect(),
+            grid_latitude_deg: (0..gl).map(|i| grid.latitude_centre_deg(i)).collect(),
+            grid_latitude_edges_deg: (0..=gl).map(|i| grid.latitude_edge_deg(i)).collect(),
+            grid_longitude_deg: (0..gm).map(|j| grid.longitude_centre_deg(j)).collect(),
+            grid_longitude_edges_deg: (0..=gm).map(|j| grid.longitude_edge_deg(j)).collect(),
+            grid_row_area_m2: (0..gl).map(|i| grid.area_m2(i * gm)).collect(),
             equator_profile: profiles::equatorial_profile(
                 &column,
                 n_lt,

@@ -55,7 +55,16 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
 
     let (gm, gl) = (var("cell_longitude")?.len(), var("cell_latitude")?.len());
     let title = format!("adsorbed {sp} reservoir at the end of the run, {of}");
-    let map = reservoir_map(title, gm, gl, &var("reservoir")?);
+    // The file's (cell_latitude, cell_longitude) to the map's (longitude, latitude) layout.
+    let reservoir = var("reservoir")?;
+    if reservoir.len() != gl * gm {
+        return Err(format!(
+            "exosphere.nc: `reservoir` has {} values, not {gl} x {gm}",
+            reservoir.len()
+        ));
+    }
+    let reservoir = exobound_products::swap_outer_axes(&reservoir, gl, gm, 1);
+    let map = reservoir_map(title, gm, gl, &reservoir);
     e(draw_map(&map, &dir.join("reservoir_map.png")))?;
     done("reservoir_map.png");
 

@@ -34,8 +34,25 @@ pub const NETCDF_FILE: &str = "exosphere.nc";
 pub const SUMMARY_FILE: &str = "summary.json";
 
 /// Variables that are part of the grid, not estimates: copied, and required
-/// to be equal in every replica (besides the coordinate variables).
-const GRID_VARIABLES: [&str; 2] = ["altitude_bounds", "spin_up"];
+/// to be equal in every replica (besides the coordinate variables and the
+/// variables other variables name as `bounds`, `cell_measures` or
+/// `coordinates`; see [`is_grid`]).
+const GRID_VARIABLES: [&str; 1] = ["spin_up"];
+
+/// Whether `v` of `ds` is part of the grid: a coordinate variable, a variable
+/// another one names in `bounds`, `cell_measures` or `coordinates` (CF 1.8
+/// sections 5, 7.1 and 7.2), or one of [`GRID_VARIABLES`].
+fn is_grid(ds: &Dataset, v: &Variable) -> bool {
+    v.is_coordinate()
+        || GRID_VARIABLES.contains(&v.name.as_str())
+        || ds.variables.iter().any(|o| {
+            ["bounds", "cell_measures", "coordinates"].iter().any(|k| {
+                o.attribute(k)
+                    .and_then(AttrValue::as_text)
+                    .is_some_and(|t| t.split_whitespace().any(|w| w == v.name))
+            })
+        })
+}
 
 /// Mean of `xs` and its standard error, the sample standard deviation
 /// (n - 1 in the denominator) over sqrt(n), both in the unit of `xs`, with
@@ -423,7 +440,7 @@ fn merge_dataset(runs: &[ReplicaRun], sets: &[(PathBuf, Dataset)]) -> Result<Dat
             return Err(mismatch(p, "other variables".into()));
         }
         for (v, v0) in d.variables.iter().zip(&d0.variables) {
-            let grid = v0.is_coordinate() || GRID_VARIABLES.contains(&v0.name.as_str());
+            let grid = is_grid(d0, v0);
             let same = v.data.len() == v0.data.len()
                 && v.data.iter().zip(&v0.data).all(|(a, b)| a.to_bits() == b.to_bits());
             if !same && (grid || v.data.len() != v0.data.len()) {
@@ -438,7 +455,7 @@ fn merge_dataset(runs: &[ReplicaRun], sets: &[(PathBuf, Dataset)]) -> Result<Dat
     };
     let mut xs = vec![0.0; sets.len()];
     for (k, v0) in d0.variables.iter().enumerate() {
-        if v0.is_coordinate() || GRID_VARIABLES.contains(&v0.name.as_str()) {
+        if is_grid(d0, v0) {
             out.variables.push(v0.clone());
             continue;
         }
@@ -456,7 +473,7 @@ fn merge_dataset(runs: &[ReplicaRun], sets: &[(PathBuf, Dataset)]) -> Result<Dat
         let units = v0.attribute("units").and_then(AttrValue::as_text).unwrap_or("1");
         let long = v0.attribute("long_name").and_then(AttrValue::as_text).unwrap_or(&v0.name);
         let dims: Vec<&str> = v0.dimensions.iter().map(String::as_str).collect();
-        let err = Variable::new(&err_name, &dims, se, units).with(
+        let mut err = Variable::new(&err_name, &dims, se, units).with(
             "long_name",
             format!(
                 "standard error of the replica mean (sample standard deviation / sqrt({})) of: \
@@ -464,6 +481,12 @@ fn merge_dataset(runs: &[ReplicaRun], sets: &[(PathBuf, Dataset)]) -> Result<Dat
                 runs.len()
             ),
         );
+        // The error lives on the same cells as the mean (CF 1.8 sections 5 and 7.2).
+        for key in ["coordinates", "cell_measures"] {
+            if let Some(value) = v0.attribute(key) {
+                err = err.with(key, value.clone());
+            }
+        }
         out.variables.push(
             Variable { data: mean, ..v0.clone() }.with("ancillary_variables", err_name.as_str()),
         );
@@ -472,6 +495,28 @@ fn merge_dataset(runs: &[ReplicaRun], sets: &[(PathBuf, Dataset)]) -> Result<Dat
     for (name, value) in &d0.attributes {
         let value = match (name.as_str(), value) {
             ("seed", _) => AttrValue::Number(runs[0].marker.base_seed as f64),
+            // The merge appends its line to the replicas' history (CF 1.8 section 2.6.2),
+            // without a date so that merging again gives the same bytes.
+            // Each replica's own line names its seed, so the set is described instead.
+            ("history", AttrValue::Text(_)) => {
+                let text = |k: &str| d0.attribute(k).and_then(AttrValue::as_text).unwrap_or("");
+                let kept: Vec<&str> = text("overrides")
+                    .split("; ")
+                    .filter(|o| !o.is_empty() && parse_marker(o).is_none())
+                    .collect();
+                let overrides = if kept.is_empty() {
+                    "no overrides".to_string()
+                } else {
+                    format!("overrides {}", kept.join("; "))
+                };
+                AttrValue::Text(format!(
+                    "exobound {v} run --replica: scenario {}, {overrides}\nexobound {v} \
+                     merge-replicas: mean of {} (no date: reproducible)",
+                    text("scenario_origin"),
+                    describe(runs),
+                    v = env!("CARGO_PKG_VERSION"),
+                ))
+            }
             ("overrides", AttrValue::Text(t)) => AttrValue::Text(
                 t.split("; ")
                     .filter(|o| !o.is_empty() && parse_marker(o).is_none())
@@ -798,12 +843,12 @@ fn peaks(
         }
         return;
     };
-    // Adsorbed density, (cell_longitude, cell_latitude), cm-2.
+    // Adsorbed density, (cell_latitude, cell_longitude), cm-2.
     let (res, res_err) = (var(d, "reservoir"), var(d, "reservoir_error"));
     let (lon, lat) = (var(d, "cell_longitude"), var(d, "cell_latitude"));
-    if !res.is_empty() && res_err.len() == res.len() && !lat.is_empty() {
+    if !res.is_empty() && res_err.len() == res.len() && !lon.is_empty() {
         let (k, vmax) = argmax(&res);
-        let (plon, plat) = (lon[k / lat.len()], lat[k % lat.len()]);
+        let (plon, plat) = (lon[k % lon.len()], lat[k / lon.len()]);
         // Local solar time rises 1 h per 15 deg of east longitude; every
         // replica ends at the same time, so the first one's peak gives the
         // local time of any longitude.
@@ -826,12 +871,16 @@ fn peaks(
         se.insert("peak_adsorbed_density".into(), json!({ "value": num(res_err[k]) }));
     }
     // Near-surface density: the lowest altitude bin of
-    // density(altitude, local_time, latitude), cm-3.
+    // density(local_time, altitude, latitude), cm-3, taken in (local_time,
+    // latitude) order so that ties resolve as in a run's summary.
     let (den, den_err) = (var(d, "density"), var(d, "density_error"));
     let (lt, la, bounds) = (var(d, "local_time"), var(d, "latitude"), var(d, "altitude_bounds"));
     let cells = lt.len() * la.len();
-    if cells > 0 && den.len() >= cells && den_err.len() == den.len() && bounds.len() >= 2 {
-        let (k, dmax) = argmax(&den[..cells]);
+    let n_alt = bounds.len() / 2;
+    if cells > 0 && den.len() == cells * n_alt && den_err.len() == den.len() && n_alt >= 1 {
+        let at = |k: usize| (k / la.len()) * n_alt * la.len() + k % la.len();
+        let low: Vec<f64> = (0..cells).map(|k| den[at(k)]).collect();
+        let (k, dmax) = argmax(&low);
         obj.insert(
             "peak_near_surface_density".into(),
             json!({
@@ -841,7 +890,7 @@ fn peaks(
                 "latitude_deg": num(la[k % la.len()]),
             }),
         );
-        se.insert("peak_near_surface_density".into(), json!({ "value": num(den_err[k]) }));
+        se.insert("peak_near_surface_density".into(), json!({ "value": num(den_err[at(k)]) }));
     }
 }
 

@@ -88,6 +88,28 @@ impl Grid {
         (-FRAC_PI_2 + (i as f64 + 0.5) * self.dlat(), (j as f64 + 0.5) * self.dlon())
     }
 
+    /// Southern edge of latitude row `i` (`i = n_lat` gives the north pole), degrees north,
+    /// from whole degrees (-90 + 180 i / n_lat) so that products show exact decimals.
+    pub fn latitude_edge_deg(&self, i: usize) -> f64 {
+        -90.0 + 180.0 * i as f64 / self.n_lat as f64
+    }
+
+    /// Western edge of longitude column `j` (`j = n_lon` gives 360), degrees east.
+    pub fn longitude_edge_deg(&self, j: usize) -> f64 {
+        360.0 * j as f64 / self.n_lon as f64
+    }
+
+    /// Centre latitude of row `i`, degrees north: the mean of its degree edges (5, 15, ...
+    /// for 10-degree rows), not a conversion from radians, which would give 4.999999999999995.
+    pub fn latitude_centre_deg(&self, i: usize) -> f64 {
+        0.5 * (self.latitude_edge_deg(i) + self.latitude_edge_deg(i + 1))
+    }
+
+    /// Centre east longitude of column `j`, degrees east, the mean of its degree edges.
+    pub fn longitude_centre_deg(&self, j: usize) -> f64 {
+        0.5 * (self.longitude_edge_deg(j) + self.longitude_edge_deg(j + 1))
+    }
+
     /// Exact area of `cell`, m^2: R^2 dlon (sin phi2 - sin phi1).
     pub fn area_m2(&self, cell: usize) -> f64 {
         let (i, _) = self.indices(cell);
@@ -111,6 +133,22 @@ impl Grid {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn degree_centres_are_exact_decimals() {
+        // 18 x 36 cells of 10 degrees: centres -85, ..., 5, ..., 85 and 5, ..., 355 exactly,
+        // which the radian centres converted to degrees are not (4.999999999999995).
+        let g = Grid::new(18, 36, 1.0).unwrap();
+        assert_eq!(g.latitude_centre_deg(9), 5.0);
+        assert_eq!(g.latitude_centre_deg(0), -85.0);
+        assert_eq!(g.longitude_centre_deg(29), 295.0);
+        assert_eq!((g.latitude_edge_deg(0), g.latitude_edge_deg(18)), (-90.0, 90.0));
+        assert_eq!(g.longitude_edge_deg(36), 360.0);
+        for i in 0..18 {
+            let (lat, _) = g.centre(i * 36);
+            assert!((g.latitude_centre_deg(i) - lat.to_degrees()).abs() < 1e-12);
+        }
+    }
 
     #[test]
     fn areas_sum_to_the_sphere() {

@@ -14,9 +14,27 @@ pub fn latitude_centre(j: usize, n_lat: usize) -> f64 {
     -FRAC_PI_2 + (j as f64 + 0.5) * PI / n_lat as f64
 }
 
-/// Local time of the centre of local-time bin `i` of `n_lt`, hours.
+/// Local time of the centre of local-time bin `i` of `n_lt`, hours: the mean of its
+/// edges, so 0.5, 1.5, ... for 24 bins.
 pub fn local_time_centre(i: usize, n_lt: usize) -> f64 {
-    (i as f64 + 0.5) * 24.0 / n_lt as f64
+    0.5 * (local_time_edge(i, n_lt) + local_time_edge(i + 1, n_lt))
+}
+
+/// Start of local-time bin `i` of `n_lt` (`i = n_lt` gives 24), hours.
+pub fn local_time_edge(i: usize, n_lt: usize) -> f64 {
+    24.0 * i as f64 / n_lt as f64
+}
+
+/// Southern edge of latitude bin `j` of `n_lat` (`j = n_lat` gives 90), degrees north,
+/// from whole degrees so that products show exact decimals.
+pub fn latitude_edge_deg(j: usize, n_lat: usize) -> f64 {
+    -90.0 + 180.0 * j as f64 / n_lat as f64
+}
+
+/// Centre of latitude bin `j` of `n_lat`, degrees north: the mean of its degree edges
+/// (5, 15, ... for 10-degree bins), equal to [`latitude_centre`] up to rounding.
+pub fn latitude_centre_deg(j: usize, n_lat: usize) -> f64 {
+    0.5 * (latitude_edge_deg(j, n_lat) + latitude_edge_deg(j + 1, n_lat))
 }
 
 /// Area weight of latitude bin `j` of `n_lat` (sin of its upper edge minus
@@ -204,6 +222,19 @@ pub fn fit_cos_power(lat: &[f64], values: &[f64]) -> Option<CosPowerFit> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn bin_centres_are_the_means_of_round_edges() {
+        assert_eq!(latitude_centre_deg(9, 18), 5.0);
+        assert_eq!(latitude_centre_deg(17, 18), 85.0);
+        assert_eq!(local_time_centre(10, 24), 10.5);
+        assert_eq!(local_time_edge(24, 24), 24.0);
+        for j in 0..18 {
+            assert!(
+                (latitude_centre_deg(j, 18) - latitude_centre(j, 18).to_degrees()).abs() < 1e-12
+            );
+        }
+    }
 
     #[test]
     fn peak_of_a_shifted_cosine_is_recovered() {
