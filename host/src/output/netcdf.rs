@@ -392,6 +392,82 @@ pub fn dataset(
         }
         ds.add_variable(v);
     }
+    // The column and the near-surface density of each window, for the
+    // exosphere's change with phase or season: (local_time, window_end,
+    // latitude), the conventions' per-window order.
+    let n_w = record.windows.len();
+    let per_window =
+        |pick: &dyn Fn(&crate::driver::WindowRecord) -> &Vec<f64>| -> Option<Vec<f64>> {
+            if record.windows.iter().any(|w| pick(w).len() != n_lt * n_lat) {
+                return None;
+            }
+            let mut out = Vec::with_capacity(n_lt * n_w * n_lat);
+            for i in 0..n_lt {
+                for w in &record.windows {
+                    out.extend_from_slice(&pick(w)[i * n_lat..(i + 1) * n_lat]);
+                }
+            }
+            Some(out)
+        };
+    let window_dims = ["local_time", WINDOW_DIM, "latitude"];
+    if let Some(data) = per_window(&|w| &w.column) {
+        ds.add_variable(
+            Variable::new("column_by_window", &window_dims, data, "cm-2")
+                .with("long_name", format!("{sp} vertical column density, each window's mean"))
+                .with("cell_methods", format!("local_time: latitude: mean {WINDOW_DIM}: mean")),
+        );
+    }
+    if let Some(data) = per_window(&|w| &w.near_surface_density) {
+        ds.add_variable(
+            Variable::new("near_surface_density_by_window", &window_dims, data, "cm-3")
+                .with(
+                    "long_name",
+                    format!(
+                        "{sp} number density in the lowest altitude bin ({} to {} km), each \
+                         window's mean",
+                        f.altitude_edges_km[0], f.altitude_edges_km[1]
+                    ),
+                )
+                .with("cell_methods", format!("local_time: latitude: mean {WINDOW_DIM}: mean")),
+        );
+    }
+    // The exosphere by the source module that released each atom:
+    // (source, local_time, altitude, latitude); the parts add up to the
+    // totals. `source` has no coordinate variable: the names are in the
+    // `sources` attribute, in order.
+    let names: Vec<&str> = scenario.processes.sources.iter().map(|m| m.name()).collect();
+    let a = &record.averages;
+    let (by_col, by_den) = (a.column_by_source_cm2(), a.density_by_source_cm3());
+    let n_src = names.len();
+    if n_src > 0 && by_col.len() == n_src * n_lt * n_lat && by_den.len() == n_src * f.density.len()
+    {
+        ds.add_dimension("source", n_src);
+        let listed = names.join(", ");
+        let block = f.density.len();
+        let density: Vec<f64> =
+            by_den.chunks(block).flat_map(|d| swap_outer_axes(d, n_alt, n_lt, n_lat)).collect();
+        let mut dims = vec!["source"];
+        dims.extend(ATMOSPHERE_DIMS);
+        ds.add_variable(
+            Variable::new("density_by_source", &dims, density, "cm-3")
+                .with("long_name", format!("{sp} number density by source module, run average"))
+                .with("sources", listed.as_str())
+                .with("coordinates", "time")
+                .with("cell_methods", format!("local_time: altitude: latitude: mean {RUN_MEAN}")),
+        );
+        let mut dims = vec!["source"];
+        dims.extend(COLUMN_DIMS);
+        ds.add_variable(
+            Variable::new("column_by_source", &dims, by_col, "cm-2")
+                .with(
+                    "long_name",
+                    format!("{sp} vertical column density by source module, run average"),
+                )
+                .with("sources", listed.as_str())
+                .with("coordinates", "time")
+                .with("cell_methods", format!("local_time: latitude: mean {RUN_MEAN}")),
+        );
+    }
     // Where the body is on its orbit, at each window's middle. Angles are "degrees", not
     // degrees_east/north: these are values, not coordinates (CF 1.8 sections 4.1, 4.2).
     type Place = fn(&crate::driver::BodyPosition) -> f64;
