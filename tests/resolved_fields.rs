@@ -109,4 +109,18 @@ fn the_summary_splits_the_dayside_exosphere_by_source() {
     for f in ["plots/column_by_window.png", "plots/equator_by_source.png"] {
         assert!(out.join(f).is_file(), "missing {f}");
     }
+    // The NetCDF file carries the same split: the by-source columns add up
+    // to the column (the source dimension leads).
+    let ds = exobound_products::read_netcdf(&out.join("exosphere.nc")).unwrap();
+    let column = &ds.variable("column").unwrap().data;
+    let by = ds.variable("column_by_source").unwrap();
+    assert_eq!(by.dimensions[0], "source");
+    assert_eq!(by.data.len(), 3 * column.len());
+    let scale = column.iter().fold(0.0f64, |m, x| m.max(*x));
+    for (k, c) in column.iter().enumerate() {
+        let sum: f64 = (0..3).map(|s| by.data[s * column.len() + k]).sum();
+        assert!((sum - c).abs() <= 1e-12 * scale, "cell {k}: {sum} vs {c}");
+    }
+    let w = ds.variable("column_by_window").unwrap();
+    assert_eq!(w.dimensions, ["local_time", "window_end", "latitude"]);
 }
