@@ -209,6 +209,19 @@ fn chamberlain_closed_form_matches_the_table() {
     }
 }
 
+/// A collisionless exosphere over an exobase at the surface: a thermal
+/// source launching a Maxwellian flux at `t` (K), every returning atom
+/// re-emitted at `t`, no losses (Chamberlain's (1963) setting).
+fn thermal_exobase(rt: &Arc<Runtime>, body: Body, t: f64, config: RunConfig) -> Simulation {
+    let processes = Processes {
+        sources: vec![module(rt, "impact-vapor", &[("vapor_temperature", num(t))])],
+        losses: vec![],
+        surface: full_reemission(rt, t),
+        reservoir: vec![],
+    };
+    Simulation::new(model(body, TemperatureLaw::uniform(t), 0.0), processes, config).unwrap()
+}
+
 /// The Chamberlain validation: sodium at 1200 K over a still Moon, the
 /// density at 100-2000 km against the closed form. Run by the test
 /// `under_load::runs_pass_while_every_core_is_busy`, with every core kept
@@ -237,14 +250,7 @@ pub fn density_profile_follows_chamberlain() {
         .collect();
     config.n_local_time = 1;
     config.n_latitude = 1;
-    let processes = Processes {
-        sources: vec![module(&rt, "impact-vapor", &[("vapor_temperature", num(t))])],
-        losses: vec![],
-        surface: full_reemission(&rt, t),
-        reservoir: vec![],
-    };
-    let mut sim =
-        Simulation::new(model(body, TemperatureLaw::uniform(t), 0.0), processes, config).unwrap();
+    let mut sim = thermal_exobase(&rt, body, t, config);
     // Spin up: several residence times (about 90 hops of ~1200 s each).
     sim.run(900).unwrap();
     // Ten batches of snapshots, for a batch-means error estimate.
@@ -298,14 +304,7 @@ fn escaping_atoms_fill_the_chamberlain_exosphere() {
     config.alt_edges = [0.0, 10.0, 975.0, 1025.0, 2450.0, 2550.0].iter().map(|h| h * km).collect();
     config.n_local_time = 1;
     config.n_latitude = 1;
-    let processes = Processes {
-        sources: vec![module(&rt, "impact-vapor", &[("vapor_temperature", num(t))])],
-        losses: vec![],
-        surface: full_reemission(&rt, t),
-        reservoir: vec![],
-    };
-    let mut sim =
-        Simulation::new(model(body, TemperatureLaw::uniform(t), 0.0), processes, config).unwrap();
+    let mut sim = thermal_exobase(&rt, body, t, config);
     // Spin up: bound paths with apocentres out to 20 radii last up to 2.6 d,
     // and their share of the density at 2500 km reaches its steady state
     // only after a few of those (with 1.7 d of spin-up both bands came out
@@ -695,14 +694,7 @@ fn budget_reaches_its_target_without_overshoot_with_no_loss_and_no_sticking() {
     config.dt = 600.0;
     config.target_in_flight = 6000;
     config.threads = 2;
-    let processes = Processes {
-        sources: vec![module(&rt, "impact-vapor", &[("vapor_temperature", num(t))])],
-        losses: vec![],
-        surface: full_reemission(&rt, t),
-        reservoir: vec![],
-    };
-    let mut sim =
-        Simulation::new(model(body, TemperatureLaw::uniform(t), 0.0), processes, config).unwrap();
+    let mut sim = thermal_exobase(&rt, body, t, config);
     let target = 6000.0;
     for _ in 0..300 {
         sim.step().unwrap();

@@ -41,6 +41,15 @@ pub(crate) fn bars(e: &[f64]) -> Vec<f64> {
     e.iter().map(|x| if x.is_finite() { *x } else { 0.0 }).collect()
 }
 
+/// The dawn terminator, subsolar point and dusk terminator on a local-time axis (h).
+fn local_time_markers() -> Vec<Marker> {
+    vec![
+        Marker { x: 6.0, label: "dawn terminator".into() },
+        Marker { x: 12.0, label: "subsolar".into() },
+        Marker { x: 18.0, label: "dusk terminator".into() },
+    ]
+}
+
 fn lt_ticks() -> Option<Vec<f64>> {
     Some(vec![0.0, 3.0, 6.0, 9.0, 12.0, 15.0, 18.0, 21.0, 24.0])
 }
@@ -150,11 +159,7 @@ pub(crate) fn equator_plot(
             y_err: Some(bars(error)),
             style: LineStyle::Points,
         }],
-        markers: vec![
-            Marker { x: 6.0, label: "dawn terminator".into() },
-            Marker { x: 12.0, label: "subsolar".into() },
-            Marker { x: 18.0, label: "dusk terminator".into() },
-        ],
+        markers: local_time_markers(),
         log_y: false,
         x_range: Some((0.0, 24.0)),
         x_ticks: lt_ticks(),
@@ -191,11 +196,7 @@ pub(crate) fn source_equator_plot(
         x_label: "local time (h)".into(),
         y_label: "column (atoms cm^-2)".into(),
         lines,
-        markers: vec![
-            Marker { x: 6.0, label: "dawn terminator".into() },
-            Marker { x: 12.0, label: "subsolar".into() },
-            Marker { x: 18.0, label: "dusk terminator".into() },
-        ],
+        markers: local_time_markers(),
         log_y: true,
         x_range: Some((0.0, 24.0)),
         x_ticks: lt_ticks(),
