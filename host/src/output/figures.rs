@@ -139,15 +139,26 @@ pub(crate) fn reservoir_map(title: String, gm: usize, gl: usize, reservoir: &[f6
     }
 }
 
-/// The equatorial column (atoms cm^-2) by local time (h), with error bars
-/// and the terminators and subsolar point marked.
+/// The equatorial column (atoms cm^-2) by local time (h), with error bars,
+/// the terminators and subsolar point marked, and the peak of the smooth
+/// fit that the summary reports (`profiles::peak_local_time`), with its
+/// standard error `peak_error_h` (h) when known.
 pub(crate) fn equator_plot(
     title: String,
     label: String,
     local_time_h: Vec<f64>,
     column: Vec<f64>,
     error: &[f64],
+    peak_error_h: Option<f64>,
 ) -> LinePlot {
+    let mut markers = local_time_markers();
+    if let Some(peak) = crate::tally::profiles::peak_local_time(&column) {
+        let label = match peak_error_h.filter(|e| e.is_finite()) {
+            Some(e) => format!("fitted peak {peak:.2} +- {e:.2} h"),
+            None => format!("fitted peak {peak:.2} h"),
+        };
+        markers.push(Marker { x: peak, label });
+    }
     LinePlot {
         title,
         x_label: "local time (h)".into(),
@@ -159,7 +170,7 @@ pub(crate) fn equator_plot(
             y_err: Some(bars(error)),
             style: LineStyle::Points,
         }],
-        markers: local_time_markers(),
+        markers,
         log_y: false,
         x_range: Some((0.0, 24.0)),
         x_ticks: lt_ticks(),
@@ -265,6 +276,15 @@ pub(crate) fn latitude_plot(
     let eq_bins = crate::tally::profiles::equatorial_bins(column.len(), 1e-9);
     let n0 = eq_bins.iter().map(|&j| column[j]).sum::<f64>() / eq_bins.len() as f64;
     let fine: Vec<f64> = (0..=180).map(|k| -90.0 + k as f64).collect();
+    // The fit the summary reports (`latitude_profile_fit`), drawn solid.
+    let lat_rad: Vec<f64> = latitude_deg.iter().map(|d| d.to_radians()).collect();
+    let fit = crate::tally::profiles::fit_cos_power(&lat_rad, &column).map(|c| Line {
+        label: format!("fit A cos^n(lat), n = {:.2}", c.n),
+        x: fine.clone(),
+        y: fine.iter().map(|l| c.amplitude * l.to_radians().cos().max(0.0).powf(c.n)).collect(),
+        y_err: None,
+        style: LineStyle::Solid,
+    });
     LinePlot {
         title,
         x_label: "latitude (deg)".into(),
@@ -272,7 +292,7 @@ pub(crate) fn latitude_plot(
         lines: vec![
             Line {
                 label,
-                x: latitude_deg,
+                x: latitude_deg.clone(),
                 y: column,
                 y_err: Some(bars(error)),
                 style: LineStyle::Points,
@@ -291,7 +311,10 @@ pub(crate) fn latitude_plot(
                 y_err: None,
                 style: LineStyle::Dotted,
             },
-        ],
+        ]
+        .into_iter()
+        .chain(fit)
+        .collect(),
         markers: vec![],
         log_y: false,
         x_range: Some((-90.0, 90.0)),
@@ -414,6 +437,15 @@ pub fn draw_all(
         scenario.plan.equator_band.to_degrees(),
         f.windows
     );
+    // The peak's standard error, from the window-to-window scatter of the
+    // shifts (deg; 15 deg per hour), as in the summary.
+    let shifts: Vec<f64> = record
+        .windows
+        .iter()
+        .filter(|w| !w.spin_up && w.shift_deg.is_finite())
+        .map(|w| w.shift_deg)
+        .collect();
+    let peak_error_h = crate::tally::profiles::mean_and_error(&shifts).1 / 15.0;
     e(draw_lines(
         &equator_plot(
             format!("equatorial {sp} column by local time"),
@@ -421,6 +453,7 @@ pub fn draw_all(
             f.local_time_h.clone(),
             f.equator_profile.clone(),
             &f.equator_error,
+            Some(peak_error_h),
         ),
         &dir.join("equator_local_time.png"),
     ))?;

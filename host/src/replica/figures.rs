@@ -77,6 +77,10 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
             col(eq, eq_file, "local_time_h")?,
             col(eq, eq_file, "column_cm-2")?,
             &col(eq, eq_file, "column_error_cm-2")?,
+            m.summary
+                .pointer("/equatorial_column_peak/uncertainty_deg")
+                .and_then(serde_json::Value::as_f64)
+                .map(|deg| deg / 15.0),
         ),
         &dir.join("equator_local_time.png"),
     ))?;
