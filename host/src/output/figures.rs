@@ -391,6 +391,7 @@ pub(crate) fn shift_plot(
     mid_days: Vec<f64>,
     shift_deg: Vec<f64>,
     error: Option<&[f64]>,
+    markers: Vec<Marker>,
 ) -> LinePlot {
     LinePlot {
         title,
@@ -403,11 +404,33 @@ pub(crate) fn shift_plot(
             y_err: error.map(bars),
             style: LineStyle::Points,
         }],
-        markers: vec![],
+        markers,
         log_y: false,
         x_range: None,
         x_ticks: None,
     }
+}
+
+/// The start and end (d) of each interval in which the solar wind is
+/// scaled (shielded when its factor is 0), for the phase series.
+fn solar_wind_markers(scenario: &Scenario) -> Vec<Marker> {
+    let end_day = scenario.plan.steps as f64 * scenario.config.dt / 86_400.0;
+    let mut out = Vec::new();
+    for iv in &scenario.model.solar_wind.schedule {
+        let what = if iv.factor == 0.0 {
+            "solar wind off".to_string()
+        } else {
+            format!("solar wind x{}", iv.factor)
+        };
+        let (a, b) = (iv.start / 86_400.0, iv.end / 86_400.0);
+        if a < end_day {
+            out.push(Marker { x: a, label: what });
+        }
+        if b < end_day {
+            out.push(Marker { x: b, label: "solar wind back".into() });
+        }
+    }
+    out
 }
 
 /// Draw every plot into `dir`.
@@ -523,6 +546,7 @@ pub fn draw_all(
                 win.iter().map(|w| 0.5 * (w.start + w.end) / 86_400.0).collect(),
                 win.iter().map(|w| w.shift_deg).collect(),
                 None,
+                solar_wind_markers(scenario),
             ),
             &dir.join("phase_series.png"),
         ))?;

@@ -152,6 +152,7 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
                 keep.iter().map(|&r| 0.5 * (start[r] + end[r]) / 86_400.0).collect(),
                 keep.iter().map(|&r| shift[r]).collect(),
                 Some(&err),
+                vec![],
             ),
             &dir.join("phase_series.png"),
         ))?;
