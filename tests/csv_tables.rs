@@ -87,14 +87,11 @@ fn check_in_rust(path: &Path) -> usize {
 
 /// Read `files` with pandas (`tests/python/check_csv.py`).
 fn pandas_check(files: &[PathBuf]) {
-    let required = std::env::var_os("EXOBOUND_REQUIRE_XARRAY").is_some();
-    let has_pandas = Command::new("python3")
-        .args(["-c", "import pandas, numpy"])
-        .output()
-        .is_ok_and(|o| o.status.success());
-    if !has_pandas {
-        assert!(!required, "EXOBOUND_REQUIRE_XARRAY is set but python3 cannot import pandas");
-        eprintln!("skipping the pandas check: python3 cannot import pandas");
+    if !crate::support::python_can_import(
+        "pandas, numpy",
+        "EXOBOUND_REQUIRE_XARRAY",
+        "the pandas check",
+    ) {
         return;
     }
     let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("python/check_csv.py");

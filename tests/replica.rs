@@ -418,17 +418,11 @@ fn merging_gives_the_replica_mean_and_error_in_any_order_with_a_closed_ledger() 
 /// do; skipped without xarray unless EXOBOUND_REQUIRE_XARRAY is set.
 fn xarray_check(nc: &Path) {
     let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("python/check_netcdf.py");
-    let required = std::env::var_os("EXOBOUND_REQUIRE_XARRAY").is_some();
-    let has = Command::new("python3")
-        .args(["-c", "import xarray, scipy"])
-        .output()
-        .is_ok_and(|o| o.status.success());
-    if !has {
-        assert!(
-            !required,
-            "EXOBOUND_REQUIRE_XARRAY is set but python3 cannot import xarray and scipy"
-        );
-        eprintln!("skipping the xarray check: python3 cannot import xarray and scipy");
+    if !crate::support::python_can_import(
+        "xarray, scipy",
+        "EXOBOUND_REQUIRE_XARRAY",
+        "the xarray check",
+    ) {
         return;
     }
     let out = Command::new("python3")

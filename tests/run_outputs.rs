@@ -149,17 +149,11 @@ fn quick_demo_writes_every_product() {
 /// that variable and without xarray the check is reported and skipped.
 fn xarray_check(nc: &Path) {
     let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("python/check_netcdf.py");
-    let required = std::env::var_os("EXOBOUND_REQUIRE_XARRAY").is_some();
-    let has_xarray = std::process::Command::new("python3")
-        .args(["-c", "import xarray, scipy"])
-        .output()
-        .is_ok_and(|o| o.status.success());
-    if !has_xarray {
-        assert!(
-            !required,
-            "EXOBOUND_REQUIRE_XARRAY is set but python3 cannot import xarray and scipy"
-        );
-        eprintln!("skipping the xarray check: python3 cannot import xarray and scipy");
+    if !crate::support::python_can_import(
+        "xarray, scipy",
+        "EXOBOUND_REQUIRE_XARRAY",
+        "the xarray check",
+    ) {
         return;
     }
     let out = std::process::Command::new("python3")

@@ -249,21 +249,11 @@ pub fn constant_rate_export(name: &str, value: &str) -> String {
 /// and without the checker is the check reported and skipped.
 pub fn cf_checker(nc: &Path) {
     let root = Path::new(env!("CARGO_MANIFEST_DIR"));
-    let required = std::env::var_os("EXOBOUND_REQUIRE_CF_CHECKER").is_some();
-    let has = std::process::Command::new("python3")
-        .args(["-c", "import compliance_checker, netCDF4"])
-        .output()
-        .is_ok_and(|o| o.status.success());
-    if !has {
-        assert!(
-            !required,
-            "EXOBOUND_REQUIRE_CF_CHECKER is set but python3 cannot import compliance_checker \
-             and netCDF4 (pip install compliance-checker)"
-        );
-        eprintln!(
-            "skipping the CF checker on {}: compliance-checker is not installed",
-            nc.display()
-        );
+    if !python_can_import(
+        "compliance_checker, netCDF4",
+        "EXOBOUND_REQUIRE_CF_CHECKER",
+        "the CF checker",
+    ) {
         return;
     }
     let out = std::process::Command::new("python3")
@@ -286,17 +276,7 @@ pub fn cf_checker(nc: &Path) {
 /// Skipped without xarray unless EXOBOUND_REQUIRE_XARRAY is set.
 pub fn read_like_a_user(nc: &Path) {
     let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("python/read_like_a_user.py");
-    let required = std::env::var_os("EXOBOUND_REQUIRE_XARRAY").is_some();
-    let has = std::process::Command::new("python3")
-        .args(["-c", "import xarray, scipy"])
-        .output()
-        .is_ok_and(|o| o.status.success());
-    if !has {
-        assert!(
-            !required,
-            "EXOBOUND_REQUIRE_XARRAY is set but python3 cannot import xarray and scipy"
-        );
-        eprintln!("skipping the xarray user read: python3 cannot import xarray and scipy");
+    if !python_can_import("xarray, scipy", "EXOBOUND_REQUIRE_XARRAY", "the xarray check") {
         return;
     }
     let out = std::process::Command::new("python3").arg(&script).arg(nc).output().expect("python3");
@@ -307,4 +287,23 @@ pub fn read_like_a_user(nc: &Path) {
         String::from_utf8_lossy(&out.stdout),
         String::from_utf8_lossy(&out.stderr)
     );
+}
+
+/// Whether python3 can import `modules` (e.g. "xarray, scipy"), for a check
+/// that uses them. Without them the check is reported and skipped, unless
+/// the CI variable `required_by` is set (`.ci/run` sets it and installs the
+/// modules), in which case the test fails: CI never skips.
+pub fn python_can_import(modules: &str, required_by: &str, check: &str) -> bool {
+    let has = std::process::Command::new("python3")
+        .args(["-c", &format!("import {modules}")])
+        .output()
+        .is_ok_and(|o| o.status.success());
+    if !has {
+        assert!(
+            std::env::var_os(required_by).is_none(),
+            "{required_by} is set but python3 cannot import {modules}"
+        );
+        eprintln!("skipping {check}: python3 cannot import {modules}");
+    }
+    has
 }

@@ -215,6 +215,17 @@ pub fn dayside_near_surface(density: &[f64], volumes: &[f64], n_lt: usize, n_lat
 }
 
 impl RunRecord {
+    /// The equatorial column peak's shift of each window after the spin-up
+    /// that has one, deg (negative = dawn): their scatter
+    /// (`profiles::mean_and_error`) is the run's shift uncertainty.
+    pub fn window_shifts_deg(&self) -> Vec<f64> {
+        self.windows
+            .iter()
+            .filter(|w| !w.spin_up && w.shift_deg.is_finite())
+            .map(|w| w.shift_deg)
+            .collect()
+    }
+
     /// Close the current window at the simulation's present step: record
     /// its measures, fold it into the averages unless it is spin-up, and
     /// start the next window.

@@ -462,13 +462,7 @@ pub fn draw_all(
     );
     // The peak's standard error, from the window-to-window scatter of the
     // shifts (deg; 15 deg per hour), as in the summary.
-    let shifts: Vec<f64> = record
-        .windows
-        .iter()
-        .filter(|w| !w.spin_up && w.shift_deg.is_finite())
-        .map(|w| w.shift_deg)
-        .collect();
-    let peak_error_h = crate::tally::profiles::mean_and_error(&shifts).1 / 15.0;
+    let peak_error_h = crate::tally::profiles::mean_and_error(&record.window_shifts_deg()).1 / 15.0;
     e(draw_lines(
         &equator_plot(
             format!("equatorial {sp} column by local time"),

@@ -170,12 +170,7 @@ impl Summary {
         // the standard error of the per-window shifts.
         let peak = profiles::peak_local_time(&f.equator_profile).unwrap_or(f64::NAN);
         let shift = if peak.is_nan() { f64::NAN } else { profiles::shift_from_subsolar_deg(peak) };
-        let shifts: Vec<f64> = record
-            .windows
-            .iter()
-            .filter(|w| !w.spin_up && w.shift_deg.is_finite())
-            .map(|w| w.shift_deg)
-            .collect();
+        let shifts = record.window_shifts_deg();
         let (_, shift_err) = profiles::mean_and_error(&shifts);
         // Latitude shape: A cos^n(lat) fitted to the dayside latitude
         // profile, with the standard error of the per-window exponents.
