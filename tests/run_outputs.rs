@@ -26,7 +26,7 @@ pub fn run_quick(out: &Path, overrides: &[String]) {
     let scenario = source.load(&rt).unwrap_or_else(|e| panic!("{e}"));
     let session = Session { stop: Arc::new(AtomicBool::new(false)), progress: None };
     match driver::start(scenario, source, out, session).unwrap_or_else(|e| panic!("{e}")) {
-        Outcome::Finished { dir } => assert_eq!(dir, out),
+        Outcome::Finished { dir, .. } => assert_eq!(dir, out),
         Outcome::Interrupted { .. } => panic!("not interrupted"),
     }
 }
@@ -186,4 +186,59 @@ fn runs_are_identical_for_one_and_two_threads() {
     for f in ["exosphere.nc", "ledger.csv", "windows.csv", "profiles/latitude.csv"] {
         assert_eq!(std::fs::read(a.join(f)).unwrap(), std::fs::read(b.join(f)).unwrap(), "{f}");
     }
+}
+
+/// Bits of every value, so that NaN compares equal to NaN.
+fn bits(v: &[f64]) -> Vec<u64> {
+    v.iter().map(|x| x.to_bits()).collect()
+}
+
+#[test]
+fn a_finished_run_reads_back_as_the_result_it_returned() {
+    use exobound::output::results::RunResult;
+    use exobound::output::summary::Summary;
+    let tmp = TempDir::new("typed-result");
+    let out = tmp.path().join("out");
+    let rt = runtime();
+    let source = ScenarioSource::demo(true, &["run.seed=5".into()]);
+    let scenario = source.load(&rt).unwrap_or_else(|e| panic!("{e}"));
+    let session = Session { stop: Arc::new(AtomicBool::new(false)), progress: None };
+    let Outcome::Finished { result, .. } =
+        driver::start(scenario, source, &out, session).unwrap_or_else(|e| panic!("{e}"))
+    else {
+        panic!("not interrupted")
+    };
+    let back = RunResult::read(&out).unwrap_or_else(|e| panic!("{e}"));
+    // The files hold the same numbers, bit for bit, as the run returned.
+    assert_eq!(back.summary.to_json(), result.summary.to_json());
+    for (a, b) in [(&back.equator, &result.equator), (&back.latitude, &result.latitude)] {
+        assert_eq!(bits(&a.coordinate), bits(&b.coordinate));
+        assert_eq!(bits(&a.column), bits(&b.column));
+        assert_eq!(bits(&a.error), bits(&b.error));
+    }
+    assert_eq!(bits(&back.column.column), bits(&result.column.column));
+    assert_eq!(bits(&back.column.latitude_deg), bits(&result.column.latitude_deg));
+    assert_eq!(bits(&back.measures()), bits(&result.measures()));
+    // The equatorial profile is the equatorial band of the column map.
+    assert_eq!(result.equator.column.len(), result.column.local_time_h.len());
+
+    // A summary with a field missing or of the wrong type is refused,
+    // naming the file and the field, not read as NaN.
+    let path = out.join("summary.json");
+    let mut v = json(&path);
+    v.as_object_mut().unwrap().remove("escape_rate");
+    std::fs::write(&path, serde_json::to_string(&v).unwrap()).unwrap();
+    let e = Summary::read(&path).unwrap_err();
+    assert!(e.contains("summary.json") && e.contains("escape_rate"), "{e}");
+    v["escape_rate"] = serde_json::json!({ "value": "fast", "unit": "atoms s^-1" });
+    std::fs::write(&path, serde_json::to_string(&v).unwrap()).unwrap();
+    assert!(Summary::read(&path).unwrap_err().contains("summary.json"));
+    std::fs::write(&path, serde_json::to_string(&result.summary.to_json()).unwrap()).unwrap();
+    assert!(RunResult::read(&out).is_ok());
+    // A damaged profile line is named, never skipped.
+    let p = out.join("profiles/latitude.csv");
+    let text = std::fs::read_to_string(&p).unwrap();
+    std::fs::write(&p, text.replacen('\n', "\n5,x,1\n", 1)).unwrap();
+    let e = RunResult::read(&out).unwrap_err();
+    assert!(e.contains("latitude.csv` line 2"), "{e}");
 }

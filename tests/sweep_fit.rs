@@ -51,7 +51,7 @@ fn sweep_shards_collect_and_restart() {
     assert_eq!(r.points.len(), 3);
     // The source rate grows with the vaporization flux (more atoms
     // supplied: the MIV source is proportional to the flux, by the law).
-    let src = exobound::compare::MEASURES.iter().position(|m| m.0 == "source_rate").unwrap();
+    let src = exobound::output::results::measure_index("source_rate").unwrap();
     assert!(r.points[0].mean[src] < r.points[1].mean[src]);
     assert!(r.points[1].mean[src] < r.points[2].mean[src]);
     let csv = std::fs::read_to_string(whole.join("sweep.csv")).unwrap();

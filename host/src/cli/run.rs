@@ -128,13 +128,9 @@ pub fn run(args: RunArgs) -> Result<()> {
     };
     display.finish();
     match outcome {
-        Outcome::Finished { dir } => {
+        Outcome::Finished { dir, result } => {
             println!("wrote {}", dir.display());
-            if let Ok(text) = std::fs::read_to_string(dir.join("summary.json"))
-                && let Ok(v) = serde_json::from_str::<serde_json::Value>(&text)
-            {
-                print_headline(&v);
-            }
+            print_headline(&result.summary);
             Ok(())
         }
         Outcome::Interrupted { staging, step } => {
@@ -149,30 +145,29 @@ pub fn run(args: RunArgs) -> Result<()> {
     }
 }
 
-/// A few lines from summary.json for the terminal.
-fn print_headline(v: &serde_json::Value) {
-    let g = |p: &str| v.pointer(p).and_then(|x| x.as_f64());
-    if let Some(x) = g("/dayside_near_surface_density/value") {
-        println!("  dayside near-surface density  {x:.3e} cm^-3");
+/// A few lines of the run's summary for the terminal (undefined numbers are left out).
+fn print_headline(s: &exobound::output::summary::Summary) {
+    let show = |label: &str, x: f64, tail: &str| {
+        if x.is_finite() {
+            println!("  {label:<30}{x:.3e}{tail}");
+        }
+    };
+    show("dayside near-surface density", s.dayside_near_surface_density.value, " cm^-3");
+    show("atoms in flight (mean)", s.total_content.value, "");
+    let p = &s.equatorial_column_peak;
+    if p.shift_deg.is_finite() {
+        println!(
+            "  {:<30}{:.1} +- {:.1} deg towards {}",
+            "equatorial column peak shift",
+            p.shift_deg.abs(),
+            p.uncertainty_deg,
+            p.towards
+        );
     }
-    if let Some(x) = g("/total_content/value") {
-        println!("  atoms in flight (mean)        {x:.3e}");
-    }
-    if let (Some(s), Some(t)) = (
-        g("/equatorial_column_peak/shift_deg"),
-        v.pointer("/equatorial_column_peak/towards").and_then(|x| x.as_str()),
-    ) {
-        let e = g("/equatorial_column_peak/uncertainty_deg").unwrap_or(f64::NAN);
-        println!("  equatorial column peak shift  {:.1} +- {e:.1} deg towards {t}", s.abs());
-    }
-    if let Some(x) = g("/escape_rate/value") {
-        println!("  escape rate                   {x:.3e} atoms s^-1");
-    }
-    if let Some(x) = g("/ionization_rate/value") {
-        println!("  ionization rate               {x:.3e} atoms s^-1");
-    }
-    if let Some(x) = g("/ledger/closure_error_run") {
-        println!("  ledger closure (run)          {x:.1e}");
+    show("escape rate", s.escape_rate.value, " atoms s^-1");
+    show("ionization rate", s.ionization_rate.value, " atoms s^-1");
+    if s.ledger.closure_error_run.is_finite() {
+        println!("  {:<30}{:.1e}", "ledger closure (run)", s.ledger.closure_error_run);
     }
 }
 

@@ -21,24 +21,12 @@ use serde::Serialize;
 
 use crate::checkpoint::ScenarioSource;
 use crate::driver::{self, Outcome, Progress, Session};
+use crate::output::results::RunResult;
 use crate::output::{PROVENANCE_FILE, atomic_write, number, staged};
 use crate::runtime::Runtime;
 use stats::{Difference, mean_and_se, paired};
 
-/// One summary measure compared: (name, JSON pointer into summary.json, unit).
-pub const MEASURES: &[(&str, &str, &str)] = &[
-    ("dayside_near_surface_density", "/dayside_near_surface_density/value", "cm^-3"),
-    ("peak_near_surface_density", "/peak_near_surface_density/value", "cm^-3"),
-    ("peak_adsorbed_density", "/peak_adsorbed_density/value", "cm^-2"),
-    ("total_content", "/total_content/value", "atoms"),
-    ("equatorial_peak_shift", "/equatorial_column_peak/shift_deg", "deg (negative = dawn)"),
-    ("latitude_cos_power_n", "/latitude_profile_fit/cos_power_n", "1"),
-    ("source_rate", "/source_rate/value", "atoms s^-1"),
-    ("supply_rate_from_bulk", "/supply_rate_from_bulk/value", "atoms s^-1"),
-    ("escape_rate", "/escape_rate/value", "atoms s^-1"),
-    ("ionization_rate", "/ionization_rate/value", "atoms s^-1"),
-    ("final_adsorbed", "/ledger/final_adsorbed", "atoms"),
-];
+pub use crate::output::results::MEASURES;
 
 /// One variant: a name and where its scenario comes from.
 #[derive(Clone, Debug)]
@@ -136,76 +124,6 @@ pub fn names_for_files(paths: &[PathBuf]) -> Vec<String> {
     names
 }
 
-/// A run's summary measures and profiles, read back from its directory.
-struct RunResult {
-    measures: Vec<f64>,
-    equator: Vec<(f64, f64)>,
-    latitude: Vec<(f64, f64)>,
-    column: Vec<f64>,
-    shape: (usize, usize),
-}
-
-/// The summary measures of [`MEASURES`] in a run's `summary.json` value,
-/// in their units (NaN where absent).
-pub fn measures_of(summary: &serde_json::Value) -> Vec<f64> {
-    MEASURES
-        .iter()
-        .map(|(_, ptr, _)| summary.pointer(ptr).and_then(|x| x.as_f64()).unwrap_or(f64::NAN))
-        .collect()
-}
-
-/// A profile CSV of a run (`profiles/*.csv`) as (coordinate, column) pairs
-/// (the coordinate in the unit of the first column's name, the column in
-/// atoms cm^-2). A line that does not hold two numbers (NaN allowed) is an
-/// error naming the file and the line, never skipped.
-pub fn read_profile(path: &Path) -> Result<Vec<(f64, f64)>, String> {
-    let text = std::fs::read_to_string(path).map_err(|e| format!("`{}`: {e}", path.display()))?;
-    let mut lines = text.lines();
-    let header = lines.next().unwrap_or_default();
-    if header.split(',').nth(1) != Some("column_cm-2") {
-        return Err(format!(
-            "`{}` line 1: expected a profile header `COORDINATE,column_cm-2,...`, found `{header}`; \
-             rerun with this exobound version",
-            path.display()
-        ));
-    }
-    let mut out = Vec::new();
-    for (k, l) in lines.enumerate() {
-        let mut c = l.split(',').map(|x| x.parse::<f64>().ok());
-        match (c.next().flatten(), c.next().flatten()) {
-            (Some(x), Some(y)) => out.push((x, y)),
-            _ => {
-                return Err(format!(
-                    "`{}` line {}: `{l}` is not a coordinate and a column; the file is damaged: \
-                     rerun that run",
-                    path.display(),
-                    k + 2
-                ));
-            }
-        }
-    }
-    Ok(out)
-}
-
-fn read_run(dir: &Path) -> Result<RunResult, String> {
-    let text = std::fs::read_to_string(dir.join("summary.json"))
-        .map_err(|e| format!("`{}`: {e}", dir.join("summary.json").display()))?;
-    let v: serde_json::Value = serde_json::from_str(&text).map_err(|e| e.to_string())?;
-    let measures = measures_of(&v);
-    let ds = exobound_products::read_netcdf(&dir.join("exosphere.nc"))
-        .map_err(|e| format!("`{}`: {e}", dir.join("exosphere.nc").display()))?;
-    let column = ds.variable("column").map(|c| c.data.clone()).unwrap_or_default();
-    let shape =
-        (ds.dimension_len("local_time").unwrap_or(0), ds.dimension_len("latitude").unwrap_or(0));
-    Ok(RunResult {
-        measures,
-        equator: read_profile(&dir.join("profiles/equator_local_time.csv"))?,
-        latitude: read_profile(&dir.join("profiles/latitude.csv"))?,
-        column,
-        shape,
-    })
-}
-
 /// Run every variant with every seed into `out` (staged; renamed when
 /// complete) and write the comparison. `progress` hears each run's start.
 pub fn compare(
@@ -240,7 +158,7 @@ pub fn compare(
                 match driver::start(scenario, source, &run_dir, session)
                     .map_err(|e| format!("variant `{}`, seed {seed}: {e}", v.name))?
                 {
-                    Outcome::Finished { dir } => per_seed.push(read_run(&dir)?),
+                    Outcome::Finished { result, .. } => per_seed.push(*result),
                     Outcome::Interrupted { .. } => {
                         return Err("interrupted; the comparison was not finished".into());
                     }
@@ -272,14 +190,13 @@ pub fn compare(
 fn tabulate(variants: &[Variant], seeds: &[u64], results: &[Vec<RunResult>]) -> Comparison {
     let rows = MEASURES
         .iter()
-        .enumerate()
-        .map(|(m, (name, _, unit))| {
+        .map(|m| {
             let values: Vec<Vec<f64>> =
-                results.iter().map(|r| r.iter().map(|x| x.measures[m]).collect()).collect();
+                results.iter().map(|r| r.iter().map(|x| (m.of)(&x.summary)).collect()).collect();
             let stats: Vec<(f64, f64)> = values.iter().map(|v| mean_and_se(v)).collect();
             MeasureRow {
-                measure: name.to_string(),
-                unit: unit.to_string(),
+                measure: m.name.to_string(),
+                unit: m.unit.to_string(),
                 mean: stats.iter().map(|s| s.0).collect(),
                 se: stats.iter().map(|s| s.1).collect(),
                 difference: values[1..].iter().map(|b| paired(&values[0], b)).collect(),
@@ -363,13 +280,12 @@ pub fn comparison_text(c: &Comparison) -> String {
 
 fn mean_profile(
     runs: &[RunResult],
-    pick: impl Fn(&RunResult) -> &Vec<(f64, f64)>,
+    pick: impl Fn(&RunResult) -> &crate::output::results::Profile,
 ) -> (Vec<f64>, Vec<f64>) {
-    let first = pick(&runs[0]);
-    let x: Vec<f64> = first.iter().map(|p| p.0).collect();
+    let x = pick(&runs[0]).coordinate.clone();
     let y: Vec<f64> = (0..x.len())
         .map(|i| {
-            runs.iter().map(|r| pick(r).get(i).map_or(f64::NAN, |p| p.1)).sum::<f64>()
+            runs.iter().map(|r| pick(r).column.get(i).copied().unwrap_or(f64::NAN)).sum::<f64>()
                 / runs.len() as f64
         })
         .collect();
@@ -386,7 +302,7 @@ fn write_products(dir: &Path, c: &Comparison, results: &[Vec<RunResult>]) -> Res
     std::fs::create_dir_all(&plots).map_err(io)?;
     let e = |r: Result<(), exobound_products::ProductError>| r.map_err(|e| e.to_string());
     let styles = [LineStyle::Solid, LineStyle::Dashed, LineStyle::Dotted, LineStyle::Points];
-    let lines = |pick: &dyn Fn(&RunResult) -> &Vec<(f64, f64)>| -> Vec<Line> {
+    let lines = |pick: &dyn Fn(&RunResult) -> &crate::output::results::Profile| -> Vec<Line> {
         results
             .iter()
             .zip(&c.variants)
@@ -430,18 +346,21 @@ fn write_products(dir: &Path, c: &Comparison, results: &[Vec<RunResult>]) -> Res
     ))?;
     // Relative column difference maps against the reference.
     let mean_column = |runs: &[RunResult]| -> Vec<f64> {
-        let n = runs[0].column.len();
+        let n = runs[0].column.column.len();
         (0..n)
             .map(|i| {
-                runs.iter().map(|r| r.column.get(i).copied().unwrap_or(f64::NAN)).sum::<f64>()
+                runs.iter()
+                    .map(|r| r.column.column.get(i).copied().unwrap_or(f64::NAN))
+                    .sum::<f64>()
                     / runs.len() as f64
             })
             .collect()
     };
     let reference = mean_column(&results[0]);
-    let (n_lt, n_lat) = results[0][0].shape;
+    let shape = |r: &RunResult| (r.column.local_time_h.len(), r.column.latitude_deg.len());
+    let (n_lt, n_lat) = shape(&results[0][0]);
     for (k, runs) in results.iter().enumerate().skip(1) {
-        if runs[0].shape != (n_lt, n_lat) {
+        if shape(&runs[0]) != (n_lt, n_lat) {
             continue;
         }
         let col = mean_column(runs);
@@ -492,31 +411,5 @@ mod tests {
         assert!(parse_variant("n:novalue").is_err());
         let names = names_for_files(&[PathBuf::from("a/x.toml"), PathBuf::from("b/x.toml")]);
         assert_eq!(names, vec!["x", "x-2"]);
-    }
-
-    #[test]
-    fn a_profile_reads_back_and_a_damaged_line_is_named() {
-        let dir = std::env::temp_dir().join(format!("exobound-profile-{}", std::process::id()));
-        std::fs::create_dir_all(&dir).unwrap();
-        let p = dir.join("latitude.csv");
-        std::fs::write(
-            &p,
-            "latitude_deg,column_cm-2,column_error_cm-2\n-85.0,7.5e8,NaN\n5.0,NaN,1.0\n",
-        )
-        .unwrap();
-        let v = read_profile(&p).unwrap();
-        assert_eq!(v[0], (-85.0, 7.5e8));
-        assert!(v[1].0 == 5.0 && v[1].1.is_nan());
-        // The line that once was dropped without a word is now an error.
-        std::fs::write(&p, "latitude_deg,column_cm-2,column_error_cm-2\n-85.0,7.5e8,1\n5.0,x,1\n")
-            .unwrap();
-        let e = read_profile(&p).unwrap_err();
-        assert!(e.contains("latitude.csv` line 3") && e.contains("`5.0,x,1`"), "{e}");
-        std::fs::write(&p, "# old comment\nlatitude_deg,column_cm-2\n").unwrap();
-        assert!(read_profile(&p).unwrap_err().contains("line 1"));
-        std::fs::write(&p, "latitude_deg,column_cm-2,column_error_cm-2\n-85.0,7.5e8,1\n\n")
-            .unwrap();
-        assert!(read_profile(&p).unwrap_err().contains("line 3"));
-        std::fs::remove_dir_all(&dir).unwrap();
     }
 }

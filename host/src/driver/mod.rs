@@ -87,6 +87,8 @@ pub enum Outcome {
     Finished {
         /// The output directory.
         dir: PathBuf,
+        /// What the run found (the same numbers as the files in `dir`).
+        result: Box<crate::output::results::RunResult>,
     },
     /// Stopped on request after writing a checkpoint into `staging`.
     Interrupted {
@@ -227,8 +229,8 @@ fn drive(
         hops: sim.ledger().rows.iter().map(|r| r.hops).sum(),
         threads: scenario.config.threads,
     };
-    output::write_all(staging.dir(), scenario, source, &sim, &record, &perf)
+    let result = output::write_all(staging.dir(), scenario, source, &sim, &record, &perf)
         .map_err(RunError::Output)?;
     let dir = staging.finish().map_err(RunError::Output)?;
-    Ok(Outcome::Finished { dir })
+    Ok(Outcome::Finished { dir, result: Box::new(result) })
 }

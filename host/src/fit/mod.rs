@@ -25,6 +25,7 @@ use serde::Serialize;
 
 use crate::checkpoint::ScenarioSource;
 use crate::driver::{self, Outcome, Session};
+use crate::output::results::{MEASURES, RunResult};
 use crate::output::{PROVENANCE_FILE, atomic_write, number, staged};
 use crate::runtime::Runtime;
 use crate::scenario::quantity;
@@ -153,41 +154,15 @@ pub struct FitResult {
     pub caution: String,
 }
 
-/// The model's values for the observations, from a run directory.
-fn model_values(dir: &Path, obs: &[Observation]) -> Result<Vec<f64>, String> {
-    let eq = crate::compare::read_profile(&dir.join("profiles/equator_local_time.csv"))?;
-    let lat = crate::compare::read_profile(&dir.join("profiles/latitude.csv"))?;
-    let s = dir.join("summary.json");
-    let text = std::fs::read_to_string(&s).map_err(|e| format!("`{}`: {e}", s.display()))?;
-    let summary: serde_json::Value = serde_json::from_str(&text).map_err(|e| e.to_string())?;
-    let measures = crate::compare::measures_of(&summary);
-    Ok(obs
-        .iter()
+/// The model's values for the observations, from a run's result.
+fn model_values(r: &RunResult, obs: &[Observation]) -> Vec<f64> {
+    obs.iter()
         .map(|o| match o.what {
-            Observable::EquatorColumn(lt) => interpolate(&eq, lt, Some(24.0)),
-            Observable::LatitudeColumn(l) => interpolate(&lat, l, None),
-            Observable::Summary(m) => measures[m],
+            Observable::EquatorColumn(lt) => r.equator.at(lt, Some(24.0)),
+            Observable::LatitudeColumn(l) => r.latitude.at(l, None),
+            Observable::Summary(m) => (MEASURES[m].of)(&r.summary),
         })
-        .collect())
-}
-
-/// Linear interpolation in a profile of (bin centre, value); `period`
-/// wraps the coordinate (local time), otherwise the ends are held.
-fn interpolate(p: &[(f64, f64)], x: f64, period: Option<f64>) -> f64 {
-    if p.is_empty() {
-        return f64::NAN;
-    }
-    let n = p.len();
-    let k = p.partition_point(|q| q.0 <= x);
-    let (a, b) = match (k, period) {
-        (0, Some(t)) => ((p[n - 1].0 - t, p[n - 1].1), p[0]),
-        (0, None) => return p[0].1,
-        (k, Some(t)) if k == n => (p[n - 1], (p[0].0 + t, p[0].1)),
-        (k, None) if k == n => return p[n - 1].1,
-        (k, _) => (p[k - 1], p[k]),
-    };
-    let f = (x - a.0) / (b.0 - a.0);
-    a.1 + f * (b.1 - a.1)
+        .collect()
 }
 
 /// chi-square of `model` against `obs`.
@@ -237,11 +212,11 @@ impl Evaluator<'_> {
             let dir = self.work.join(format!("eval-seed-{seed}"));
             let _ = std::fs::remove_dir_all(&dir);
             let session = Session { stop: Arc::new(AtomicBool::new(false)), progress: None };
-            match driver::start(scenario, source, &dir, session).map_err(|e| e.to_string())? {
-                Outcome::Finished { .. } => {}
-                Outcome::Interrupted { .. } => return Err("interrupted".into()),
-            }
-            let m = model_values(&dir, self.obs)?;
+            let m =
+                match driver::start(scenario, source, &dir, session).map_err(|e| e.to_string())? {
+                    Outcome::Finished { result, .. } => model_values(&result, self.obs),
+                    Outcome::Interrupted { .. } => return Err("interrupted".into()),
+                };
             let _ = std::fs::remove_dir_all(&dir);
             for (s, v) in sum.iter_mut().zip(m) {
                 *s += v / self.seeds.len() as f64;
@@ -604,12 +579,7 @@ mod tests {
     }
 
     #[test]
-    fn interpolation_and_inverse() {
-        let p = [(0.5, 1.0), (1.5, 3.0), (23.5, 5.0)];
-        assert!((interpolate(&p, 1.0, Some(24.0)) - 2.0).abs() < 1e-12);
-        // Across midnight: halfway between 23.5 (5) and 24.5 (1).
-        assert!((interpolate(&p, 0.0, Some(24.0)) - 3.0).abs() < 1e-12);
-        assert_eq!(interpolate(&p, 30.0, None), 5.0);
+    fn matrix_inverse() {
         // [[2, 1], [1, 3]]^-1 = [[3, -1], [-1, 2]] / 5 (2x2 inverse formula).
         let inv = invert(&[vec![2.0, 1.0], vec![1.0, 3.0]]).unwrap();
         assert!((inv[0][0] - 0.6).abs() < 1e-15 && (inv[0][1] + 0.2).abs() < 1e-15);

@@ -16,9 +16,9 @@
 //! `equator_column` is the equatorial column at a local time (the
 //! coordinate, in h), `latitude_column` the dayside column at a latitude
 //! (in deg); `summary:NAME` is a summary measure of
-//! [`crate::compare::MEASURES`] in its unit. `docs/fit.md` documents it.
+//! [`crate::output::results::MEASURES`] in its unit. `docs/fit.md` documents it.
 
-use crate::compare::MEASURES;
+use crate::output::results::MEASURES;
 use crate::scenario::quantity::{self, Kind};
 
 /// The header line.
@@ -112,14 +112,14 @@ pub fn parse(text: &str, file: &str) -> Result<Vec<Observation>, String> {
                         "{at}: unknown kind `{k}`; use equator_column, latitude_column or summary:NAME"
                     ));
                 };
-                let Some(m) = MEASURES.iter().position(|m| m.0 == name) else {
-                    let names: Vec<&str> = MEASURES.iter().map(|m| m.0).collect();
+                let Some(m) = crate::output::results::measure_index(name) else {
+                    let names: Vec<&str> = MEASURES.iter().map(|m| m.name).collect();
                     return Err(format!(
                         "{at}: {}",
                         crate::scenario::keys::unknown_message(name, &names, "summary measure")
                     ));
                 };
-                let want = MEASURES[m].2;
+                let want = MEASURES[m].unit;
                 if unit != want {
                     return Err(format!("{at}: {name} is in `{want}`, not `{unit}`"));
                 }

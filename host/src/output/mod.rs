@@ -17,6 +17,7 @@ pub mod lock;
 pub mod netcdf;
 pub mod number;
 pub mod provenance;
+pub mod results;
 pub mod summary;
 pub mod tables;
 
@@ -274,7 +275,7 @@ pub struct Performance {
     pub threads: usize,
 }
 
-/// Write every product of a finished run into `dir`.
+/// Write every product of a finished run into `dir`, and return its typed result.
 pub fn write_all(
     dir: &Path,
     scenario: &Scenario,
@@ -282,9 +283,10 @@ pub fn write_all(
     sim: &Simulation,
     record: &RunRecord,
     perf: &Performance,
-) -> Result<(), String> {
+) -> Result<results::RunResult, String> {
     let prov = provenance::Provenance::of(scenario, source);
-    let summary = summary::Summary::of(scenario, sim, record, perf);
+    let fields = fields::Fields::of(scenario, sim, record);
+    let summary = summary::Summary::of(scenario, sim, record, perf, &fields);
     let write_json = |name: &str, v: &serde_json::Value| -> Result<(), String> {
         let text = serde_json::to_string_pretty(v).map_err(|e| e.to_string())?;
         // Ledger labels and other module text stay escaped when the file is
@@ -309,5 +311,5 @@ pub fn write_all(
         figures::draw_all(&dir.join("plots"), scenario, sim, record)
             .map_err(|e| format!("plots: {e}"))?;
     }
-    Ok(())
+    Ok(results::RunResult::of(&fields, summary))
 }

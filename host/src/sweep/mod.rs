@@ -21,9 +21,9 @@ use std::sync::{Arc, Mutex};
 use exobound_products::{Line, LinePlot, LineStyle, MapPlot, draw_lines, draw_map};
 use serde::{Deserialize, Serialize};
 
-use crate::compare::MEASURES;
 use crate::compare::stats::mean_and_se;
 use crate::driver::{self, Outcome, Session};
+use crate::output::results::MEASURES;
 use crate::output::{PROVENANCE_FILE, atomic_write, number};
 use crate::runtime::Runtime;
 use plan::{Axis, Plan, Point};
@@ -369,12 +369,9 @@ pub fn collect(out: &Path) -> Result<SweepResult, String> {
         let mut per_measure: Vec<Vec<f64>> = vec![Vec::new(); MEASURES.len()];
         for &seed in &plan.seeds {
             let d = out.join("points").join(format!("p{index:04}")).join(format!("seed-{seed}"));
-            let s = d.join("summary.json");
-            let t = std::fs::read_to_string(&s).map_err(|e| format!("`{}`: {e}", s.display()))?;
-            let v: serde_json::Value =
-                serde_json::from_str(&t).map_err(|e| format!("`{}`: {e}", s.display()))?;
-            for (m, x) in crate::compare::measures_of(&v).into_iter().enumerate() {
-                per_measure[m].push(x);
+            let s = crate::output::summary::Summary::read(&d.join("summary.json"))?;
+            for (acc, m) in per_measure.iter_mut().zip(MEASURES) {
+                acc.push((m.of)(&s));
             }
         }
         let stats: Vec<(f64, f64)> = per_measure.iter().map(|v| mean_and_se(v)).collect();
@@ -402,7 +399,8 @@ pub fn sweep_csv(r: &SweepResult) -> String {
     for (k, u) in r.plan.keys.iter().zip(&r.plan.units) {
         if u.is_empty() { s.push_str(&format!(",{k}")) } else { s.push_str(&format!(",{k} [{u}]")) }
     }
-    for (name, _, unit) in MEASURES {
+    for m in MEASURES {
+        let (name, unit) = (m.name, m.unit);
         s.push_str(&format!(",{name} [{unit}],{name}_se [{unit}]"));
     }
     s.push('\n');
@@ -445,7 +443,7 @@ fn draw(out: &Path, r: &SweepResult) -> Result<(), String> {
     let plots = out.join("plots");
     std::fs::create_dir_all(&plots).map_err(|e| e.to_string())?;
     let e = |x: Result<(), exobound_products::ProductError>| x.map_err(|e| e.to_string());
-    let mi = |name: &str| MEASURES.iter().position(|m| m.0 == name);
+    let mi = crate::output::results::measure_index;
     for (k, key) in r.plan.keys.iter().enumerate() {
         if r.points.iter().any(|p| !p.values[k].is_finite()) {
             continue; // words (e.g. a pattern name) have no axis
@@ -460,7 +458,7 @@ fn draw(out: &Path, r: &SweepResult) -> Result<(), String> {
                 &LinePlot {
                     title: format!("{}: {name} against {}", r.plan.title, short(key)),
                     x_label: if unit.is_empty() { key.clone() } else { format!("{key} ({unit})") },
-                    y_label: format!("{name} ({})", MEASURES[m].2),
+                    y_label: format!("{name} ({})", MEASURES[m].unit),
                     lines: vec![Line {
                         label: format!("mean of {} seed(s)", r.plan.seeds.len()),
                         x: pts.iter().map(|p| p.0).collect(),
@@ -511,13 +509,13 @@ fn draw(out: &Path, r: &SweepResult) -> Result<(), String> {
             };
             e(draw_map(
                 &MapPlot {
-                    title: format!("{}: {name} ({})", r.plan.title, MEASURES[m].2),
+                    title: format!("{}: {name} ({})", r.plan.title, MEASURES[m].unit),
                     x_label: lab(1, &x),
                     y_label: lab(0, &y),
                     x_edges: edges(&x),
                     y_edges: edges(&y),
                     values: v,
-                    colour_label: format!("{name} ({})", MEASURES[m].2),
+                    colour_label: format!("{name} ({})", MEASURES[m].unit),
                     log_scale: false,
                     x_ticks: Some((0..n1).map(|i| i as f64).collect()),
                     y_ticks: Some((0..n0).map(|i| i as f64).collect()),
