@@ -99,61 +99,122 @@ fn sweep_shards_collect_and_restart() {
     assert!(e.contains("another plan") && e.contains("shard-0-of-1.json"), "{e}");
 }
 
+/// A keyed standard normal deviate for synthetic observation noise
+/// (Box-Muller on two SplitMix64 uniforms of `key`; Box & Muller 1958,
+/// Ann. Math. Statist. 29, 610; Steele, Lea & Flood 2014, OOPSLA, for
+/// SplitMix64).
+fn normal(key: u64) -> f64 {
+    let mix = |mut z: u64| {
+        z = z.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^ (z >> 31)
+    };
+    let u = |k: u64| ((mix(k) >> 11) as f64 + 0.5) / (1u64 << 53) as f64;
+    let (u1, u2) = (u(key.wrapping_mul(2)), u(key.wrapping_mul(2) + 1));
+    (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
+}
+
+/// Synthetic column observations from the quick demo at a vaporization
+/// flux `truth`: the mean of four runs (seeds `seed` to `seed + 3`, so that
+/// the truth's own Monte Carlo noise, about 0.8 % common to a whole
+/// profile for one run of the quick preset, is halved), each profile value
+/// plus Gaussian noise of `noise` x value (keyed by `seed`), stated with
+/// the uncertainty sqrt(noise^2 value^2 + e^2), e the four runs' standard
+/// error, so that the stated errors describe the data.
+pub fn synthetic_columns(dir: &std::path::Path, truth: f64, seed: u64, noise: f64) -> String {
+    let files = [
+        ("equator_local_time.csv", "equator_column", "h"),
+        ("latitude.csv", "latitude_column", "deg"),
+    ];
+    // Per file: per row, (coordinate, values over the seeds).
+    let mut rows: Vec<Vec<(f64, Vec<f64>)>> = vec![Vec::new(); files.len()];
+    for s in seed..seed + 4 {
+        let run = dir.join(format!("seed-{s}"));
+        crate::run_outputs::run_quick(
+            &run,
+            &[
+                format!("run.seed={s}"),
+                format!("processes.impact-vapor.parameters.flux=\"{truth:e} cm^-2 s^-1\""),
+            ],
+        );
+        for (f, (file, _, _)) in files.iter().enumerate() {
+            let t = std::fs::read_to_string(run.join("profiles").join(file)).unwrap();
+            for (r, l) in t.lines().skip(1).enumerate() {
+                let c: Vec<f64> = l.split(',').map(|x| x.parse().unwrap()).collect();
+                if rows[f].len() <= r {
+                    rows[f].push((c[0], Vec::new()));
+                }
+                rows[f][r].1.push(c[1]);
+            }
+        }
+    }
+    let mut obs = String::from("kind,coordinate,value,uncertainty,unit\n");
+    let mut k = 0u64;
+    for ((_, kind, unit), rows) in files.iter().zip(&rows) {
+        for (x, vals) in rows {
+            let n = vals.len() as f64;
+            let mean = vals.iter().sum::<f64>() / n;
+            let var = vals.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1.0);
+            k += 1;
+            let v = mean * (1.0 + noise * normal(seed.wrapping_mul(1000) + k));
+            let sigma = ((noise * mean).powi(2) + var / n).sqrt();
+            obs.push_str(&format!("{kind},{x} {unit},{v:e},{sigma:e},cm^-2\n"));
+        }
+    }
+    obs
+}
+
+/// The vaporization flux as a free parameter.
+fn flux_free() -> Vec<FreeParam> {
+    vec![FreeParam::parse("processes.impact-vapor.parameters.flux=5e4..1e6 cm^-2 s^-1").unwrap()]
+}
+
 #[test]
 fn fit_recovers_a_known_flux_from_synthetic_observations() {
     let tmp = TempDir::new("fit");
     let rt = runtime();
-    // Synthetic observations: the quick demo with a vaporization flux of
-    // 2e5 cm^-2 s^-1 and seed 99; its equatorial and latitude profiles,
-    // with the run's own window-to-window standard errors (at least 3 %).
     let truth = 2.0e5;
-    let syn = tmp.path().join("syn");
-    crate::run_outputs::run_quick(
-        &syn,
-        &[
-            "run.seed=99".into(),
-            format!("processes.impact-vapor.parameters.flux=\"{truth:e} cm^-2 s^-1\""),
-        ],
-    );
-    let mut obs = String::from("kind,coordinate,value,uncertainty,unit\n");
-    for (file, kind, unit) in [
-        ("equator_local_time.csv", "equator_column", "h"),
-        ("latitude.csv", "latitude_column", "deg"),
-    ] {
-        let t = std::fs::read_to_string(syn.join("profiles").join(file)).unwrap();
-        for l in t.lines().skip(1) {
-            let c: Vec<f64> = l.split(',').map(|x| x.parse().unwrap()).collect();
-            obs.push_str(&format!(
-                "{kind},{} {unit},{:e},{:e},cm^-2\n",
-                c[0],
-                c[1],
-                c[2].max(0.03 * c[1])
-            ));
-        }
-    }
-    let obs = fit::observed::parse(&obs, "synthetic").unwrap();
+    let obs = synthetic_columns(&tmp.path().join("syn"), truth, 96, 0.05);
+    let obs = fit::observed::parse(&obs, "synthetic", tmp.path()).unwrap();
     let base = ScenarioSource::demo(true, &[]);
-    let free =
-        [FreeParam::parse("processes.impact-vapor.parameters.flux=5e4..1e6 cm^-2 s^-1").unwrap()];
-    // Three seeds per evaluation: the quick preset's equatorial column
-    // scatters by about 5% from seed to seed now that escaping atoms fly
-    // (one seed, 20261202, alone gives 1.898e5; the three give 1.968e5).
     let settings =
-        FitSettings { seeds: vec![20261202, 20261203, 20261204], ..FitSettings::default() };
+        FitSettings { seeds: vec![20261202, 20261203], jobs: 2, ..FitSettings::default() };
     let out = tmp.path().join("fit");
-    let r = fit::fit(&base, &free, &obs, &settings, &out, &rt, &|_| {}).unwrap();
-    let (best, sigma) = (r.best[0], r.sigma[0]);
-    assert!(sigma.is_finite() && sigma > 0.0, "{:?}", r.notes);
-    // Recovered within its reported uncertainty (2 sigma), or within 3%:
-    // the reported sigma leaves out the Monte Carlo noise of the model and
-    // of the synthetic data (about 1% for three seeds, measured as above),
-    // which the curvature of the seeds' chi2 does not see; making the
-    // reported uncertainty cover it is the fit's open issue ("Fits whose
-    // error bars hold").
-    assert!((best - truth).abs() < (2.0 * sigma).max(0.03 * truth), "{best} +- {sigma} vs {truth}");
-    // chi2 per degree of freedom of a model that can describe the data
-    // with realistic errors is of order 1 (common practice: 0.3-3).
+    let lines = std::sync::Mutex::new(Vec::new());
+    let log = |l: &str| lines.lock().unwrap().push(l.to_string());
+    let r = fit::fit(&base, &flux_free(), &obs, &settings, &out, &rt, &log).unwrap();
+    let [lo2, hi2] = r.interval_2sigma[0];
+    let [lo, hi] = r.interval_1sigma[0];
+    assert!(lo < r.best[0] && r.best[0] < hi && lo2 < lo && hi < hi2, "{:?}", r);
+    // The interval is a profile-likelihood interval (Wilks 1938, Ann. Math.
+    // Statist. 9, 60): one fit lands within 3 sigma of the truth in 99.7 %
+    // of cases for Gaussian errors (this data set: 2.5 sigma high, from its
+    // 5 % observation noise). Whether 1 and 2 sigma hold 68 % and 95 % is
+    // measured over twenty fits by the ignored test
+    // `fit_intervals_cover_the_truth` (docs/fit.md).
+    let sigma = 0.5 * (hi - lo);
+    assert!(
+        (r.best[0] - truth).abs() < 3.0 * sigma,
+        "{:?} vs {truth}; {:?}",
+        r.interval_1sigma,
+        r.notes
+    );
+    assert!(!r.stopped_on_cap, "{:?}", r.notes);
+    // chi2 per degree of freedom of a model that describes the data with
+    // the stated errors is of order 1 (common practice: 0.3-3).
     assert!(r.chi2_per_dof > 0.3 && r.chi2_per_dof < 3.0, "{}", r.chi2_per_dof);
+    // The model's own noise is in every residual's denominator.
+    assert!(r.residuals.iter().all(|q| q.model_error > 0.0));
+    // One line per evaluation, and nothing run twice.
+    let lines = lines.into_inner().unwrap();
+    assert_eq!(lines.len(), r.evaluations.len());
+    assert_eq!(r.runs, r.evaluations.len() * 2);
+    let mut seen: Vec<Vec<u64>> =
+        r.evaluations.iter().map(|e| e.values.iter().map(|v| v.to_bits()).collect()).collect();
+    seen.sort();
+    seen.dedup();
+    assert_eq!(seen.len(), r.evaluations.len());
     for f in [
         "fit.json",
         "residuals.csv",
@@ -164,4 +225,133 @@ fn fit_recovers_a_known_flux_from_synthetic_observations() {
     ] {
         assert!(out.join(f).is_file(), "missing {f}");
     }
+    let j: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("fit.json")).unwrap()).unwrap();
+    assert!(j["method"].as_str().unwrap().contains("profile likelihood"));
+}
+
+#[test]
+fn fit_to_a_slit_brightness_profile_recovers_the_flux() {
+    let tmp = TempDir::new("fit-slit");
+    let rt = runtime();
+    // A ground telescope's slit above the dawn limb at 70 deg phase,
+    // written by hand; the truth run at 3e5 cm^-2 s^-1, seed 41.
+    let view = tmp.path().join("slit.toml");
+    std::fs::write(
+        &view,
+        "title = \"slit above the dawn limb\"\n[distant]\nphase_angle = \"70 deg\"\n\
+         observer_side = \"dawn\"\naltitude_max = \"1500 km\"\naltitude_step = \"250 km\"\n\
+         aperture = \"20 km\"\nimage_pixels = 8\n",
+    )
+    .unwrap();
+    let truth = 3.0e5;
+    let run = tmp.path().join("truth");
+    crate::run_outputs::run_quick(
+        &run,
+        &[
+            "run.seed=41".into(),
+            format!("processes.impact-vapor.parameters.flux=\"{truth:e} cm^-2 s^-1\""),
+        ],
+    );
+    let samples = exobound::observe::view_samples(&run, &view).unwrap();
+    let mut obs = String::from("kind,coordinate,value,uncertainty,unit\n");
+    for (k, s) in samples.iter().enumerate() {
+        let v = s.brightness_r * (1.0 + 0.05 * normal(41_000 + k as u64));
+        // 5 % noise, plus 3 % for the truth run's own Monte Carlo noise
+        // (one run of the quick preset: about 3.4 % per value, 0.8 % common).
+        let sigma = 0.058 * s.brightness_r;
+        obs.push_str(&format!("brightness:slit.toml,{} km,{v:e},{sigma:e},R\n", s.altitude_km));
+    }
+    let obs = fit::observed::parse(&obs, "slit-obs.csv", tmp.path()).unwrap();
+    assert_eq!(obs.len(), samples.len());
+    let base = ScenarioSource::demo(true, &[]);
+    let settings = FitSettings { seeds: vec![7, 8], jobs: 2, ..FitSettings::default() };
+    let r = fit::fit(&base, &flux_free(), &obs, &settings, &tmp.path().join("fit"), &rt, &|_| {})
+        .unwrap();
+    let [lo2, hi2] = r.interval_2sigma[0];
+    assert!(
+        lo2 < truth && truth < hi2,
+        "{:?} {:?} vs {truth}; {:?}",
+        r.best,
+        r.interval_2sigma,
+        r.notes
+    );
+    // Brightness grows with the flux: the fitted model reproduces the
+    // observed slit to its errors (common practice: chi2/dof 0.3-3).
+    assert!(r.chi2_per_dof > 0.2 && r.chi2_per_dof < 3.0, "{}", r.chi2_per_dof);
+}
+
+#[test]
+fn a_bad_free_parameter_is_refused_before_any_run() {
+    let tmp = TempDir::new("fit-bad");
+    let rt = runtime();
+    let obs = fit::observed::parse(
+        "kind,coordinate,value,uncertainty,unit\nequator_column,12 h,1e9,1e8,cm^-2\n",
+        "o.csv",
+        tmp.path(),
+    )
+    .unwrap();
+    let base = ScenarioSource::demo(true, &[]);
+    let out = tmp.path().join("fit");
+    let settings = FitSettings::default();
+    let runs = std::sync::Mutex::new(0);
+    let log = |_: &str| *runs.lock().unwrap() += 1;
+    for (spec, names) in [
+        // No unit for a flux.
+        (
+            "processes.impact-vapor.parameters.flux=5e4..1e6",
+            "processes.impact-vapor.parameters.flux",
+        ),
+        // An unknown key.
+        ("processes.impact-vapor.parameters.fluxx=5e4..1e6 cm^-2 s^-1", "fluxx"),
+    ] {
+        let free = [FreeParam::parse(spec).unwrap()];
+        let e = fit::fit(&base, &free, &obs, &settings, &out, &rt, &log).unwrap_err();
+        assert!(e.contains("--free") && e.contains(names), "{spec}: {e}");
+        assert!(!out.exists() && !tmp.path().join("fit.partial").exists());
+    }
+    // An empty range is refused when parsed.
+    let e =
+        FreeParam::parse("processes.impact-vapor.parameters.flux=2e5..2e5 cm^-2 s^-1").unwrap_err();
+    assert!(e.contains("processes.impact-vapor.parameters.flux"), "{e}");
+    assert_eq!(*runs.lock().unwrap(), 0);
+}
+
+/// Coverage of the fit's intervals: twenty synthetic data sets (each from
+/// its own seeds, with its own 5 % noise), each fitted; the truth must lie
+/// inside the reported 1-sigma interval in 11 to 17 of them (the range the
+/// issue asks for; for a binomial(20, 0.683), P(X <= 10) = 0.068 and
+/// P(X >= 18) = 0.025) and inside 2 sigma in at least 17 (binomial(20,
+/// 0.954): P(X <= 16) = 0.012); computed with scipy 1.17.1 stats.binom,
+/// tests/python/coverage_binomial.py.
+/// About 600 quick runs: run it with
+/// `cargo test --release -p exobound-tests --test tests -- --ignored fit_intervals_cover_the_truth --nocapture`.
+#[test]
+#[ignore = "a validation of about 600 quick runs (10-20 minutes); docs/fit.md reports its counts"]
+fn fit_intervals_cover_the_truth() {
+    let tmp = TempDir::new("fit-coverage");
+    let rt = runtime();
+    let truth = 2.0e5;
+    let (mut in1, mut in2) = (0, 0);
+    for k in 0..20u64 {
+        let dir = tmp.path().join(format!("set-{k}"));
+        let obs = synthetic_columns(&dir.join("syn"), truth, 500 + 10 * k, 0.05);
+        let obs = fit::observed::parse(&obs, "synthetic", &dir).unwrap();
+        let base = ScenarioSource::demo(true, &[]);
+        let settings =
+            FitSettings { seeds: vec![20261202, 20261203], jobs: 2, ..FitSettings::default() };
+        let r =
+            fit::fit(&base, &flux_free(), &obs, &settings, &dir.join("fit"), &rt, &|_| {}).unwrap();
+        let inside = |[a, b]: [f64; 2]| a < truth && truth < b;
+        in1 += usize::from(inside(r.interval_1sigma[0]));
+        in2 += usize::from(inside(r.interval_2sigma[0]));
+        println!(
+            "set {k}: best {:.4e}, 1 sigma {:?}, 2 sigma {:?}, chi2/dof {:.2}, cap {}",
+            r.best[0], r.interval_1sigma[0], r.interval_2sigma[0], r.chi2_per_dof, r.stopped_on_cap
+        );
+        let _ = std::fs::remove_dir_all(&dir);
+    }
+    println!("coverage: {in1}/20 inside 1 sigma, {in2}/20 inside 2 sigma");
+    assert!((11..=17).contains(&in1), "{in1}/20 inside 1 sigma");
+    assert!(in2 >= 17, "{in2}/20 inside 2 sigma");
 }

@@ -25,15 +25,19 @@ pub struct FitArgs {
     /// Output directory.
     #[arg(long, value_name = "DIR", default_value = "fit-output")]
     out: PathBuf,
-    /// Seeds of every evaluation (the scenario's seed, +1, ...): common random numbers.
-    #[arg(long, default_value_t = 1)]
+    /// Seeds of every evaluation (the scenario's seed, +1, ...): common random
+    /// numbers; two or more give the model's Monte Carlo error from the seeds.
+    #[arg(long, default_value_t = 2)]
     seeds: u64,
-    /// Coarse-grid points per free parameter before Nelder-Mead.
+    /// Coarse-grid points per free parameter.
     #[arg(long, default_value_t = 3)]
     grid: usize,
-    /// Nelder-Mead iterations at most.
-    #[arg(long, default_value_t = 40)]
-    max_iterations: u64,
+    /// Design rounds at most after the grid.
+    #[arg(long, default_value_t = 8)]
+    max_rounds: usize,
+    /// Model runs at once (each gets its share of the cores; results do not depend on it).
+    #[arg(long, default_value_t = 1)]
+    jobs: usize,
     /// Override a scenario key (repeatable).
     #[arg(long = "set", value_name = "KEY=VALUE")]
     set: Vec<String>,
@@ -59,7 +63,8 @@ pub fn run(mut args: FitArgs) -> Result<()> {
         .map_err(anyhow::Error::msg)?;
     let text = std::fs::read_to_string(&args.observed)
         .with_context(|| format!("reading the observations {}", args.observed.display()))?;
-    let obs = fit::observed::parse(&text, &args.observed.display().to_string())
+    let base_dir = args.observed.parent().unwrap_or(std::path::Path::new(".")).to_path_buf();
+    let obs = fit::observed::parse(&text, &args.observed.display().to_string(), &base_dir)
         .map_err(anyhow::Error::msg)?;
     let base = match &args.scenario {
         Some(p) => ScenarioSource::file(p, &args.set).map_err(|e| anyhow!("{e}"))?,
@@ -72,21 +77,37 @@ pub fn run(mut args: FitArgs) -> Result<()> {
     let settings = FitSettings {
         seeds: (0..args.seeds.max(1)).map(|k| seed0.wrapping_add(k)).collect(),
         grid: args.grid,
-        max_iterations: args.max_iterations,
-        ..FitSettings::default()
+        max_rounds: args.max_rounds,
+        jobs: args.jobs.max(1),
     };
     let log = |l: &str| eprintln!("{l}");
     let r = fit::fit(&base, &params, &obs, &settings, &args.out, &runtime, &log)
         .map_err(anyhow::Error::msg)?;
-    for ((p, b), s) in r.parameters.iter().zip(&r.best).zip(&r.sigma) {
-        println!("  {} = {b:.4e} ± {s:.2e} {}", p.key, p.unit);
+    for (j, p) in r.parameters.iter().enumerate() {
+        let [lo, hi] = r.interval_1sigma[j];
+        let [lo2, hi2] = r.interval_2sigma[j];
+        println!(
+            "  {} = {:.4e} {}; 1 sigma [{lo:.4e}, {hi:.4e}], 2 sigma [{lo2:.4e}, {hi2:.4e}] (profile likelihood)",
+            p.key, r.best[j], p.unit
+        );
+    }
+    if r.parameters.len() > 1 {
+        for (j, row) in r.correlation.iter().enumerate() {
+            let cells: Vec<String> = row.iter().map(|c| format!("{c:+.2}")).collect();
+            println!("  correlation row {}: {}", r.parameters[j].key, cells.join(" "));
+        }
     }
     println!(
-        "  chi2 = {:.3} for {} degrees of freedom (chi2/dof = {:.3}), {} evaluations",
+        "  chi2 = {:.3} for {} degrees of freedom (chi2/dof = {:.3}); {} evaluations ({} runs, {} \
+         repeated points reused), {} design rounds{}",
         r.chi2,
         r.dof,
         r.chi2_per_dof,
-        r.evaluations.len()
+        r.evaluations.len(),
+        r.runs,
+        r.reused_evaluations,
+        r.rounds,
+        if r.stopped_on_cap { ", stopped on the cap" } else { "" }
     );
     for n in &r.notes {
         println!("  note: {n}");

@@ -3,29 +3,31 @@
 //! Why this exists: the impact vaporization rate, the vapour temperature,
 //! the PSD cross-section, the sputtering yield and the diffusion
 //! enhancement are tuned to what was observed. `exobound fit` minimises
-//! chi-square = sum ((model - observed) / sigma)^2 over the free
-//! parameters. Every evaluation runs the scenario with the same seeds
-//! (common random numbers), so chi-square is a smooth-enough function of
-//! the parameters for a derivative-free optimiser: a coarse grid picks the
-//! start, Nelder-Mead (the `argmin` crate) refines it, and the curvature of
-//! chi-square at the best fit gives the uncertainty (covariance =
-//! 2 H^-1, the Delta chi^2 = 1 rule for Gaussian errors).
+//!
+//!   chi-square = sum (model - observed)^2 / (sigma_obs^2 + sigma_model^2)
+//!
+//! over the free parameters, where sigma_model is the Monte Carlo standard
+//! error of the model value ([`evaluate`]). Every evaluation runs the
+//! scenario with the same seeds (common random numbers). A coarse grid
+//! picks the start; then rounds of a small design of evaluations around the
+//! current best point, a quadratic surrogate of each model value fitted to
+//! them, and the exact minimum and profile-likelihood intervals of the
+//! surrogate's chi-square ([`surrogate`]) move and shrink the design until
+//! it matches the interval. `docs/fit.md` states the method.
 
+pub mod evaluate;
 pub mod observed;
+pub mod surrogate;
 
-use std::collections::HashMap;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::sync::Arc;
 use std::sync::atomic::AtomicBool;
 
-use argmin::core::{CostFunction, Executor, State};
-use argmin::solver::neldermead::NelderMead;
 use exobound_products::{Line, LinePlot, LineStyle, draw_lines};
 use serde::Serialize;
 
 use crate::checkpoint::ScenarioSource;
-use crate::driver::{self, Outcome, Session};
-use crate::output::results::{MEASURES, RunResult};
+use crate::driver::{self, Session};
 use crate::output::{PROVENANCE_FILE, atomic_write, number, staged};
 use crate::runtime::Runtime;
 use crate::scenario::quantity;
@@ -86,8 +88,20 @@ impl FreeParam {
         if self.log { self.at(z) * (self.hi.ln() - self.lo.ln()) } else { self.hi - self.lo }
     }
 
+    /// `KEY=LO..HI UNIT`, as given.
+    pub fn spec(&self) -> String {
+        format!(
+            "{}={:e}..{:e}{}{}",
+            self.key,
+            self.lo,
+            self.hi,
+            if self.unit.is_empty() { "" } else { " " },
+            self.unit
+        )
+    }
+
     /// The override for value `x`.
-    fn setting(&self, x: f64) -> String {
+    pub(crate) fn setting(&self, x: f64) -> String {
         if self.unit.is_empty() {
             format!("{}={x:e}", self.key)
         } else {
@@ -101,17 +115,17 @@ impl FreeParam {
 pub struct FitSettings {
     /// Run seeds of every evaluation (common random numbers).
     pub seeds: Vec<u64>,
-    /// Coarse-grid points per free parameter before Nelder-Mead.
+    /// Coarse-grid points per free parameter.
     pub grid: usize,
-    /// Nelder-Mead iterations at most.
-    pub max_iterations: u64,
-    /// Step of the finite-difference curvature, as a fraction of each range.
-    pub curvature_step: f64,
+    /// Design rounds at most after the grid.
+    pub max_rounds: usize,
+    /// Runs at once.
+    pub jobs: usize,
 }
 
 impl Default for FitSettings {
     fn default() -> Self {
-        FitSettings { seeds: vec![1], grid: 3, max_iterations: 40, curvature_step: 0.05 }
+        FitSettings { seeds: vec![1, 2], grid: 3, max_rounds: 8, jobs: 1 }
     }
 }
 
@@ -120,10 +134,29 @@ impl Default for FitSettings {
 pub struct Evaluation {
     /// Parameter values, in their units.
     pub values: Vec<f64>,
-    /// chi-square, dimensionless.
+    /// chi-square with the model's Monte Carlo variance, dimensionless.
     pub chi2: f64,
-    /// Where it came from: "grid", "simplex" or "curvature".
+    /// Where it came from: "grid", "design N" or "best".
     pub stage: String,
+}
+
+/// One observation at the best fit.
+#[derive(Clone, Debug, Serialize)]
+pub struct Residual {
+    /// The observation's label.
+    pub observation: String,
+    /// Observed value, in `unit`.
+    pub observed: f64,
+    /// Its 1-sigma uncertainty, in `unit`.
+    pub uncertainty: f64,
+    /// The model at the best fit (surrogate), in `unit`.
+    pub model: f64,
+    /// The model's Monte Carlo standard error, in `unit`.
+    pub model_error: f64,
+    /// (model - observed) / sqrt(uncertainty^2 + model_error^2), dimensionless.
+    pub normalised_residual: f64,
+    /// The unit.
+    pub unit: String,
 }
 
 /// The result of a fit.
@@ -133,19 +166,37 @@ pub struct FitResult {
     pub parameters: Vec<FreeParam>,
     /// Best-fit values, in their units.
     pub best: Vec<f64>,
-    /// 1-sigma uncertainties from the curvature, in their units (NaN if
-    /// the curvature is not positive definite there).
+    /// Half the width of the 1-sigma interval, in their units (NaN when
+    /// the interval is open on a side).
     pub sigma: Vec<f64>,
-    /// chi-square at the best fit.
+    /// 1-sigma profile-likelihood interval (Delta chi2 = 1), in their units;
+    /// NaN for a side not reached inside the searched range.
+    pub interval_1sigma: Vec<[f64; 2]>,
+    /// 2-sigma profile-likelihood interval (Delta chi2 = 4), in their units.
+    pub interval_2sigma: Vec<[f64; 2]>,
+    /// Correlation matrix of the parameters at the best fit, dimensionless.
+    pub correlation: Vec<Vec<f64>>,
+    /// chi-square of the surrogate at the best fit, dimensionless.
     pub chi2: f64,
     /// Degrees of freedom: observations - free parameters.
     pub dof: i64,
     /// chi-square per degree of freedom.
     pub chi2_per_dof: f64,
-    /// Per observation: observed, sigma, model at the best fit.
-    pub residuals: Vec<(String, f64, f64, f64, String)>,
+    /// How the best fit and the intervals were found.
+    pub method: String,
+    /// True if the search stopped on its round cap before the design
+    /// matched the interval.
+    pub stopped_on_cap: bool,
+    /// Design rounds made after the grid.
+    pub rounds: usize,
+    /// Per observation at the best fit.
+    pub residuals: Vec<Residual>,
     /// Every evaluation, in order.
     pub evaluations: Vec<Evaluation>,
+    /// Points asked for again and answered from the record (not run again).
+    pub reused_evaluations: usize,
+    /// Model runs made (evaluations x seeds).
+    pub runs: usize,
     /// Seeds used.
     pub seeds: Vec<u64>,
     /// Notes on the result (e.g. a best fit on a bound).
@@ -154,109 +205,69 @@ pub struct FitResult {
     pub caution: String,
 }
 
-/// The model's values for the observations, from a run's result.
-fn model_values(r: &RunResult, obs: &[Observation]) -> Vec<f64> {
-    obs.iter()
-        .map(|o| match o.what {
-            Observable::EquatorColumn(lt) => r.equator.at(lt, Some(24.0)),
-            Observable::LatitudeColumn(l) => r.latitude.at(l, None),
-            Observable::Summary(m) => (MEASURES[m].of)(&r.summary),
-        })
-        .collect()
-}
+/// The method, as fit.json states it.
+const METHOD: &str = "chi2 = sum (model - observed)^2 / (sigma_obs^2 + sigma_model^2), \
+    sigma_model the Monte Carlo standard error of the model value (seed-to-seed with 2+ seeds, \
+    else the run's window-to-window error), pooled within each family of observations; common \
+    random numbers at every point; a coarse grid, then rounds of a design (centre, +-h and +-2h \
+    along each axis, and the 2^d corners at +-h) around the best point, each model value fitted \
+    by a quadratic in the scaled parameters (least squares), the surrogate chi2 minimised in the \
+    design's box, and the design moved or resized until it brackets the interval; intervals = \
+    profile likelihood (Delta chi2 = 1 and 4, minimising over the other parameters, Wilks 1938); \
+    correlation from 2 H^-1 of the surrogate chi2";
 
-/// chi-square of `model` against `obs`.
-pub fn chi_square(obs: &[Observation], model: &[f64]) -> f64 {
-    obs.iter()
-        .zip(model)
-        .map(|(o, m)| if m.is_finite() { ((m - o.value) / o.sigma).powi(2) } else { f64::INFINITY })
-        .sum()
-}
-
-/// Evaluations by parameter vector (bits of z), the ordered record, and
-/// the current stage's name.
-type EvalCache = (HashMap<Vec<u64>, (f64, Vec<f64>)>, Vec<Evaluation>, String);
-
-/// Runs the scenario at a parameter vector and remembers the answers.
-struct Evaluator<'a> {
-    base: &'a ScenarioSource,
-    params: &'a [FreeParam],
-    obs: &'a [Observation],
-    seeds: &'a [u64],
-    runtime: &'a Arc<Runtime>,
-    work: PathBuf,
-    cache: std::sync::Mutex<EvalCache>,
-}
-
-impl Evaluator<'_> {
-    fn source(&self, z: &[f64], seed: u64) -> ScenarioSource {
-        let mut s = self.base.clone();
-        for (p, &zi) in self.params.iter().zip(z) {
-            s.overrides.push(p.setting(p.at(zi)));
-        }
-        s.overrides.push(format!("run.seed={seed}"));
-        s
-    }
-
-    /// chi-square and the model values (mean over seeds) at `z`.
-    fn eval(&self, z: &[f64]) -> Result<(f64, Vec<f64>), String> {
-        let key: Vec<u64> = z.iter().map(|v| v.clamp(0.0, 1.0).to_bits()).collect();
-        if let Some(hit) = self.cache.lock().map_err(|_| "poisoned")?.0.get(&key) {
-            return Ok(hit.clone());
-        }
-        let zc: Vec<f64> = z.iter().map(|v| v.clamp(0.0, 1.0)).collect();
-        let mut sum = vec![0.0; self.obs.len()];
-        for &seed in self.seeds {
-            let source = self.source(&zc, seed);
-            let scenario = source.load(self.runtime).map_err(|e| e.to_string())?;
-            let dir = self.work.join(format!("eval-seed-{seed}"));
-            let _ = std::fs::remove_dir_all(&dir);
-            let session = Session { stop: Arc::new(AtomicBool::new(false)), progress: None };
-            let m =
-                match driver::start(scenario, source, &dir, session).map_err(|e| e.to_string())? {
-                    Outcome::Finished { result, .. } => model_values(&result, self.obs),
-                    Outcome::Interrupted { .. } => return Err("interrupted".into()),
-                };
-            let _ = std::fs::remove_dir_all(&dir);
-            for (s, v) in sum.iter_mut().zip(m) {
-                *s += v / self.seeds.len() as f64;
-            }
-        }
-        let chi2 = chi_square(self.obs, &sum);
-        let mut c = self.cache.lock().map_err(|_| "poisoned")?;
-        let stage = c.2.clone();
-        c.1.push(Evaluation {
-            values: self.params.iter().zip(&zc).map(|(p, &zi)| p.at(zi)).collect(),
-            chi2,
-            stage,
-        });
-        c.0.insert(key, (chi2, sum.clone()));
-        Ok((chi2, sum))
-    }
-
-    fn stage(&self, s: &str) {
-        if let Ok(mut c) = self.cache.lock() {
-            c.2 = s.to_string();
+/// The design around `c` with half-widths `h`: the centre, +-h and +-2h
+/// on each axis, and the 2^d corners at +-h; points outside [0, 1] are
+/// moved onto the range's edge.
+fn design(c: &[f64], h: &[f64]) -> Vec<Vec<f64>> {
+    let d = c.len();
+    let mut out = vec![c.to_vec()];
+    for j in 0..d {
+        for f in [-2.0, -1.0, 1.0, 2.0] {
+            let mut z = c.to_vec();
+            z[j] += f * h[j];
+            out.push(z);
         }
     }
+    if d > 1 {
+        for k in 0..(1usize << d) {
+            out.push((0..d).map(|j| c[j] + if k >> j & 1 == 1 { h[j] } else { -h[j] }).collect());
+        }
+    }
+    let mut unique: Vec<Vec<f64>> = Vec::new();
+    for z in out {
+        let z: Vec<f64> = z.iter().map(|v| v.clamp(0.0, 1.0)).collect();
+        if !unique.contains(&z) {
+            unique.push(z);
+        }
+    }
+    unique
 }
 
-/// The cost function handed to Nelder-Mead: chi-square, with a quadratic
-/// penalty outside the unit box (where the parameters are held at the bound).
-struct Cost<'a, 'b>(&'b Evaluator<'a>);
-
-impl CostFunction for Cost<'_, '_> {
-    type Param = Vec<f64>;
-    type Output = f64;
-    fn cost(&self, z: &Self::Param) -> Result<f64, argmin::core::Error> {
-        let out: f64 = z.iter().map(|v| (v - v.clamp(0.0, 1.0)).powi(2)).sum();
-        let (chi2, _) = self.0.eval(z).map_err(argmin::core::Error::msg)?;
-        Ok(chi2 + 1e6 * out)
+/// Check every free parameter against the scenario before any run: each
+/// bound on its own must load, so an unknown key, a missing or wrong unit
+/// or a value the module refuses is named with its `--free` text.
+pub fn check_free(
+    base: &ScenarioSource,
+    params: &[FreeParam],
+    runtime: &Arc<Runtime>,
+) -> Result<(), String> {
+    for p in params {
+        for x in [p.lo, p.hi] {
+            let mut s = base.clone();
+            s.overrides.push(p.setting(x));
+            s.load(runtime).map_err(|e| format!("--free `{}`: {e}", p.spec()))?;
+        }
     }
+    let mut s = base.clone();
+    for p in params {
+        s.overrides.push(p.setting(p.at(0.5)));
+    }
+    s.load(runtime).map(|_| ()).map_err(|e| format!("--free: the parameters together: {e}"))
 }
 
 /// Fit `params` of the scenario `base` to `obs`, writing into `out`
-/// (staged; renamed when complete). `log` hears progress lines.
+/// (staged; renamed when complete). `log` hears a line per evaluation.
 pub fn fit(
     base: &ScenarioSource,
     params: &[FreeParam],
@@ -264,137 +275,155 @@ pub fn fit(
     settings: &FitSettings,
     out: &Path,
     runtime: &Arc<Runtime>,
-    log: &dyn Fn(&str),
+    log: &(dyn Fn(&str) + Sync),
 ) -> Result<FitResult, String> {
     let d = params.len();
     if d == 0 {
-        return Err("give at least one --free KEY=LO..HI".into());
+        return Err("give at least one --free KEY=LO..HI UNIT".into());
     }
     if d > 4 {
-        return Err(format!("{d} free parameters; at most 4 (the coarse grid grows as 3^d)"));
+        return Err(format!("{d} free parameters; at most 4 (the design grows as 2^d)"));
     }
     if settings.seeds.is_empty() {
         return Err("give at least one seed".into());
     }
-    // Check the scenario and the keys once before any run.
-    {
-        let mut s = base.clone();
-        for p in params {
-            s.overrides.push(p.setting(p.at(0.5)));
-        }
-        s.load(runtime).map_err(|e| e.to_string())?;
-    }
+    check_free(base, params, runtime)?;
     staged(out, |dir| {
-        let ev = Evaluator {
+        let ev = evaluate::Evaluator::new(
             base,
             params,
             obs,
-            seeds: &settings.seeds,
+            &settings.seeds,
+            settings.jobs,
             runtime,
-            work: dir.join("work"),
-            cache: std::sync::Mutex::new((HashMap::new(), Vec::new(), String::new())),
-        };
+            dir.join("work"),
+        );
         std::fs::create_dir_all(&ev.work).map_err(|e| e.to_string())?;
-        // 1. Coarse grid at the centres of `grid` equal strata of each range.
-        ev.stage("grid");
-        let g = settings.grid.max(1);
-        let mut best: (f64, Vec<f64>) = (f64::INFINITY, vec![0.5; d]);
-        for k in 0..g.pow(d as u32) {
-            let mut rem = k;
-            let z: Vec<f64> = (0..d)
-                .map(|_| {
-                    let i = rem % g;
-                    rem /= g;
-                    (i as f64 + 0.5) / g as f64
-                })
-                .collect();
-            let (c, _) = ev.eval(&z)?;
-            log(&format!("grid {}/{}: chi2 = {c:.4}", k + 1, g.pow(d as u32)));
-            if c < best.0 {
-                best = (c, z);
-            }
-        }
-        // 2. Nelder-Mead from the best grid point, simplex steps of one stratum.
-        ev.stage("simplex");
-        let step = 0.5 / g as f64;
-        let mut simplex = vec![best.1.clone()];
-        for i in 0..d {
-            let mut v = best.1.clone();
-            v[i] = if v[i] + step <= 1.0 { v[i] + step } else { v[i] - step };
-            simplex.push(v);
-        }
-        let solver = NelderMead::new(simplex).with_sd_tolerance(1e-3).map_err(|e| e.to_string())?;
-        let res = Executor::new(Cost(&ev), solver)
-            .configure(|s| s.max_iters(settings.max_iterations))
-            .run()
-            .map_err(|e| format!("Nelder-Mead: {e}"))?;
-        let zbest: Vec<f64> = res
-            .state()
-            .get_best_param()
-            .cloned()
-            .unwrap_or(best.1.clone())
-            .iter()
-            .map(|v| v.clamp(0.0, 1.0))
-            .collect();
-        let (chi2, model) = ev.eval(&zbest)?;
-        log(&format!("simplex: chi2 = {chi2:.4} after {} iterations", res.state().get_iter()));
-        // 3. Curvature by central differences in z.
-        ev.stage("curvature");
-        let h = settings.curvature_step;
-        let f = |z: &[f64]| ev.eval(z).map(|r| r.0);
-        let mut hess = vec![vec![0.0; d]; d];
-        let shifted = |i: usize, a: f64, j: usize, b: f64| {
-            let mut z = zbest.clone();
-            z[i] += a;
-            z[j] += b;
-            z
-        };
-        let inside = |z: &[f64]| z.iter().all(|v| (0.0..=1.0).contains(v));
         let mut notes = Vec::new();
-        let mut ok = true;
-        for i in 0..d {
-            let (zp, zm) = (shifted(i, h, i, 0.0), shifted(i, -h, i, 0.0));
-            if !inside(&zp) || !inside(&zm) {
-                ok = false;
-                notes.push(format!(
-                    "the best fit of `{}` lies within {h} of a bound of its range, so the \
-                     curvature (and the uncertainty) is not computed; widen the range",
-                    params[i].key
-                ));
-                continue;
-            }
-            hess[i][i] = (f(&zp)? - 2.0 * chi2 + f(&zm)?) / (h * h);
-            #[allow(clippy::needless_range_loop)] // hess is filled symmetrically
-            for j in 0..i {
-                let v = (f(&shifted(i, h, j, h))?
-                    - f(&shifted(i, h, j, -h))?
-                    - f(&shifted(i, -h, j, h))?
-                    + f(&shifted(i, -h, j, -h))?)
-                    / (4.0 * h * h);
-                hess[i][j] = v;
-                hess[j][i] = v;
-            }
+        for fam in evaluate::unknown_noise(obs, settings.seeds.len()) {
+            notes.push(format!(
+                "with one seed the model's Monte Carlo error of `{fam}` is not known and is taken \
+                 as 0; use --seeds 2 or more"
+            ));
         }
-        let cov = if ok { invert(&hess).filter(|c| (0..d).all(|i| c[i][i] > 0.0)) } else { None };
-        if ok && cov.is_none() {
-            notes.push(
-                "chi-square is not convex at the best fit (curvature not positive definite): \
-                 no uncertainty; try more seeds or a larger curvature step"
-                    .into(),
-            );
-        }
-        let sigma: Vec<f64> = (0..d)
-            .map(|i| {
-                cov.as_ref()
-                    .map_or(f64::NAN, |c| (2.0 * c[i][i]).sqrt() * params[i].slope(zbest[i]))
+        // 1. Coarse grid at the centres of `grid` equal strata of each range.
+        let g = settings.grid.max(1);
+        let grid: Vec<Vec<f64>> = (0..g.pow(d as u32))
+            .map(|k| {
+                let mut rem = k;
+                (0..d)
+                    .map(|_| {
+                        let i = rem % g;
+                        rem /= g;
+                        (i as f64 + 0.5) / g as f64
+                    })
+                    .collect()
             })
             .collect();
-        let best_values: Vec<f64> = params.iter().zip(&zbest).map(|(p, &z)| p.at(z)).collect();
-        for (p, &z) in params.iter().zip(&zbest) {
-            if !(0.001..=0.999).contains(&z) {
+        let pts = ev.batch(&grid, "grid", log)?;
+        let start = pts.iter().min_by(|a, b| a.1.total_cmp(&b.1)).map(|p| p.0.z.clone());
+        let mut centre = start.unwrap_or_else(|| vec![0.5; d]);
+        let mut h = vec![0.5 / g as f64; d];
+        // 2. Design rounds.
+        let mut state: Option<Smooth> = None;
+        let mut converged = false;
+        let mut rounds = 0;
+        while rounds < settings.max_rounds.max(1) {
+            rounds += 1;
+            ev.batch(&design(&centre, &h), &format!("design {rounds}"), log)?;
+            let s = smooth(&ev.points(), obs, &centre, &h)
+                .ok_or("the design's evaluations do not determine a quadratic; widen the ranges")?;
+            let best = &s.best;
+            let on_edge = (0..d).any(|j| {
+                let edge = (best[j] - s.region.lo[j]).abs() < 1e-9 * h[j].max(1e-12)
+                    || (best[j] - s.region.hi[j]).abs() < 1e-9 * h[j].max(1e-12);
+                edge && best[j] > 1e-9 && best[j] < 1.0 - 1e-9
+            });
+            let mut next_h = h.clone();
+            let mut again = on_edge;
+            for j in 0..d {
+                let (lo, hi) = s.one_sigma[j];
+                match (lo, hi) {
+                    (Some(a), Some(b)) => {
+                        // The design's box (+-2h) should hold the 2-sigma
+                        // interval with room (h = 1.25 sigma), and not be
+                        // so wide that the quadratic must bend far.
+                        let target = (1.25 * 0.5 * (b - a)).max(1e-4);
+                        if h[j] < 0.8 * target || h[j] > 2.5 * target {
+                            next_h[j] = target;
+                            again = true;
+                        }
+                    }
+                    // Open towards a bound of the range: the design already reaches it.
+                    _ if (best[j] - 2.0 * h[j] <= 0.0 && lo.is_none())
+                        || (best[j] + 2.0 * h[j] >= 1.0 && hi.is_none()) =>
+                    {
+                        if lo.is_none() && hi.is_none() {
+                            next_h[j] = (2.0 * h[j]).min(0.5);
+                            again = true;
+                        }
+                    }
+                    _ => {
+                        next_h[j] = (2.0 * h[j]).min(0.5);
+                        again = true;
+                    }
+                }
+                // The 2-sigma crossings must lie inside the box too, unless
+                // the box already ends at the range's bound on that side.
+                let (lo2, hi2) = s.two_sigma[j];
+                if (lo2.is_none() && s.region.lo[j] > 0.0)
+                    || (hi2.is_none() && s.region.hi[j] < 1.0)
+                {
+                    next_h[j] = next_h[j].max(1.5 * h[j]).min(0.5);
+                    again = true;
+                }
+                if (best[j] - centre[j]).abs() > h[j] {
+                    again = true;
+                }
+            }
+            let done = !again;
+            centre = best.clone();
+            h = next_h;
+            state = Some(s);
+            if done {
+                converged = true;
+                break;
+            }
+        }
+        let Some(s) = state else { return Err("no design round ran".into()) };
+        let stopped_on_cap = !converged;
+        if stopped_on_cap {
+            notes.push(format!(
+                "the search stopped on its cap of {} design rounds before the design matched the \
+                 interval; the intervals may be inaccurate: raise --max-rounds",
+                settings.max_rounds
+            ));
+        }
+        // 3. What the surrogate says at its minimum.
+        let zbest = s.best.clone();
+        let to_units = |j: usize, z: Option<f64>| z.map_or(f64::NAN, |z| params[j].at(z));
+        let interval_1sigma: Vec<[f64; 2]> = (0..d)
+            .map(|j| [to_units(j, s.one_sigma[j].0), to_units(j, s.one_sigma[j].1)])
+            .collect();
+        let interval_2sigma: Vec<[f64; 2]> = (0..d)
+            .map(|j| [to_units(j, s.two_sigma[j].0), to_units(j, s.two_sigma[j].1)])
+            .collect();
+        for (j, p) in params.iter().enumerate() {
+            let open = |(a, b): (Option<f64>, Option<f64>)| a.is_none() || b.is_none();
+            if open(s.one_sigma[j]) || open(s.two_sigma[j]) {
+                notes.push(format!(
+                    "the {} interval of `{}` is open on a side (NaN): it reaches the end of the \
+                     range or of the searched region; widen the range or add observations",
+                    if open(s.one_sigma[j]) { "1-sigma" } else { "2-sigma" },
+                    p.key
+                ));
+            }
+            if !(0.001..=0.999).contains(&zbest[j]) {
                 notes.push(format!("`{}` is at a bound of its range", p.key));
             }
         }
+        let (model, model_se) = s.model_at(&zbest);
+        let chi2 = s.chi2(&zbest);
         let dof = obs.len() as i64 - d as i64;
         // 4. Keep the best-fit run (first seed) for inspection.
         let source = ev.source(&zbest, settings.seeds[0]);
@@ -402,20 +431,36 @@ pub fn fit(
         let session = Session { stop: Arc::new(AtomicBool::new(false)), progress: None };
         driver::start(scenario, source, &dir.join("best"), session).map_err(|e| e.to_string())?;
         let _ = std::fs::remove_dir_all(&ev.work);
-        let evaluations = ev.cache.into_inner().map_err(|_| "poisoned")?.1;
+        let (evaluations, reused, runs) = ev.finish();
         let fr = FitResult {
             parameters: params.to_vec(),
-            best: best_values,
-            sigma,
+            best: (0..d).map(|j| params[j].at(zbest[j])).collect(),
+            sigma: interval_1sigma.iter().map(|[a, b]| 0.5 * (b - a)).collect(),
+            interval_1sigma,
+            interval_2sigma,
+            correlation: s.correlation.clone(),
             chi2,
             dof,
             chi2_per_dof: if dof > 0 { chi2 / dof as f64 } else { f64::NAN },
+            method: METHOD.into(),
+            stopped_on_cap,
+            rounds,
             residuals: obs
                 .iter()
-                .zip(&model)
-                .map(|(o, m)| (o.label.clone(), o.value, o.sigma, *m, o.unit.clone()))
+                .zip(model.iter().zip(&model_se))
+                .map(|(o, (&m, &e))| Residual {
+                    observation: o.label.clone(),
+                    observed: o.value,
+                    uncertainty: o.sigma,
+                    model: m,
+                    model_error: e,
+                    normalised_residual: (m - o.value) / (o.sigma * o.sigma + e * e).sqrt(),
+                    unit: o.unit.clone(),
+                })
                 .collect(),
             evaluations,
+            reused_evaluations: reused,
+            runs,
             seeds: settings.seeds.clone(),
             notes,
             caution: "Model output: a scientific estimate from a Monte Carlo model, not \
@@ -437,6 +482,99 @@ pub fn fit(
         atomic_write(&dir.join(PROVENANCE_FILE), &json).map_err(|e| e.to_string())?;
         Ok(fr)
     })
+}
+
+/// The surrogate of one design round and what it gives.
+struct Smooth {
+    /// Per observation: its quadratic.
+    quads: Vec<surrogate::Quadratic>,
+    /// The model's noise, from the points used.
+    noise: evaluate::Noise,
+    /// The observations.
+    obs: Vec<Observation>,
+    /// The box searched.
+    region: surrogate::Region,
+    /// The surrogate chi2's minimum in the box.
+    best: Vec<f64>,
+    /// Per parameter: the Delta chi2 = 1 crossings in z.
+    one_sigma: Vec<(Option<f64>, Option<f64>)>,
+    /// Per parameter: the Delta chi2 = 4 crossings in z.
+    two_sigma: Vec<(Option<f64>, Option<f64>)>,
+    /// Correlation matrix at the minimum.
+    correlation: Vec<Vec<f64>>,
+}
+
+impl Smooth {
+    fn model_at(&self, z: &[f64]) -> (Vec<f64>, Vec<f64>) {
+        let m: Vec<f64> = self.quads.iter().map(|q| q.at(z)).collect();
+        let se = self.noise.standard_errors(m.len(), &m);
+        (m, se)
+    }
+
+    fn chi2(&self, z: &[f64]) -> f64 {
+        let m: Vec<f64> = self.quads.iter().map(|q| q.at(z)).collect();
+        self.noise.chi_square(&self.obs, &m)
+    }
+}
+
+/// Fit the surrogate to the points within the design's box around
+/// `centre` (half-widths 2h), minimise it there and profile it.
+fn smooth(
+    points: &[evaluate::Point],
+    obs: &[Observation],
+    centre: &[f64],
+    h: &[f64],
+) -> Option<Smooth> {
+    let d = centre.len();
+    let region = surrogate::Region {
+        lo: (0..d).map(|j| (centre[j] - 2.0 * h[j]).max(0.0)).collect(),
+        hi: (0..d).map(|j| (centre[j] + 2.0 * h[j]).min(1.0)).collect(),
+    };
+    let inside: Vec<&evaluate::Point> = points
+        .iter()
+        .filter(|p| {
+            (0..d).all(|j| p.z[j] >= region.lo[j] - 1e-12 && p.z[j] <= region.hi[j] + 1e-12)
+        })
+        .filter(|p| p.model.iter().all(|m| m.is_finite()))
+        .collect();
+    let zs: Vec<Vec<f64>> = inside.iter().map(|p| p.z.clone()).collect();
+    let mut quads = Vec::with_capacity(obs.len());
+    for i in 0..obs.len() {
+        let y: Vec<f64> = inside.iter().map(|p| p.model[i]).collect();
+        quads.push(surrogate::Quadratic::fit(&zs, &y, centre, h)?);
+    }
+    // The noise from every point evaluated (it varies little with the parameters).
+    let all: Vec<&evaluate::Point> = points.iter().collect();
+    let mut s = Smooth {
+        quads,
+        noise: evaluate::Noise::estimate(obs, &all),
+        obs: obs.to_vec(),
+        region,
+        best: centre.to_vec(),
+        one_sigma: Vec::new(),
+        two_sigma: Vec::new(),
+        correlation: Vec::new(),
+    };
+    let step: Vec<f64> = h.iter().map(|x| 0.5 * x).collect();
+    let f = |z: &[f64]| s.chi2(z);
+    let best = surrogate::minimise(&f, &s.region, centre, &step);
+    let one: Vec<_> =
+        (0..d).map(|j| surrogate::interval(&f, &s.region, &best, &step, j, 1.0)).collect();
+    let two: Vec<_> =
+        (0..d).map(|j| surrogate::interval(&f, &s.region, &best, &step, j, 4.0)).collect();
+    let fd: Vec<f64> = h.iter().map(|x| 1e-3 * x).collect();
+    let hess = surrogate::hessian(&f, &best, &fd);
+    let correlation = match invert(&hess) {
+        Some(c) if (0..d).all(|j| c[j][j] > 0.0) => {
+            (0..d).map(|i| (0..d).map(|j| c[i][j] / (c[i][i] * c[j][j]).sqrt()).collect()).collect()
+        }
+        _ => vec![vec![f64::NAN; d]; d],
+    };
+    s.best = best;
+    s.one_sigma = one;
+    s.two_sigma = two;
+    s.correlation = correlation;
+    Some(s)
 }
 
 /// Inverse of a small symmetric matrix by Gauss-Jordan elimination with
@@ -475,11 +613,16 @@ fn write_products(dir: &Path, r: &FitResult, obs: &[Observation]) -> Result<(), 
     let io = |e: std::io::Error| e.to_string();
     let json = serde_json::to_vec_pretty(r).map_err(|e| e.to_string())?;
     atomic_write(&dir.join("fit.json"), &json).map_err(io)?;
-    let mut csv = String::from("observation,observed,uncertainty,model,normalised_residual,unit\n");
-    for (label, o, s, m, u) in &r.residuals {
-        csv.push_str(label);
-        number::push_cells(&mut csv, &[*o, *s, *m, (m - o) / s]);
-        csv.push_str(&format!(",{u}\n"));
+    let mut csv = String::from(
+        "observation,observed,uncertainty,model,model_error,normalised_residual,unit\n",
+    );
+    for q in &r.residuals {
+        csv.push_str(&q.observation);
+        number::push_cells(
+            &mut csv,
+            &[q.observed, q.uncertainty, q.model, q.model_error, q.normalised_residual],
+        );
+        csv.push_str(&format!(",{}\n", q.unit));
     }
     atomic_write(&dir.join("residuals.csv"), csv.as_bytes()).map_err(io)?;
     let mut ev = String::new();
@@ -520,7 +663,7 @@ fn write_products(dir: &Path, r: &FitResult, obs: &[Observation]) -> Result<(), 
             .zip(&r.residuals)
             .filter_map(|(o, res)| match (kind, &o.what) {
                 ("equator", Observable::EquatorColumn(x))
-                | ("latitude", Observable::LatitudeColumn(x)) => Some((*x, o, res.3)),
+                | ("latitude", Observable::LatitudeColumn(x)) => Some((*x, o, res.model)),
                 _ => None,
             })
             .collect();

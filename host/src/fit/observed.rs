@@ -11,12 +11,17 @@
 //! equator_column,10.5 h,1.2e9,1.0e8,cm^-2
 //! latitude_column,30 deg,8.0e8,1.0e8,cm^-2
 //! summary:dayside_near_surface_density,,20,5,cm^-3
+//! brightness:slit.toml,500 km,1200,120,R
 //! ```
 //!
 //! `equator_column` is the equatorial column at a local time (the
 //! coordinate, in h), `latitude_column` the dayside column at a latitude
 //! (in deg); `summary:NAME` is a summary measure of
-//! [`crate::output::results::MEASURES`] in its unit. `docs/fit.md` documents it.
+//! [`crate::output::results::MEASURES`] in its unit; `brightness:VIEW`
+//! is the brightness (rayleigh) seen through a view file of `exobound
+//! observe` (a path relative to the observations file) at an altitude above
+//! the limb (distant slit) or a tangent altitude (orbiter scan), with its
+//! unit. `docs/fit.md` documents it.
 
 use crate::output::results::MEASURES;
 use crate::scenario::quantity::{self, Kind};
@@ -33,6 +38,22 @@ pub enum Observable {
     LatitudeColumn(f64),
     /// A summary measure, by its index in [`MEASURES`].
     Summary(usize),
+    /// Brightness through a view file (the path as resolved) at an altitude
+    /// above the limb or a tangent altitude, km.
+    Brightness(std::path::PathBuf, f64),
+}
+
+impl Observable {
+    /// Observations of one kind share a model-noise estimate: "equator",
+    /// "latitude", "brightness VIEW" or the summary measure's name.
+    pub fn family(&self) -> String {
+        match self {
+            Observable::EquatorColumn(_) => "equator".into(),
+            Observable::LatitudeColumn(_) => "latitude".into(),
+            Observable::Summary(m) => MEASURES[*m].name.into(),
+            Observable::Brightness(v, _) => format!("brightness {}", v.display()),
+        }
+    }
 }
 
 /// One observed value.
@@ -50,8 +71,9 @@ pub struct Observation {
     pub label: String,
 }
 
-/// Parse an observations file's text; `file` names it in errors.
-pub fn parse(text: &str, file: &str) -> Result<Vec<Observation>, String> {
+/// Parse an observations file's text; `file` names it in errors, and view
+/// files of brightness rows are found relative to `base` (its directory).
+pub fn parse(text: &str, file: &str, base: &std::path::Path) -> Result<Vec<Observation>, String> {
     let mut rows = text
         .lines()
         .enumerate()
@@ -106,10 +128,32 @@ pub fn parse(text: &str, file: &str) -> Result<Vec<Observation>, String> {
                     (Observable::LatitudeColumn(lat), format!("latitude_column at {lat} deg"))
                 }
             }
+            k if k.starts_with("brightness:") => {
+                let name = &k["brightness:".len()..];
+                let view = base.join(name);
+                if name.is_empty() || !view.is_file() {
+                    return Err(format!(
+                        "{at}: `{k}` names the view file `{}`, which does not exist; give the \
+                         path of an `exobound observe` view file relative to the observations file",
+                        view.display()
+                    ));
+                }
+                if !matches!(unit.as_str(), "R" | "rayleigh") {
+                    return Err(format!("{at}: brightness is in `R` (rayleigh), not `{unit}`"));
+                }
+                let alt = quantity::parse(c[1], Kind::Length)
+                    .map_err(|e| format!("{at}: coordinate (altitude with its unit): {e}"))?
+                    / 1e3;
+                if !(alt >= 0.0) {
+                    return Err(format!("{at}: altitude {alt} km is below the surface"));
+                }
+                (Observable::Brightness(view, alt), format!("{k} at {alt} km"))
+            }
             k => {
                 let Some(name) = k.strip_prefix("summary:") else {
                     return Err(format!(
-                        "{at}: unknown kind `{k}`; use equator_column, latitude_column or summary:NAME"
+                        "{at}: unknown kind `{k}`; use equator_column, latitude_column, \
+                         brightness:VIEW or summary:NAME"
                     ));
                 };
                 let Some(m) = crate::output::results::measure_index(name) else {
@@ -144,21 +188,41 @@ mod tests {
             "# test\nkind,coordinate,value,uncertainty,unit\nequator_column,10.5 h,1.2e9,1e8,cm^-2\n\
              latitude_column,30 deg,8e8,1e8,cm^-2\nsummary:escape_rate,,3e21,1e20,atoms s^-1\n",
             "o.csv",
+            std::path::Path::new("."),
         )
         .unwrap();
         assert_eq!(o[0].what, Observable::EquatorColumn(10.5));
         assert!(matches!(o[1].what, Observable::LatitudeColumn(l) if (l - 30.0).abs() < 1e-12));
         assert!(matches!(o[2].what, Observable::Summary(_)));
-        let e =
-            parse(&format!("{HEADER}\nequator_column,10.5 h,1,0,cm^-2\n"), "o.csv").unwrap_err();
+        let e = parse(
+            &format!("{HEADER}\nequator_column,10.5 h,1,0,cm^-2\n"),
+            "o.csv",
+            std::path::Path::new("."),
+        )
+        .unwrap_err();
         assert!(e.contains("line 2") && e.contains("positive"), "{e}");
-        let e =
-            parse(&format!("{HEADER}\nequator_column,10.5 h,1,1,cm^-3\n"), "o.csv").unwrap_err();
+        let e = parse(
+            &format!("{HEADER}\nequator_column,10.5 h,1,1,cm^-3\n"),
+            "o.csv",
+            std::path::Path::new("."),
+        )
+        .unwrap_err();
         assert!(e.contains("cm^-2"), "{e}");
-        let e =
-            parse(&format!("{HEADER}\nsummary:escape_rat,,1,1,atoms s^-1\n"), "o.csv").unwrap_err();
+        let e = parse(
+            &format!("{HEADER}\nsummary:escape_rat,,1,1,atoms s^-1\n"),
+            "o.csv",
+            std::path::Path::new("."),
+        )
+        .unwrap_err();
         assert!(e.contains("escape_rate"), "{e}");
-        let e = parse("a,b\n", "o.csv").unwrap_err();
+        let e = parse("a,b\n", "o.csv", std::path::Path::new(".")).unwrap_err();
         assert!(e.contains(HEADER), "{e}");
+        let e = parse(
+            &format!("{HEADER}\nbrightness:nowhere.toml,500 km,1,1,R\n"),
+            "o.csv",
+            std::path::Path::new("."),
+        )
+        .unwrap_err();
+        assert!(e.contains("line 2") && e.contains("nowhere.toml"), "{e}");
     }
 }

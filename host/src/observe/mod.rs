@@ -204,40 +204,8 @@ pub fn orbiter_looks(field: &DensityField, o: &Orbiter) -> Vec<(f64, f64, f64, f
 /// Run `observe`: read the run in `run_dir` and the view in `view_path`,
 /// write the products into `out` (staged, renamed when complete).
 pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observation, String> {
-    let nc = run_dir.join("exosphere.nc");
-    if !nc.is_file() {
-        return Err(format!(
-            "`{}` has no exosphere.nc; give the output directory of a finished `exobound run`",
-            run_dir.display()
-        ));
-    }
-    let ds = exobound_products::read_netcdf(&nc).map_err(|e| format!("`{}`: {e}", nc.display()))?;
-    let field = DensityField::from_dataset(&ds, &nc)?;
-    let view = view::read(view_path, field.radius)?;
-    let attr_num = |k: &str| ds.attribute(k).and_then(|a| a.as_number());
-    let species = ds.attribute("species").and_then(|a| a.as_text()).unwrap_or("Na").to_string();
-    let run_table = ds
-        .attribute(gfactor::RUN_TABLE_ATTRIBUTE)
-        .and_then(|a| a.as_text())
-        .map(|t| (t, ds.attribute(gfactor::RUN_ORIGIN_ATTRIBUTE).and_then(|a| a.as_text())));
-    let model = gfactor::model_for(
-        &species,
-        view.g_factor_table.as_deref(),
-        run_table.map(|(t, o)| (t, o.unwrap_or("recorded in exosphere.nc"))),
-    )
-    .map_err(|e| format!("{}: {e}", view_path.display()))?;
-    let table = &model.table;
-    let r_au = view.heliocentric_distance.or(attr_num("heliocentric_distance_au")).ok_or(
-        "the run records no heliocentric distance; set [brightness] heliocentric_distance",
-    )?;
-    let v_km_s = view
-        .radial_velocity
-        .map(|v| v / 1e3)
-        .or(attr_num("heliocentric_radial_velocity_km_s"))
-        .unwrap_or(0.0);
-    let g =
-        gfactor::g_at(&model, v_km_s, r_au).map_err(|e| format!("{}: {e}", view_path.display()))?;
-
+    let Prepared { field, view, species, table, g, r_au, v_km_s } = prepare(run_dir, view_path)?;
+    let table = &table;
     staged(out, |dir| {
         let obs = compute_and_write(dir, &field, &view, g, table, r_au, v_km_s).map(
             |(samples, geometry, phase, pa, image_fraction)| Observation {
@@ -281,6 +249,83 @@ pub fn observe(run_dir: &Path, view_path: &Path, out: &Path) -> Result<Observati
         let json = serde_json::to_vec_pretty(&prov).map_err(|e| e.to_string())?;
         atomic_write(&dir.join(PROVENANCE_FILE), &json).map_err(|e| e.to_string())?;
         Ok(obs)
+    })
+}
+
+/// A run's density field and a view of it, with the g-factor that turns
+/// columns into brightness.
+struct Prepared {
+    field: DensityField,
+    view: View,
+    species: String,
+    table: GFactorTable,
+    /// g-factor, photons s^-1 atom^-1.
+    g: f64,
+    /// Heliocentric distance, AU.
+    r_au: f64,
+    /// Heliocentric radial velocity, km s^-1.
+    v_km_s: f64,
+}
+
+/// Read a run's field and a view file, and find the view's g-factor.
+fn prepare(run_dir: &Path, view_path: &Path) -> Result<Prepared, String> {
+    let nc = run_dir.join("exosphere.nc");
+    if !nc.is_file() {
+        return Err(format!(
+            "`{}` has no exosphere.nc; give the output directory of a finished `exobound run`",
+            run_dir.display()
+        ));
+    }
+    let ds = exobound_products::read_netcdf(&nc).map_err(|e| format!("`{}`: {e}", nc.display()))?;
+    let field = DensityField::from_dataset(&ds, &nc)?;
+    let view = view::read(view_path, field.radius)?;
+    let attr_num = |k: &str| ds.attribute(k).and_then(|a| a.as_number());
+    let species = ds.attribute("species").and_then(|a| a.as_text()).unwrap_or("Na").to_string();
+    let run_table = ds
+        .attribute(gfactor::RUN_TABLE_ATTRIBUTE)
+        .and_then(|a| a.as_text())
+        .map(|t| (t, ds.attribute(gfactor::RUN_ORIGIN_ATTRIBUTE).and_then(|a| a.as_text())));
+    let model = gfactor::model_for(
+        &species,
+        view.g_factor_table.as_deref(),
+        run_table.map(|(t, o)| (t, o.unwrap_or("recorded in exosphere.nc"))),
+    )
+    .map_err(|e| format!("{}: {e}", view_path.display()))?;
+    let r_au = view.heliocentric_distance.or(attr_num("heliocentric_distance_au")).ok_or(
+        "the run records no heliocentric distance; set [brightness] heliocentric_distance",
+    )?;
+    let v_km_s = view
+        .radial_velocity
+        .map(|v| v / 1e3)
+        .or(attr_num("heliocentric_radial_velocity_km_s"))
+        .unwrap_or(0.0);
+    let g =
+        gfactor::g_at(&model, v_km_s, r_au).map_err(|e| format!("{}: {e}", view_path.display()))?;
+    Ok(Prepared { field, view, species, table: model.table, g, r_au, v_km_s })
+}
+
+/// The slit (distant view) or scan (orbiter view) samples of `view_path`
+/// through a finished run, without writing anything: what `fit` compares
+/// with observed brightness. Each sample's `altitude_km` is its altitude
+/// above the limb (distant) or its tangent altitude (orbiter).
+pub fn view_samples(run_dir: &Path, view_path: &Path) -> Result<Vec<Sample>, String> {
+    let Prepared { field, view, g, .. } = prepare(run_dir, view_path)?;
+    let sample = |h: f64, el: f64, c: f64, blocked: f64| Sample {
+        altitude_km: h / 1e3,
+        elevation_deg: el,
+        column_cm2: c,
+        brightness_r: brightness_rayleigh(g, c),
+        blocked_fraction: blocked,
+    };
+    Ok(match &view.geometry {
+        Geometry::Distant(d) => distant_slit(&field, d)
+            .into_iter()
+            .map(|(h, c, blocked)| sample(h, f64::NAN, c, blocked))
+            .collect(),
+        Geometry::Orbiter(o) => orbiter_looks(&field, o)
+            .into_iter()
+            .map(|(h, el, c, blocked)| sample(h, el, c, blocked))
+            .collect(),
     })
 }
 
