@@ -150,3 +150,54 @@ fn compare_flags_real_differences_and_only_those() {
         csv.lines().any(|l| l.starts_with("source_rate,atoms s^-1,hot,") && l.ends_with(",yes"))
     );
 }
+
+#[test]
+fn compare_with_two_seeds_warns_and_names_the_smallest_detectable_change() {
+    let tmp = TempDir::new("compare-two-seeds");
+    let rt = Arc::new(
+        Runtime::new(RuntimeConfig { cache_dir: None, ..RuntimeConfig::default() }).unwrap(),
+    );
+    let base = ScenarioSource::demo(true, &[]);
+    let mut warm = base.clone();
+    // A second scenario: 1.5 times the vaporization flux.
+    warm.overrides.push("processes.impact-vapor.parameters.flux=\"3e5 cm^-2 s^-1\"".into());
+    let variants = vec![
+        Variant { name: "base".into(), source: base },
+        Variant { name: "warm".into(), source: warm },
+    ];
+    let out = tmp.path().join("cmp");
+    let c = compare::compare(
+        &variants,
+        &[21, 22],
+        &out,
+        &rt,
+        Arc::new(AtomicBool::new(false)),
+        &mut |_, _| {},
+    )
+    .unwrap();
+    // With 2 seeds (1 degree of freedom) and 11 measures at 1 % family-wise
+    // (Holm 1979), the first Holm step needs |t| > t_{1 - 0.01/22}(1) =
+    // 700.28 (scipy 1.17.1 stats.t.ppf; tests/python/compare_reference_values.py).
+    let text = std::fs::read_to_string(out.join("comparison.txt")).unwrap();
+    assert!(text.contains("WARNING: 2 seeds") && text.contains("700.3"), "{text}");
+    assert!(text.contains("smallest detectable changes") && text.contains("total_content (warm)"));
+    let w = &c.warnings[0];
+    for r in &c.rows {
+        let d = &r.difference[0];
+        // The detectable change is the critical t times the pair's standard error.
+        let want = 700.281_273_605_340_7 * d.se;
+        assert!((d.smallest_detectable - want).abs() <= 1e-6 * want, "{}", r.measure);
+        assert!(w.contains(&format!("{} (warm)", r.measure)), "{}", r.measure);
+    }
+    // No relative difference for the signed peak shift.
+    let csv = std::fs::read_to_string(out.join("comparison.csv")).unwrap();
+    let shift = csv
+        .lines()
+        .find(|l| l.starts_with("equatorial_peak_shift,") && l.contains(",warm,"))
+        .unwrap();
+    assert_eq!(shift.split(',').nth(7), Some("NaN"), "{shift}");
+    assert!(text.lines().any(|l| l.contains("warm")
+        && l.contains("diff")
+        && !l.contains('%')
+        && text.contains("equatorial_peak_shift")));
+}

@@ -52,6 +52,8 @@ pub struct MeasureRow {
     pub se: Vec<f64>,
     /// Per variant after the first: paired difference against the first.
     pub difference: Vec<Difference>,
+    /// A signed measure (zero is not "none"): no relative difference is given.
+    pub signed: bool,
 }
 
 /// The result of a comparison.
@@ -65,6 +67,9 @@ pub struct Comparison {
     pub rows: Vec<MeasureRow>,
     /// The significance rule.
     pub rule: String,
+    /// What the reader must know before trusting a verdict (too few seeds,
+    /// the smallest change the test could detect).
+    pub warnings: Vec<String>,
     /// A reminder of what the numbers are.
     pub caution: String,
 }
@@ -188,7 +193,7 @@ pub fn compare(
 }
 
 fn tabulate(variants: &[Variant], seeds: &[u64], results: &[Vec<RunResult>]) -> Comparison {
-    let rows = MEASURES
+    let mut rows: Vec<MeasureRow> = MEASURES
         .iter()
         .map(|m| {
             let values: Vec<Vec<f64>> =
@@ -201,16 +206,60 @@ fn tabulate(variants: &[Variant], seeds: &[u64], results: &[Vec<RunResult>]) -> 
                 se: stats.iter().map(|s| s.1).collect(),
                 difference: values[1..].iter().map(|b| paired(&values[0], b)).collect(),
                 values,
+                signed: m.signed,
             }
         })
         .collect();
+    // Holm's rule over the measures of each variant.
+    for k in 0..variants.len().saturating_sub(1) {
+        let mut diffs: Vec<&mut Difference> =
+            rows.iter_mut().map(|r| &mut r.difference[k]).collect();
+        stats::correct(&mut diffs);
+    }
+    let tests = MEASURES.len();
+    let need = stats::seeds_the_test_can_use(tests);
+    let mut warnings = Vec::new();
+    if seeds.len() < 2 {
+        warnings.push(
+            "one seed: the Monte Carlo noise cannot be estimated, so no difference is judged \
+             (every verdict is `unknown`); use --seeds 5 or more"
+                .to_string(),
+        );
+    } else if seeds.len() < need {
+        let crit = stats::t_quantile_two_sided(stats::FAMILY_ALPHA / tests as f64, seeds.len() - 1);
+        let mut w = format!(
+            "{} seeds: with {} degree(s) of freedom a difference must exceed {crit:.1} of its \
+             standard errors to be flagged (the test can use {need} or more seeds, where this \
+             falls within 25 % of its limit); smallest detectable changes:",
+            seeds.len(),
+            seeds.len() - 1
+        );
+        for r in &rows {
+            for (k, d) in r.difference.iter().enumerate() {
+                if d.smallest_detectable.is_finite() {
+                    w.push_str(&format!(
+                        " {} ({}) {:.3e} {};",
+                        r.measure,
+                        variants[k + 1].name,
+                        d.smallest_detectable,
+                        r.unit
+                    ));
+                }
+            }
+        }
+        w.pop();
+        warnings.push(w);
+    }
     Comparison {
         variants: variants.iter().map(|v| v.name.clone()).collect(),
         seeds: seeds.to_vec(),
         rows,
-        rule: "paired differences against the first variant over common seeds; significant \
-               when |mean| > t(0.995, pairs - 1) x standard error (two-sided 99 %)"
-            .into(),
+        rule: format!(
+            "paired differences against the first variant over common seeds; two-sided Student-t \
+             p-values, judged together over the {tests} measures of each variant by Holm's \
+             step-down rule at a family-wise error rate of 1 % (Holm 1979)"
+        ),
+        warnings,
         caution: "Model output: a scientific estimate from a Monte Carlo model, not \
                   flight-operations data."
             .into(),
@@ -226,16 +275,18 @@ fn pm(m: f64, se: f64) -> String {
 pub fn comparison_csv(c: &Comparison) -> String {
     let mut s = String::from(
         "measure,unit,variant,mean,standard_error,difference_from_reference,difference_error,\
-         relative_difference,significant\n",
+         relative_difference,p_value,smallest_detectable_difference,significant\n",
     );
     for r in &c.rows {
         for (k, v) in c.variants.iter().enumerate() {
             // The reference row has no difference from itself: NaN.
+            // A signed measure has no relative difference: NaN.
             let (diff, verdict) = if k == 0 {
-                ([f64::NAN; 3], "reference")
+                ([f64::NAN; 5], "reference")
             } else {
                 let d = &r.difference[k - 1];
-                ([d.mean, d.se, d.mean / r.mean[0]], d.verdict.as_str())
+                let rel = if r.signed { f64::NAN } else { d.mean / r.mean[0] };
+                ([d.mean, d.se, rel, d.p_value, d.smallest_detectable], d.verdict.as_str())
             };
             s.push_str(&format!("{},{},{v}", r.measure, r.unit));
             number::push_cells(&mut s, &[r.mean[k], r.se[k]]);
@@ -255,6 +306,9 @@ pub fn comparison_text(c: &Comparison) -> String {
         c.variants[0],
         c.rule
     );
+    for w in &c.warnings {
+        s.push_str(&format!("WARNING: {w}\n\n"));
+    }
     let w = c.variants.iter().map(|v| v.len()).max().unwrap_or(8).max(9);
     for r in &c.rows {
         s.push_str(&format!("{} [{}]\n", r.measure, r.unit));
@@ -263,12 +317,17 @@ pub fn comparison_text(c: &Comparison) -> String {
                 "reference".to_string()
             } else {
                 let d = &r.difference[k - 1];
-                let rel = 100.0 * d.mean / r.mean[0];
-                format!(
-                    "diff {} ({rel:+.1} %)  beyond noise: {}",
-                    pm(d.mean, d.se),
-                    d.verdict.as_str()
-                )
+                let rel = if r.signed {
+                    String::new()
+                } else {
+                    format!(" ({:+.1} %)", 100.0 * d.mean / r.mean[0])
+                };
+                let p = if d.p_value.is_finite() {
+                    format!(", p = {:.2e}", d.p_value)
+                } else {
+                    String::new()
+                };
+                format!("diff {}{rel}{p}  beyond noise: {}", pm(d.mean, d.se), d.verdict.as_str())
             };
             s.push_str(&format!("  {v:<w$}  {:<24}  {tail}\n", pm(r.mean[k], r.se[k])));
         }

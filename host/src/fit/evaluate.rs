@@ -65,10 +65,11 @@ enum FamilyNoise {
 }
 
 impl Noise {
-    /// Estimate the noise from `points` (pooled over them): from the
-    /// seed-to-seed scatter with two or more seeds, else from the runs' own
-    /// errors (independent part only; the common part is then unknown, 0).
-    pub fn estimate(obs: &[Observation], points: &[&Point]) -> Noise {
+    /// Estimate the noise of a mean over `mean_of` seeds from `points`
+    /// (pooled over them): from the seed-to-seed scatter of points run with
+    /// two or more seeds, else from the runs' own errors (independent part
+    /// only; the common part is then unknown, 0).
+    pub fn estimate(obs: &[Observation], points: &[&Point], mean_of: usize) -> Noise {
         let mut names: Vec<String> = obs.iter().map(|o| o.what.family()).collect();
         names.sort();
         names.dedup();
@@ -78,14 +79,35 @@ impl Noise {
                 let members: Vec<usize> =
                     (0..obs.len()).filter(|&i| obs[i].what.family() == name).collect();
                 let noise = if matches!(obs[members[0]].what, Observable::Summary(_)) {
-                    FamilyNoise::Absolute(summary_variance(members[0], points))
+                    FamilyNoise::Absolute(summary_variance(members[0], points, mean_of))
                 } else {
-                    relative_noise(&members, points)
+                    relative_noise(&members, points, mean_of)
                 };
                 (members, noise)
             })
             .collect();
         Noise { families }
+    }
+
+    /// A line per family: its relative standard errors (common, independent)
+    /// or its absolute one, for logs and fit.json.
+    pub fn describe(&self, obs: &[Observation]) -> String {
+        let parts: Vec<String> = self
+            .families
+            .iter()
+            .map(|(m, n)| match n {
+                FamilyNoise::Relative { common, independent } => format!(
+                    "{}: {:.2} % common, {:.2} % each",
+                    obs[m[0]].what.family(),
+                    100.0 * common.sqrt(),
+                    100.0 * independent.sqrt()
+                ),
+                FamilyNoise::Absolute(v) => {
+                    format!("{}: {:.3e} {}", obs[m[0]].what.family(), v.sqrt(), obs[m[0]].unit)
+                }
+            })
+            .collect();
+        parts.join("; ")
     }
 
     /// Standard error of each model value in `model`, in its unit (the
@@ -138,15 +160,16 @@ impl Noise {
     }
 }
 
-/// The variance of the seeds' mean of summary measure `i`, pooled over `points`.
-fn summary_variance(i: usize, points: &[&Point]) -> f64 {
+/// The variance of a mean over `mean_of` seeds of summary measure `i`,
+/// pooled over `points`.
+fn summary_variance(i: usize, points: &[&Point], mean_of: usize) -> f64 {
     let mut acc = Vec::new();
     for p in points {
         let n = p.per_seed.len();
         if n >= 2 {
             let mean = p.per_seed.iter().map(|s| s[i]).sum::<f64>() / n as f64;
             let v = p.per_seed.iter().map(|s| (s[i] - mean).powi(2)).sum::<f64>() / (n - 1) as f64;
-            acc.push(v / n as f64);
+            acc.push(v / mean_of.max(1) as f64);
         } else if p.own_error[i].is_finite() {
             acc.push(p.own_error[i].powi(2));
         }
@@ -155,10 +178,10 @@ fn summary_variance(i: usize, points: &[&Point]) -> f64 {
     if v.is_finite() { v } else { 0.0 }
 }
 
-/// Common and independent relative variances of the seeds' mean of a
-/// family, pooled over `points` (method of moments: the variance of the
-/// family-mean relative deviation is common + independent / k).
-fn relative_noise(members: &[usize], points: &[&Point]) -> FamilyNoise {
+/// Common and independent relative variances of a mean over `mean_of`
+/// seeds of a family, pooled over `points` (method of moments: the
+/// variance of the family-mean relative deviation is common + independent / k).
+fn relative_noise(members: &[usize], points: &[&Point], mean_of: usize) -> FamilyNoise {
     let k = members.len() as f64;
     let (mut common, mut independent, mut used) = (0.0, 0.0, 0usize);
     let (mut own, mut own_n) = (0.0, 0usize);
@@ -185,8 +208,8 @@ fn relative_noise(members: &[usize], points: &[&Point]) -> FamilyNoise {
                 var_centre
             };
             let c = if members.len() >= 2 { (var_centre - var_each / k).max(0.0) } else { 0.0 };
-            common += c / n as f64;
-            independent += var_each / n as f64;
+            common += c / mean_of.max(1) as f64;
+            independent += var_each / mean_of.max(1) as f64;
             used += 1;
         } else {
             for &i in members {
@@ -320,6 +343,8 @@ pub struct Evaluator<'a> {
     /// Scratch directory for the runs.
     pub work: PathBuf,
     record: Mutex<Record>,
+    /// The noise measured by [`Evaluator::calibrate`], once it has run.
+    noise: Mutex<Option<Noise>>,
 }
 
 impl<'a> Evaluator<'a> {
@@ -342,6 +367,7 @@ impl<'a> Evaluator<'a> {
             runtime,
             work,
             record: Mutex::default(),
+            noise: Mutex::default(),
         }
     }
 
@@ -386,40 +412,11 @@ impl<'a> Evaluator<'a> {
                 }
             }
         }
-        let runs: Vec<(usize, u64)> =
-            (0..todo.len()).flat_map(|p| self.seeds.iter().map(move |&s| (p, s))).collect();
-        let results: Vec<Mutex<Option<Result<(Vec<f64>, Vec<f64>), String>>>> =
-            runs.iter().map(|_| Mutex::new(None)).collect();
-        let next = AtomicUsize::new(0);
-        let failed = AtomicBool::new(false);
-        std::thread::scope(|scope| {
-            for _ in 0..self.jobs.min(runs.len()) {
-                scope.spawn(|| {
-                    loop {
-                        let k = next.fetch_add(1, Ordering::SeqCst);
-                        if k >= runs.len() || failed.load(Ordering::SeqCst) {
-                            break;
-                        }
-                        let (p, seed) = runs[k];
-                        let r = self.run(&todo[p], seed, k);
-                        if r.is_err() {
-                            failed.store(true, Ordering::SeqCst);
-                        }
-                        if let Ok(mut slot) = results[k].lock() {
-                            *slot = Some(r);
-                        }
-                    }
-                });
-            }
-        });
-        let mut per_point: Vec<Vec<(Vec<f64>, Vec<f64>)>> = vec![Vec::new(); todo.len()];
-        for ((p, _), slot) in runs.iter().zip(results) {
-            match slot.into_inner().map_err(|_| "a fit worker failed")? {
-                Some(Ok(v)) => per_point[*p].push(v),
-                Some(Err(e)) => return Err(e),
-                None => return Err("a fit run did not finish".into()),
-            }
-        }
+        let runs: Vec<(Vec<f64>, u64)> =
+            todo.iter().flat_map(|z| self.seeds.iter().map(move |&s| (z.clone(), s))).collect();
+        let mut done = self.run_all(&runs)?.into_iter();
+        let per_point: Vec<Vec<(Vec<f64>, Vec<f64>)>> =
+            todo.iter().map(|_| done.by_ref().take(self.seeds.len()).collect()).collect();
         let mut rec = self.record.lock().map_err(|_| "a fit worker failed")?;
         rec.runs += runs.len();
         let k = self.obs.len();
@@ -435,9 +432,12 @@ impl<'a> Evaluator<'a> {
             };
             rec.points.insert(key(z), point);
         }
-        // chi-square with the noise as known from every point so far.
-        let all: Vec<&Point> = rec.points.values().collect();
-        let noise = Noise::estimate(self.obs, &all);
+        // chi-square with the measured noise, or as known from every point so far.
+        let noise = self.noise();
+        let noise = noise.unwrap_or_else(|| {
+            let all: Vec<&Point> = rec.points.values().collect();
+            Noise::estimate(self.obs, &all, self.seeds.len())
+        });
         let mut lines = Vec::new();
         for z in &todo {
             let chi2 = noise.chi_square(self.obs, &rec.points[&key(z)].model);
@@ -472,6 +472,87 @@ impl<'a> Evaluator<'a> {
             log(l);
         }
         Ok(out)
+    }
+
+    /// Run every (point, seed) of `runs`, `jobs` at a time; the answers in order.
+    fn run_all(&self, runs: &[(Vec<f64>, u64)]) -> Result<Vec<(Vec<f64>, Vec<f64>)>, String> {
+        let results: Vec<Mutex<Option<Result<(Vec<f64>, Vec<f64>), String>>>> =
+            runs.iter().map(|_| Mutex::new(None)).collect();
+        let next = AtomicUsize::new(0);
+        let failed = AtomicBool::new(false);
+        let first = self.record.lock().map(|r| r.runs).unwrap_or(0);
+        std::thread::scope(|scope| {
+            for _ in 0..self.jobs.min(runs.len()) {
+                scope.spawn(|| {
+                    loop {
+                        let k = next.fetch_add(1, Ordering::SeqCst);
+                        if k >= runs.len() || failed.load(Ordering::SeqCst) {
+                            break;
+                        }
+                        let (z, seed) = &runs[k];
+                        let r = self.run(z, *seed, first + k);
+                        if r.is_err() {
+                            failed.store(true, Ordering::SeqCst);
+                        }
+                        if let Ok(mut slot) = results[k].lock() {
+                            *slot = Some(r);
+                        }
+                    }
+                });
+            }
+        });
+        results
+            .into_iter()
+            .map(|slot| match slot.into_inner().map_err(|_| "a fit worker failed")? {
+                Some(r) => r,
+                None => Err("a fit run did not finish".into()),
+            })
+            .collect()
+    }
+
+    /// Measure the model's noise at `z` (a point already evaluated) from
+    /// its seeds and `extra` seeds more, and use it from now on: with the
+    /// fit's own few seeds alone, the common part of the noise would rest
+    /// on one or two differences.
+    pub fn calibrate(
+        &self,
+        z: &[f64],
+        extra: &[u64],
+        log: &(dyn Fn(&str) + Sync),
+    ) -> Result<(), String> {
+        let key: Vec<u64> = z.iter().map(|v| v.to_bits()).collect();
+        let point = self
+            .record
+            .lock()
+            .map_err(|_| "a fit worker failed")?
+            .points
+            .get(&key)
+            .cloned()
+            .ok_or("calibrate: the point was not evaluated")?;
+        let runs: Vec<(Vec<f64>, u64)> = extra.iter().map(|&s| (z.to_vec(), s)).collect();
+        let more = self.run_all(&runs)?;
+        let mut per_seed = point.per_seed.clone();
+        per_seed.extend(more.into_iter().map(|m| m.0));
+        let n = per_seed.len() as f64;
+        let model =
+            (0..self.obs.len()).map(|i| per_seed.iter().map(|s| s[i]).sum::<f64>() / n).collect();
+        let all = Point { z: z.to_vec(), model, per_seed, own_error: point.own_error.clone() };
+        let noise = Noise::estimate(self.obs, &[&all], self.seeds.len());
+        if let Ok(mut r) = self.record.lock() {
+            r.runs += extra.len();
+        }
+        log(&format!(
+            "noise: measured from {} seeds at the best grid point; per observation family: {}",
+            all.per_seed.len(),
+            noise.describe(self.obs)
+        ));
+        *self.noise.lock().map_err(|_| "a fit worker failed")? = Some(noise);
+        Ok(())
+    }
+
+    /// The noise measured by [`Evaluator::calibrate`], if it has run.
+    pub fn noise(&self) -> Option<Noise> {
+        self.noise.lock().ok().and_then(|n| n.clone())
     }
 
     /// One run at `z` with `seed`, into its own scratch directory.
@@ -526,7 +607,7 @@ mod tests {
         let o = [obs(Observable::EquatorColumn(10.0), 10.0, 3.0)];
         // One seed whose own error is 4 (relative 4/14): (14 - 10)^2 / (3^2 + 4^2) = 16 / 25.
         let p = point(vec![vec![14.0]], vec![4.0]);
-        let noise = Noise::estimate(&o, &[&p]);
+        let noise = Noise::estimate(&o, &[&p], 1);
         assert!((noise.chi_square(&o, &[14.0]) - 0.64).abs() < 1e-12);
         assert!((noise.standard_errors(1, &[14.0])[0] - 4.0).abs() < 1e-12);
         assert_eq!(noise.chi_square(&o, &[f64::NAN]), f64::INFINITY);
@@ -540,7 +621,7 @@ mod tests {
             (0..3).map(|k| obs(Observable::EquatorColumn(k as f64), 100.0, 1.0)).collect();
         let seeds: Vec<Vec<f64>> =
             [1.02, 0.98, 1.02, 0.98].iter().map(|f| vec![100.0 * f; 3]).collect();
-        let noise = Noise::estimate(&o, &[&point(seeds, vec![f64::NAN; 3])]);
+        let noise = Noise::estimate(&o, &[&point(seeds, vec![f64::NAN; 3])], 4);
         match &noise.families[0].1 {
             FamilyNoise::Relative { common, independent } => {
                 // Sample variance of (+-0.02) over 4 seeds: 4 x 0.0004 / 3;

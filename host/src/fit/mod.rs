@@ -184,6 +184,8 @@ pub struct FitResult {
     pub chi2_per_dof: f64,
     /// How the best fit and the intervals were found.
     pub method: String,
+    /// The model's Monte Carlo noise used in chi-square, per family of observations.
+    pub model_noise: String,
     /// True if the search stopped on its round cap before the design
     /// matched the interval.
     pub stopped_on_cap: bool,
@@ -205,14 +207,18 @@ pub struct FitResult {
     pub caution: String,
 }
 
+/// Seeds run at the best grid point, besides the fit's own, to measure the model's noise.
+const CALIBRATION_SEEDS: u64 = 6;
+
 /// The method, as fit.json states it.
 const METHOD: &str = "chi2 = sum (model - observed)^2 / (sigma_obs^2 + sigma_model^2), \
-    sigma_model the Monte Carlo standard error of the model value (seed-to-seed with 2+ seeds, \
-    else the run's window-to-window error), pooled within each family of observations; common \
+    sigma_model the Monte Carlo covariance of the model values (a relative shift common to each \
+    family of observations plus independent scatter, measured from the fit's seeds and 6 more at \
+    the best grid point; with one seed, the run's window-to-window errors); common \
     random numbers at every point; a coarse grid, then rounds of a design (centre, +-h and +-2h \
     along each axis, and the 2^d corners at +-h) around the best point, each model value fitted \
     by a quadratic in the scaled parameters (least squares), the surrogate chi2 minimised in the \
-    design's box, and the design moved or resized until it brackets the interval; intervals = \
+    design's box, and the design moved or resized until h is about 3 sigma (the box +-6 sigma); intervals = \
     profile likelihood (Delta chi2 = 1 and 4, minimising over the other parameters, Wilks 1938); \
     correlation from 2 H^-1 of the surrogate chi2";
 
@@ -323,6 +329,13 @@ pub fn fit(
         let pts = ev.batch(&grid, "grid", log)?;
         let start = pts.iter().min_by(|a, b| a.1.total_cmp(&b.1)).map(|p| p.0.z.clone());
         let mut centre = start.unwrap_or_else(|| vec![0.5; d]);
+        // The model's noise, measured once at the best grid point from the
+        // fit's seeds and six more.
+        if settings.seeds.len() >= 2 {
+            let last = settings.seeds.iter().copied().max().unwrap_or(0);
+            let extra: Vec<u64> = (1..=CALIBRATION_SEEDS).map(|k| last.wrapping_add(k)).collect();
+            ev.calibrate(&centre, &extra, log)?;
+        }
         let mut h = vec![0.5 / g as f64; d];
         // 2. Design rounds.
         let mut state: Option<Smooth> = None;
@@ -331,7 +344,12 @@ pub fn fit(
         while rounds < settings.max_rounds.max(1) {
             rounds += 1;
             ev.batch(&design(&centre, &h), &format!("design {rounds}"), log)?;
-            let s = smooth(&ev.points(), obs, &centre, &h)
+            let noise = ev.noise().unwrap_or_else(|| {
+                let pts = ev.points();
+                let all: Vec<&evaluate::Point> = pts.iter().collect();
+                evaluate::Noise::estimate(obs, &all, settings.seeds.len())
+            });
+            let s = smooth(&ev.points(), obs, &centre, &h, noise)
                 .ok_or("the design's evaluations do not determine a quadratic; widen the ranges")?;
             let best = &s.best;
             let on_edge = (0..d).any(|j| {
@@ -345,11 +363,15 @@ pub fn fit(
                 let (lo, hi) = s.one_sigma[j];
                 match (lo, hi) {
                     (Some(a), Some(b)) => {
-                        // The design's box (+-2h) should hold the 2-sigma
-                        // interval with room (h = 1.25 sigma), and not be
-                        // so wide that the quadratic must bend far.
-                        let target = (1.25 * 0.5 * (b - a)).max(1e-4);
-                        if h[j] < 0.8 * target || h[j] > 2.5 * target {
+                        // The design's box (+-2h) should span +-6 sigma:
+                        // wide enough that each model value changes across
+                        // it by several times its Monte Carlo noise (a
+                        // quadratic fitted to noise-dominated points has
+                        // slopes whose noise adds to the curvature of
+                        // chi2 and narrows the interval), and narrow enough
+                        // for a quadratic to follow the model.
+                        let target = (3.0 * 0.5 * (b - a)).max(1e-4);
+                        if h[j] < 0.7 * target || h[j] > 2.5 * target {
                             next_h[j] = target;
                             again = true;
                         }
@@ -443,6 +465,7 @@ pub fn fit(
             dof,
             chi2_per_dof: if dof > 0 { chi2 / dof as f64 } else { f64::NAN },
             method: METHOD.into(),
+            model_noise: s.noise.describe(obs),
             stopped_on_cap,
             rounds,
             residuals: obs
@@ -524,6 +547,7 @@ fn smooth(
     obs: &[Observation],
     centre: &[f64],
     h: &[f64],
+    noise: evaluate::Noise,
 ) -> Option<Smooth> {
     let d = centre.len();
     let region = surrogate::Region {
@@ -543,11 +567,9 @@ fn smooth(
         let y: Vec<f64> = inside.iter().map(|p| p.model[i]).collect();
         quads.push(surrogate::Quadratic::fit(&zs, &y, centre, h)?);
     }
-    // The noise from every point evaluated (it varies little with the parameters).
-    let all: Vec<&evaluate::Point> = points.iter().collect();
     let mut s = Smooth {
         quads,
-        noise: evaluate::Noise::estimate(obs, &all),
+        noise,
         obs: obs.to_vec(),
         region,
         best: centre.to_vec(),
