@@ -413,6 +413,14 @@ pub(crate) fn shift_plot(
     error: Option<&[f64]>,
     markers: Vec<Marker>,
 ) -> LinePlot {
+    // Half a window's spacing of room at each end, so the end points clear the frame.
+    let x_range = match finite_span(&mid_days) {
+        Some((lo, hi)) if mid_days.len() > 1 && hi > lo => {
+            let pad = 0.5 * (hi - lo) / (mid_days.len() - 1) as f64;
+            Some((lo - pad, hi + pad))
+        }
+        _ => None,
+    };
     LinePlot {
         title,
         x_label: "simulated time at the window's middle (d)".into(),
@@ -427,9 +435,17 @@ pub(crate) fn shift_plot(
         markers,
         log_x: false,
         log_y: false,
-        x_range: None,
+        x_range,
         x_ticks: None,
     }
+}
+
+/// The smallest and largest finite value of `x`, if any.
+fn finite_span(x: &[f64]) -> Option<(f64, f64)> {
+    x.iter().filter(|v| v.is_finite()).fold(None, |acc, &v| match acc {
+        None => Some((v, v)),
+        Some((lo, hi)) => Some((lo.min(v), hi.max(v))),
+    })
 }
 
 /// The noise of one window's value in a series `x` with a slow trend, from the mean square

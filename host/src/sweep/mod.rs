@@ -649,7 +649,9 @@ mod tests {
         {
             assert!(dir.join("plots").join(f).is_file(), "{f} missing");
         }
-        std::fs::remove_dir_all(&dir).unwrap();
+        if std::env::var_os("EXOBOUND_KEEP_TEST_OUTPUT").is_none() {
+            std::fs::remove_dir_all(&dir).unwrap();
+        }
         // An old record without the field reads back as linear.
         let mut json = serde_json::to_value(&r.plan).unwrap();
         json.as_object_mut().unwrap().remove("log_spaced");
