@@ -280,11 +280,8 @@ fn data_axis(
 }
 
 /// Checks the cell edges and tick labels of a map; the message of what is wrong.
-fn check_grid(
-    edges: [(&str, &[f64], bool); 2],
-    ticks: [(Option<&[f64]>, Option<&[String]>); 2],
-) -> Result<(), String> {
-    for (axis, e, log) in edges {
+fn check_grid(plot: &MapPlot) -> Result<(), String> {
+    for (axis, e, log) in [("x", &plot.x_edges, plot.x_log), ("y", &plot.y_edges, plot.y_log)] {
         if e.iter().any(|v| !v.is_finite()) || e.windows(2).any(|w| w[1] <= w[0]) {
             return Err(format!("{axis} edges must be finite and strictly increasing"));
         }
@@ -292,7 +289,9 @@ fn check_grid(
             return Err(format!("{axis} edges must be positive on a log axis"));
         }
     }
-    for ((t, l), axis) in ticks.into_iter().zip(["x", "y"]) {
+    let ticks =
+        [("x", &plot.x_ticks, &plot.x_tick_labels), ("y", &plot.y_ticks, &plot.y_tick_labels)];
+    for (axis, t, l) in ticks {
         match (t, l) {
             (None, Some(_)) => return Err(format!("{axis} tick labels need {axis} ticks")),
             (Some(t), Some(l)) if t.len() != l.len() => {
@@ -321,13 +320,7 @@ pub fn draw_map(plot: &MapPlot, path: &Path) -> Result<(), ProductError> {
     {
         return bad(format!("{} marks for a {ny}×{nx} grid", m.mask.len()));
     }
-    if let Err(m) = check_grid(
-        [("x", &plot.x_edges, plot.x_log), ("y", &plot.y_edges, plot.y_log)],
-        [
-            (plot.x_ticks.as_deref(), plot.x_tick_labels.as_deref()),
-            (plot.y_ticks.as_deref(), plot.y_tick_labels.as_deref()),
-        ],
-    ) {
+    if let Err(m) = check_grid(plot) {
         return bad(m);
     }
     canvas::Format::of(path)?;
