@@ -242,3 +242,48 @@ fn a_finished_run_reads_back_as_the_result_it_returned() {
     let e = RunResult::read(&out).unwrap_err();
     assert!(e.contains("latitude.csv` line 2"), "{e}");
 }
+
+#[test]
+fn plot_format_both_writes_every_plot_as_png_and_svg_and_a_bad_format_is_refused() {
+    let tmp = TempDir::new("plot-format");
+    let (png_only, both) = (tmp.path().join("png"), tmp.path().join("both"));
+    let plots_only = "outputs.products=[\"plots\"]".to_string();
+    run_quick(&png_only, std::slice::from_ref(&plots_only));
+    run_quick(&both, &[plots_only, "outputs.plot_format=\"both\"".into()]);
+    let stems = [
+        "column_map",
+        "reservoir_map",
+        "equator_local_time",
+        "latitude_profile",
+        "ledger",
+        "phase_series",
+    ];
+    for stem in stems {
+        let png = std::fs::read(both.join(format!("plots/{stem}.png"))).unwrap();
+        // The PNG does not depend on the key: byte for byte the one of a PNG-only run.
+        assert_eq!(png, std::fs::read(png_only.join(format!("plots/{stem}.png"))).unwrap());
+        assert!(!png_only.join(format!("plots/{stem}.svg")).exists());
+        let svg = std::fs::read_to_string(both.join(format!("plots/{stem}.svg"))).unwrap();
+        // An SVG document (W3C SVG 1.1, section 5.1: the `svg` element in the SVG namespace),
+        // with its title as text.
+        assert!(svg.starts_with("<svg ") && svg.ends_with("</svg>\n"), "{stem}.svg");
+        assert!(svg.contains("xmlns=\"http://www.w3.org/2000/svg\""), "{stem}.svg");
+        assert!(svg.contains("<text ") && svg.contains("font-weight=\"bold\""), "{stem}.svg");
+    }
+    let svg = std::fs::read_to_string(both.join("plots/phase_series.svg")).unwrap();
+    // The key's wrapped lines, each a <text> element, read back as one text.
+    let words: Vec<&str> = svg
+        .split("</text>")
+        .filter_map(|t| t.rsplit_once('>').map(|(_, w)| w))
+        .filter(|w| !w.trim().is_empty())
+        .collect();
+    let key = words.join(" ");
+    assert!(key.contains("mean square successive difference"), "the phase series' key: {key}");
+    let rt = runtime();
+    let e = ScenarioSource::demo(true, &["outputs.plot_format=\"pdf\"".into()])
+        .load(&rt)
+        .map(|_| ())
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("outputs.plot_format") && e.contains("`svg`"), "{e}");
+}

@@ -1,6 +1,11 @@
-//! The colour scale of every map this crate draws, designed here so that equal steps in the data
-//! look like equal steps in brightness: lightness rises linearly in Oklab while the hue turns
-//! from a deep indigo night through plum and rose to sodium-lamp amber and a pale cream.
+//! The colour scales of the maps this crate draws, designed here so that equal steps in the data
+//! look like equal steps in brightness. The sequential scale ([`colour`]) rises linearly in Oklab
+//! lightness while the hue turns from a deep indigo night through plum and rose to sodium-lamp
+//! amber and a pale cream. The diverging scale ([`diverging`]), for signed values such as a
+//! difference between two runs, is two ramps of equal lightness meeting at a light neutral grey
+//! in the middle: slate blue below zero, brick red above, each darkening linearly in Oklab
+//! lightness and gaining chroma with the distance from zero, so that +x and -x look equally
+//! strong and zero looks like nothing.
 //!
 //! Oklab and its inverse are the transforms published by Björn Ottosson, "A perceptual color
 //! space for image processing" (2020); the sRGB transfer curve is IEC 61966-2-1.
@@ -48,10 +53,52 @@ pub fn scale_oklab(t: f64) -> [f64; 3] {
     [l, c * hue.cos(), c * hue.sin()]
 }
 
-/// Chroma along the scale: a cubic Hermite curve through [`CHROMA`] with centred-difference
-/// tangents (one-sided at the ends).
+/// Chroma along the scale: a cubic Hermite curve through [`CHROMA`].
 fn chroma(t: f64) -> f64 {
-    let p = &CHROMA;
+    hermite(&CHROMA, t)
+}
+
+/// Oklab lightness of the diverging scale's neutral middle (zero).
+pub const DIVERGING_L_MIDDLE: f64 = 0.96;
+/// Oklab lightness of both ends of the diverging scale (the largest |value|).
+pub const DIVERGING_L_ENDS: f64 = 0.42;
+/// Oklch hue (degrees) of the negative half of the diverging scale (a slate blue).
+const DIVERGING_HUE_NEGATIVE_DEG: f64 = 252.0;
+/// Oklch hue (degrees) of the positive half of the diverging scale (a brick red).
+const DIVERGING_HUE_POSITIVE_DEG: f64 = 32.0;
+/// Oklch chroma control points (s, C) of each half of the diverging scale, s = |2t - 1| the
+/// distance from the middle: zero at the neutral middle, strongest at three quarters, a little
+/// less at the ends where the dark blue's gamut narrows; both hues stay inside the sRGB gamut
+/// with a margin of at least 0.015 in chroma (checked by the tests).
+const DIVERGING_CHROMA: [(f64, f64); 5] =
+    [(0.0, 0.0), (0.25, 0.055), (0.5, 0.105), (0.75, 0.13), (1.0, 0.11)];
+
+/// The diverging scale's colour at `t` in [0, 1] (clamped; NaN counts as the middle) as 8-bit
+/// sRGB: `t = 0.5` is zero (neutral grey), 0 the most negative value, 1 the most positive.
+pub fn diverging(t: f64) -> (u8, u8, u8) {
+    let [r, g, b] = diverging_srgb(t);
+    (to_byte(r), to_byte(g), to_byte(b))
+}
+
+/// The diverging scale's colour at `t` as gamma-encoded sRGB in [0, 1], before rounding.
+pub fn diverging_srgb(t: f64) -> [f64; 3] {
+    linear_srgb_from_oklab(diverging_oklab(t)).map(|c| encode_srgb(c.clamp(0.0, 1.0)))
+}
+
+/// The diverging scale's colour at `t` in Oklab `[L, a, b]`.
+pub fn diverging_oklab(t: f64) -> [f64; 3] {
+    let t = if t.is_nan() { 0.5 } else { t.clamp(0.0, 1.0) };
+    let s = (2.0 * t - 1.0).abs();
+    let l = DIVERGING_L_MIDDLE - (DIVERGING_L_MIDDLE - DIVERGING_L_ENDS) * s;
+    let hue = if t < 0.5 { DIVERGING_HUE_NEGATIVE_DEG } else { DIVERGING_HUE_POSITIVE_DEG };
+    let c = hermite(&DIVERGING_CHROMA, s);
+    let h = hue.to_radians();
+    [l, c * h.cos(), c * h.sin()]
+}
+
+/// A cubic Hermite curve through the control points `p` (ascending in their first member) with
+/// centred-difference tangents (one-sided at the ends), evaluated at `t`.
+fn hermite(p: &[(f64, f64)], t: f64) -> f64 {
     let i = p.iter().rposition(|&(ti, _)| ti <= t).unwrap_or(0).min(p.len() - 2);
     let (t0, c0) = p[i];
     let (t1, c1) = p[i + 1];
@@ -186,5 +233,58 @@ mod tests {
         let (r1, g1, b1) = colour(1.0);
         // Dark end is bluish (indigo), light end is warm (cream): b > r at 0, r > b at 1.
         assert!(b0 > r0 && b0 > g0 && r1 > b1 && g1 > b1);
+    }
+
+    #[test]
+    fn diverging_zero_is_the_neutral_middle_and_the_ends_match_in_lightness() {
+        // Zero (t = 0.5) has no chroma: a = b = 0, a grey (Ottosson 2020: a = b = 0 is achromatic).
+        let [l, a, b] = diverging_oklab(0.5);
+        assert_eq!((l, a, b), (DIVERGING_L_MIDDLE, 0.0, 0.0));
+        let (r, g, bl) = diverging(0.5);
+        assert!(r == g && g == bl && r > 235, "neutral middle is {:?}", (r, g, bl));
+        // Symmetric points have equal Oklab lightness, measured back from the 8-bit colours
+        // (rounding to bytes moves L by up to ~0.0015).
+        for i in 0..=50 {
+            let d = f64::from(i) / 100.0;
+            let (lo, hi) = (lightness(diverging(0.5 - d)), lightness(diverging(0.5 + d)));
+            assert!((lo - hi).abs() < 0.003, "d = {d}: L {lo} below zero, {hi} above");
+        }
+        assert!((lightness(diverging(0.0)) - DIVERGING_L_ENDS).abs() < 0.003);
+        // The two halves differ in hue: blue below zero, red above.
+        let (r0, _, b0) = diverging(0.0);
+        let (r1, _, b1) = diverging(1.0);
+        assert!(b0 > r0 && r1 > b1);
+        assert_eq!(diverging(f64::NAN), diverging(0.5));
+        assert_eq!(diverging(-2.0), diverging(0.0));
+    }
+
+    #[test]
+    fn diverging_lightness_falls_monotonically_from_the_middle_to_each_end() {
+        // Before rounding: linear in |2t - 1| to 1e-9 (no gamut clipping); after rounding to
+        // bytes: strictly falling at 33 samples per half.
+        let n = 200;
+        let step = (DIVERGING_L_MIDDLE - DIVERGING_L_ENDS) / f64::from(n);
+        let l_of = |t: f64| oklab_from_linear_srgb(diverging_srgb(t).map(decode_srgb))[0];
+        for i in 0..n {
+            for sign in [-1.0, 1.0] {
+                let (a, b) = (f64::from(i) / f64::from(2 * n), f64::from(i + 1) / f64::from(2 * n));
+                let drop = l_of(0.5 + sign * a) - l_of(0.5 + sign * b);
+                assert!((drop - step).abs() < 1e-9, "step {i} on side {sign}: {drop}");
+            }
+        }
+        for sign in [-1.0, 1.0] {
+            let ls: Vec<f64> =
+                (0..=32).map(|i| lightness(diverging(0.5 + sign * f64::from(i) / 64.0))).collect();
+            assert!(ls.windows(2).all(|w| w[1] < w[0]), "side {sign}: {ls:?}");
+        }
+    }
+
+    #[test]
+    fn every_diverging_colour_is_inside_the_srgb_gamut() {
+        for i in 0..=1000 {
+            let t = f64::from(i) / 1000.0;
+            let lin = linear_srgb_from_oklab(diverging_oklab(t));
+            assert!(lin.iter().all(|&c| (-1e-9..=1.0 + 1e-9).contains(&c)), "t={t}: {lin:?}");
+        }
     }
 }

@@ -1,15 +1,18 @@
-//! The run's PNG figures: gridded maps (column density over local time and latitude, reservoir
-//! over longitude and latitude, source and loss maps) and line plots (profiles with marked
-//! points, reference curves, ledgers over time). The host fills a plain description; the layout
-//! (left-aligned title, key panel on the right, colour bar with its unit) is decided here.
+//! The run's figures: gridded maps (column density over local time and latitude, reservoir
+//! over longitude and latitude, signed differences between runs, sweep maps over two
+//! parameters) and line plots (profiles with marked points, reference curves, ledgers over
+//! time). The host fills a plain description; the layout (left-aligned title, key panel on the
+//! right, colour bar with its unit) is decided here. Each figure is drawn once for any plotters
+//! backend and written as PNG or SVG by the file's extension ([`crate::canvas`]).
 
 use std::path::Path;
 
-use crate::colour::colour;
+use crate::ProductError;
+use crate::canvas::{self, DrawError, DrawResult, Figure};
+use crate::colour::{colour, diverging};
 use crate::font::{FAMILY, ensure_registered};
 use crate::text::{Align, Baseline, Label, Weight, text_width};
-use crate::ticks::Axis;
-use crate::{ProductError, raster};
+use crate::ticks::{Axis, format_number};
 use plotters::coord::Shift;
 use plotters::coord::ranged1d::{DefaultFormatting, KeyPointHint, Ranged};
 use plotters::element::DashedPathElement;
@@ -20,6 +23,67 @@ pub const MAP_SIZE: (u32, u32) = (1040, 600);
 /// Size of a line figure, in pixels (width, height).
 pub const LINE_SIZE: (u32, u32) = (1040, 600);
 
+/// How a map's values become colours.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ColourScale {
+    /// The sequential scale, linear in the value.
+    Linear,
+    /// The sequential scale, linear in log10 of the value (non-positive cells are drawn grey).
+    Log,
+    /// The diverging scale for signed values: limits ±max|value|, zero at the neutral middle.
+    Diverging,
+}
+
+impl ColourScale {
+    /// The colour coordinate of value `v` (log10 on a log scale), None where there is none.
+    fn coordinate(self, v: f64) -> Option<f64> {
+        match self {
+            Self::Log if v > 0.0 && v.is_finite() => Some(v.log10()),
+            Self::Linear | Self::Diverging if v.is_finite() => Some(v),
+            _ => None,
+        }
+    }
+
+    /// The colour at fraction `t` of the colour bar.
+    fn colour(self, t: f64) -> (u8, u8, u8) {
+        match self {
+            Self::Diverging => diverging(t),
+            Self::Linear | Self::Log => colour(t),
+        }
+    }
+
+    /// The colour bar's axis for colour coordinates `coords`.
+    fn bar(self, coords: impl Iterator<Item = f64>) -> Axis {
+        if self == Self::Diverging {
+            let m = coords.filter(|c| c.is_finite()).fold(0.0f64, |m, c| m.max(c.abs()));
+            let m = if m > 0.0 { m } else { 1.0 };
+            return Axis::linear(-m, m, None, 6);
+        }
+        let (mut lo, mut hi) = finite_extent(coords).unwrap_or((0.0, 1.0));
+        if hi <= lo {
+            let pad = if self == Self::Log { 0.5 } else { lo.abs().max(1.0) * 0.5 };
+            (lo, hi) = (lo - pad, hi + pad);
+        }
+        if self == Self::Log { Axis::log10(lo, hi, 7) } else { Axis::linear(lo, hi, None, 6) }
+    }
+
+    /// What the grey cells stand for.
+    fn no_data_text(self) -> &'static str {
+        if self == Self::Log { "no data or ≤ 0" } else { "no data" }
+    }
+}
+
+/// Cells of a map singled out by a mark (a dot in the cell), with the key entry saying what a
+/// mark means; e.g. the cells of a difference map where the difference is within the noise.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CellMarks {
+    /// Which cells are marked, row-major `[y][x]` like the values; empty when no cell could be
+    /// judged (the key then shows `label` alone, without a marked swatch).
+    pub mask: Vec<bool>,
+    /// Key text: what a marked cell means, or why no cell is marked.
+    pub label: String,
+}
+
 /// A gridded field drawn as coloured cells, with a colour bar.
 #[derive(Debug, Clone, PartialEq)]
 pub struct MapPlot {
@@ -29,20 +93,30 @@ pub struct MapPlot {
     pub x_label: String,
     /// Vertical axis label, with its unit, e.g. "latitude (°)".
     pub y_label: String,
-    /// Cell edges along x, strictly increasing (nx + 1 values).
+    /// Cell edges along x, strictly increasing (nx + 1 values; positive on a log axis).
     pub x_edges: Vec<f64>,
-    /// Cell edges along y, strictly increasing (ny + 1 values).
+    /// Cell edges along y, strictly increasing (ny + 1 values; positive on a log axis).
     pub y_edges: Vec<f64>,
     /// Cell values, row-major `[y][x]` (ny × nx); NaN cells are drawn grey.
     pub values: Vec<f64>,
     /// Colour-bar label, with the unit, e.g. "Na column (m⁻²)".
     pub colour_label: String,
-    /// Colour by log10 of the value (non-positive cells are then drawn grey).
-    pub log_scale: bool,
-    /// Tick positions along x (default: round values).
+    /// How values become colours.
+    pub scale: ColourScale,
+    /// Cells to mark, with their key entry.
+    pub marks: Option<CellMarks>,
+    /// Logarithmic x axis (cells and overlays placed by log10 of x).
+    pub x_log: bool,
+    /// Logarithmic y axis.
+    pub y_log: bool,
+    /// Tick positions along x, in data units (default: round values, or decades on a log axis).
     pub x_ticks: Option<Vec<f64>>,
-    /// Tick positions along y (default: round values).
+    /// Tick positions along y, in data units.
     pub y_ticks: Option<Vec<f64>>,
+    /// The text of each of `x_ticks` (default: the numbers).
+    pub x_tick_labels: Option<Vec<String>>,
+    /// The text of each of `y_ticks` (default: the numbers).
+    pub y_tick_labels: Option<Vec<String>>,
     /// Lines drawn over the cells (terminators, a limb, a scale bar), in data coordinates.
     pub overlays: Vec<Overlay>,
 }
@@ -108,11 +182,13 @@ pub struct LinePlot {
     pub lines: Vec<Line>,
     /// Labelled vertical lines.
     pub markers: Vec<Marker>,
+    /// Logarithmic x axis (only positive abscissae are shown).
+    pub log_x: bool,
     /// Logarithmic y axis (only positive values are shown).
     pub log_y: bool,
-    /// Fixed x range (default: the extent of the data).
+    /// Fixed x range, in data units (default: the extent of the data).
     pub x_range: Option<(f64, f64)>,
-    /// Tick positions along x (default: round values).
+    /// Tick positions along x, in data units (default: round values, or decades on a log axis).
     pub x_ticks: Option<Vec<f64>>,
 }
 
@@ -128,6 +204,8 @@ const TICK_SIZE: f64 = 16.0;
 const AXIS_LABEL_SIZE: f64 = 17.0;
 /// Key and marker text size.
 const KEY_SIZE: f64 = 15.0;
+/// Line spacing of wrapped key text.
+const KEY_LINE: i32 = 19;
 /// Space above the chart taken by the title.
 const TITLE_BAND: u32 = 58;
 /// Height of one row of marker labels above the chart.
@@ -166,11 +244,66 @@ const SERIES: [RGBColor; 6] = [
 ];
 
 /// A chart whose two axes are this crate's [`Axis`].
-type Chart<'a, 'b> = ChartContext<'a, BitMapBackend<'b>, Cartesian2d<Axis, Axis>>;
+type Chart<'a, DB> = ChartContext<'a, DB, Cartesian2d<Axis, Axis>>;
 /// The root drawing area of a figure.
-type Root<'a> = DrawingArea<BitMapBackend<'a>, Shift>;
+type Root<DB> = DrawingArea<DB, Shift>;
 
-/// Draws `plot` as a PNG of [`MAP_SIZE`] at `path`.
+/// The value `v` in the coordinate of an axis: log10 on a log axis (NaN where not positive).
+fn axis_coord(log: bool, v: f64) -> f64 {
+    match log {
+        true if v > 0.0 => v.log10(),
+        true => f64::NAN,
+        false => v,
+    }
+}
+
+/// An axis from data value `lo` to `hi`: linear or log10, with `ticks` (data units) if given,
+/// written as `labels` if given (else as numbers), or about `target` round ones.
+fn data_axis(
+    (lo, hi): (f64, f64),
+    log: bool,
+    ticks: Option<&[f64]>,
+    labels: Option<&[String]>,
+    target: usize,
+) -> Axis {
+    let f = |v: f64| axis_coord(log, v);
+    let at = |t: &[f64]| t.iter().map(|&v| f(v)).collect::<Vec<f64>>();
+    match (ticks, labels, log) {
+        (Some(t), Some(l), _) => Axis::labelled(f(lo), f(hi), &at(t), l),
+        (Some(t), None, true) => {
+            let l: Vec<String> = t.iter().map(|&v| format_number(v, v)).collect();
+            Axis::labelled(f(lo), f(hi), &at(t), &l)
+        }
+        (None, _, true) => Axis::log10(f(lo), f(hi), target),
+        (t, _, false) => Axis::linear(lo, hi, t, target),
+    }
+}
+
+/// Checks the cell edges and tick labels of a map; the message of what is wrong.
+fn check_grid(plot: &MapPlot) -> Result<(), String> {
+    for (axis, e, log) in [("x", &plot.x_edges, plot.x_log), ("y", &plot.y_edges, plot.y_log)] {
+        if e.iter().any(|v| !v.is_finite()) || e.windows(2).any(|w| w[1] <= w[0]) {
+            return Err(format!("{axis} edges must be finite and strictly increasing"));
+        }
+        if log && e.first().is_some_and(|&v| v <= 0.0) {
+            return Err(format!("{axis} edges must be positive on a log axis"));
+        }
+    }
+    let ticks =
+        [("x", &plot.x_ticks, &plot.x_tick_labels), ("y", &plot.y_ticks, &plot.y_tick_labels)];
+    for (axis, t, l) in ticks {
+        match (t, l) {
+            (None, Some(_)) => return Err(format!("{axis} tick labels need {axis} ticks")),
+            (Some(t), Some(l)) if t.len() != l.len() => {
+                return Err(format!("{} {axis} ticks but {} labels", t.len(), l.len()));
+            }
+            _ => {}
+        }
+    }
+    Ok(())
+}
+
+/// Draws `plot` as a figure of [`MAP_SIZE`] at `path` (`.png` or `.svg`).
 pub fn draw_map(plot: &MapPlot, path: &Path) -> Result<(), ProductError> {
     let nx = plot.x_edges.len().saturating_sub(1);
     let ny = plot.y_edges.len().saturating_sub(1);
@@ -181,81 +314,154 @@ pub fn draw_map(plot: &MapPlot, path: &Path) -> Result<(), ProductError> {
     if plot.values.len() != nx * ny {
         return bad(format!("{} values for a {ny}×{nx} grid", plot.values.len()));
     }
-    for (axis, edges) in [("x", &plot.x_edges), ("y", &plot.y_edges)] {
-        if edges.iter().any(|e| !e.is_finite()) || edges.windows(2).any(|w| w[1] <= w[0]) {
-            return bad(format!("{axis} edges must be finite and strictly increasing"));
-        }
+    if let Some(m) = &plot.marks
+        && !m.mask.is_empty()
+        && m.mask.len() != nx * ny
+    {
+        return bad(format!("{} marks for a {ny}×{nx} grid", m.mask.len()));
     }
+    if let Err(m) = check_grid(plot) {
+        return bad(m);
+    }
+    canvas::Format::of(path)?;
     ensure_registered().map_err(|e| e.in_file(path))?;
 
-    // Colour coordinate of each cell (log10 if asked), None where there is no value.
-    let coord: Vec<Option<f64>> = plot
-        .values
+    // Colour coordinate of each cell (log10 on a log scale), None where there is no value.
+    let coord: Vec<Option<f64>> = plot.values.iter().map(|&v| plot.scale.coordinate(v)).collect();
+    let bar = plot.scale.bar(coord.iter().flatten().copied());
+    let xf: Vec<f64> = plot.x_edges.iter().map(|&v| axis_coord(plot.x_log, v)).collect();
+    let yf: Vec<f64> = plot.y_edges.iter().map(|&v| axis_coord(plot.y_log, v)).collect();
+    let x_extent = (plot.x_edges[0], plot.x_edges[nx]);
+    let y_extent = (plot.y_edges[0], plot.y_edges[ny]);
+    let xa =
+        data_axis(x_extent, plot.x_log, plot.x_ticks.as_deref(), plot.x_tick_labels.as_deref(), 8);
+    let ya =
+        data_axis(y_extent, plot.y_log, plot.y_ticks.as_deref(), plot.y_tick_labels.as_deref(), 6);
+    let overlays = plot
+        .overlays
         .iter()
-        .map(|&v| match plot.log_scale {
-            true if v > 0.0 && v.is_finite() => Some(v.log10()),
-            false if v.is_finite() => Some(v),
-            _ => None,
+        .map(|o| Overlay {
+            points: o
+                .points
+                .iter()
+                .map(|&(x, y)| (axis_coord(plot.x_log, x), axis_coord(plot.y_log, y)))
+                .collect(),
+            ..o.clone()
         })
         .collect();
-    let (mut lo, mut hi) = finite_extent(coord.iter().flatten().copied()).unwrap_or((0.0, 1.0));
-    if hi <= lo {
-        let pad = if plot.log_scale { 0.5 } else { lo.abs().max(1.0) * 0.5 };
-        (lo, hi) = (lo - pad, hi + pad);
-    }
-    let bar = if plot.log_scale { Axis::log10(lo, hi, 7) } else { Axis::linear(lo, hi, None, 6) };
-    let any_missing = coord.iter().any(Option::is_none);
-    let (x0, x1) = (plot.x_edges[0], plot.x_edges[nx]);
-    let (y0, y1) = (plot.y_edges[0], plot.y_edges[ny]);
-    let xa = Axis::linear(x0, x1, plot.x_ticks.as_deref(), 8);
-    let ya = Axis::linear(y0, y1, plot.y_ticks.as_deref(), 6);
+    let figure = MapFigure { plot, coord, bar, xa, ya, xf, yf, overlays };
+    canvas::render(path, MAP_SIZE, &figure)
+}
 
-    raster::render(path, MAP_SIZE, |root, labels| {
+/// A [`MapPlot`] made ready to draw: colour coordinates, axes, and cell edges and overlays in
+/// axis coordinates.
+struct MapFigure<'p> {
+    plot: &'p MapPlot,
+    coord: Vec<Option<f64>>,
+    bar: Axis,
+    xa: Axis,
+    ya: Axis,
+    xf: Vec<f64>,
+    yf: Vec<f64>,
+    overlays: Vec<Overlay>,
+}
+
+impl Figure for MapFigure<'_> {
+    fn draw<DB: DrawingBackend>(&self, root: &Root<DB>, labels: &mut Vec<Label>) -> DrawResult<DB> {
+        let Self { plot, coord, bar, xa, ya, xf, yf, overlays } = self;
+        let (nx, ny) = (xf.len() - 1, yf.len() - 1);
+        let scale = plot.scale;
         let (w, _) = MAP_SIZE;
         labels.push(title(&plot.title));
         let area = root.margin(TITLE_BAND, 10, SIDE_GAP, 0);
         let (chart_area, _) = area.split_horizontally(w - BAR_PANEL);
-        let mut chart = frame(&chart_area, &xa, &ya, false)?;
+        let mut chart = frame(&chart_area, xa, ya, false)?;
         chart.draw_series((0..ny).flat_map(|j| (0..nx).map(move |i| (i, j))).map(|(i, j)| {
             let fill = match coord[j * nx + i] {
-                Some(c) => rgb(colour(bar.fraction(c))),
+                Some(c) => rgb(scale.colour(bar.fraction(c))),
                 None => NO_DATA,
             };
-            Rectangle::new(
-                [(plot.x_edges[i], plot.y_edges[j]), (plot.x_edges[i + 1], plot.y_edges[j + 1])],
-                fill.filled(),
-            )
+            Rectangle::new([(xf[i], yf[j]), (xf[i + 1], yf[j + 1])], fill.filled())
         }))?;
+        let marks = plot.marks.as_ref();
+        if let Some(m) = marks.filter(|m| !m.mask.is_empty()) {
+            for j in 0..ny {
+                for i in 0..nx {
+                    if !m.mask[j * nx + i] || coord[j * nx + i].is_none() {
+                        continue;
+                    }
+                    let (a, b) = (
+                        chart.backend_coord(&(xf[i], yf[j])),
+                        chart.backend_coord(&(xf[i + 1], yf[j + 1])),
+                    );
+                    let centre = ((a.0 + b.0) / 2, (a.1 + b.1) / 2);
+                    let room = f64::from((b.0 - a.0).abs().min((b.1 - a.1).abs()));
+                    mark_dot(root, centre, room)?;
+                }
+            }
+        }
+        let (x0, x1, y0, y1) = (xf[0], xf[nx], yf[0], yf[ny]);
         chart.draw_series([Rectangle::new([(x0, y0), (x1, y1)], INK.stroke_width(1))])?;
-        for o in &plot.overlays {
+        for o in overlays {
             draw_overlay(&mut chart, o, (x0, x1, y0, y1), labels)?;
         }
-        axis_text(&chart, &xa, &ya, &plot.x_label, &plot.y_label, labels);
+        axis_text(&chart, xa, ya, &plot.x_label, &plot.y_label, labels);
 
         let (_, py) = chart.plotting_area().get_pixel_range();
         let bar_left = (w - BAR_PANEL) as i32 + 12;
-        let widest = colour_bar(root, &bar, bar_left, py.start, py.end - 1, labels)?;
+        // The marks' key entry takes the foot of the colour bar's column.
+        let text_left = bar_left + BAR_WIDTH + 8;
+        let room = f64::from(w as i32 - text_left - 8);
+        let mark_lines = marks.map(|m| wrap(&m.label, room)).unwrap_or_default();
+        let reserved =
+            if mark_lines.is_empty() { 0 } else { 26 + KEY_LINE * mark_lines.len() as i32 };
+        let bar_bottom = py.end - 1 - reserved;
+        let widest = colour_bar(root, bar, scale, bar_left, py.start, bar_bottom, labels)?;
         let label_x = f64::from(bar_left + BAR_WIDTH + 10) + widest + 14.0;
-        let label_y = f64::from(py.start + py.end) / 2.0;
+        let label_y = f64::from(py.start + bar_bottom + 1) / 2.0;
         labels.push(
             Label::new(&plot.colour_label, (label_x, label_y), AXIS_LABEL_SIZE, INK_RGB)
                 .anchored(Align::Middle, Baseline::Top)
                 .upright(),
         );
-        if any_missing {
+        if let Some(m) = marks
+            && !mark_lines.is_empty()
+        {
+            let top = bar_bottom + 20;
+            let with_swatch = !m.mask.is_empty();
+            if with_swatch {
+                let swatch = [(bar_left, top), (bar_left + BAR_WIDTH, top + 14)];
+                root.draw(&Rectangle::new(swatch, rgb(scale.colour(0.5)).filled()))?;
+                root.draw(&Rectangle::new(swatch, INK.stroke_width(1)))?;
+                mark_dot(root, (bar_left + BAR_WIDTH / 2, top + 7), 14.0)?;
+            }
+            let left = if with_swatch { text_left } else { bar_left };
+            for (n, text) in mark_lines.iter().enumerate() {
+                let at = (f64::from(left), f64::from(top + 7 + KEY_LINE * n as i32));
+                labels.push(Label::new(text, at, KEY_SIZE, INK_RGB));
+            }
+        }
+        if coord.iter().any(Option::is_none) {
             let top = py.end + 22;
             let swatch = [(bar_left, top), (bar_left + BAR_WIDTH, top + 14)];
             root.draw(&Rectangle::new(swatch, NO_DATA.filled()))?;
             root.draw(&Rectangle::new(swatch, INK.stroke_width(1)))?;
-            let text = if plot.log_scale { "no data or ≤ 0" } else { "no data" };
             let at = (f64::from(bar_left + BAR_WIDTH + 8), f64::from(top + 7));
-            labels.push(Label::new(text, at, KEY_SIZE, INK_RGB));
+            labels.push(Label::new(scale.no_data_text(), at, KEY_SIZE, INK_RGB));
         }
         Ok(())
-    })
+    }
 }
 
-/// Draws `plot` as a PNG of [`LINE_SIZE`] at `path`.
+/// The mark of a cell: a dark dot in a white ring at pixel `centre`, sized to a cell whose
+/// smaller side is `room` pixels (readable on every colour of both scales).
+fn mark_dot<DB: DrawingBackend>(root: &Root<DB>, centre: (i32, i32), room: f64) -> DrawResult<DB> {
+    let r = (0.22 * room).clamp(1.0, 3.0);
+    root.draw(&Circle::new(centre, r + 1.2, WHITE.filled()))?;
+    root.draw(&Circle::new(centre, r, INK.filled()))
+}
+
+/// Draws `plot` as a figure of [`LINE_SIZE`] at `path` (`.png` or `.svg`).
 pub fn draw_lines(plot: &LinePlot, path: &Path) -> Result<(), ProductError> {
     for line in &plot.lines {
         let bad = |m: &str| {
@@ -269,25 +475,35 @@ pub fn draw_lines(plot: &LinePlot, path: &Path) -> Result<(), ProductError> {
         }
     }
     if let Some((a, b)) = plot.x_range
-        && !(a.is_finite() && b.is_finite() && b > a)
+        && !(a.is_finite() && b.is_finite() && b > a && (!plot.log_x || a > 0.0))
     {
-        let m = format!("`{}`: x_range must be finite and increasing", plot.title);
+        let m = format!(
+            "`{}`: x_range must be finite and increasing (positive on a log axis)",
+            plot.title
+        );
         return Err(ProductError::file(path, m));
     }
+    canvas::Format::of(path)?;
     ensure_registered().map_err(|e| e.in_file(path))?;
 
-    let (x0, x1) = plot.x_range.unwrap_or_else(|| {
-        let xs = plot.lines.iter().flat_map(|l| l.x.iter().copied());
-        widen(finite_extent(xs).unwrap_or((0.0, 1.0)), 0.5)
-    });
-    let ycoord = |y: f64| if plot.log_y { if y > 0.0 { y.log10() } else { f64::NAN } } else { y };
+    let xcoord = |x: f64| axis_coord(plot.log_x, x);
+    let (x0, x1) = match plot.x_range {
+        Some((a, b)) => (xcoord(a), xcoord(b)),
+        None => {
+            let xs = plot.lines.iter().flat_map(|l| l.x.iter().map(|&x| xcoord(x)));
+            widen(finite_extent(xs).unwrap_or((0.0, 1.0)), 0.5)
+        }
+    };
+    let ycoord = |y: f64| axis_coord(plot.log_y, y);
     let ys = plot.lines.iter().flat_map(|l| {
-        (0..l.y.len()).filter(|&i| l.x[i] >= x0 && l.x[i] <= x1).flat_map(move |i| {
-            let e = l.y_err.as_ref().map_or(0.0, |e| e[i].abs());
-            let e = if e.is_finite() { e } else { 0.0 };
-            let lower = if plot.log_y && l.y[i] - e <= 0.0 { l.y[i] } else { l.y[i] - e };
-            [lower, l.y[i] + e]
-        })
+        (0..l.y.len()).filter(|&i| xcoord(l.x[i]) >= x0 && xcoord(l.x[i]) <= x1).flat_map(
+            move |i| {
+                let e = l.y_err.as_ref().map_or(0.0, |e| e[i].abs());
+                let e = if e.is_finite() { e } else { 0.0 };
+                let lower = if plot.log_y && l.y[i] - e <= 0.0 { l.y[i] } else { l.y[i] - e };
+                [lower, l.y[i] + e]
+            },
+        )
     });
     let y_extent = finite_extent(ys.map(ycoord));
     let any_point = y_extent.is_some();
@@ -296,15 +512,27 @@ pub fn draw_lines(plot: &LinePlot, path: &Path) -> Result<(), ProductError> {
     let pad = 0.05 * (y1 - y0);
     let (y0, y1) = (y0 - pad, y1 + pad);
     let ya = if plot.log_y { Axis::log10(y0, y1, 8) } else { Axis::linear(y0, y1, None, 6) };
-    let xa = Axis::linear(x0, x1, plot.x_ticks.as_deref(), 8);
+    let xa = match (plot.log_x, plot.x_ticks.as_deref()) {
+        (true, Some(t)) => {
+            let at: Vec<f64> = t.iter().map(|&v| xcoord(v)).collect();
+            let text: Vec<String> = t.iter().map(|&v| format_number(v, v)).collect();
+            Axis::labelled(x0, x1, &at, &text)
+        }
+        (true, None) => Axis::log10(x0, x1, 8),
+        (false, t) => Axis::linear(x0, x1, t, 8),
+    };
 
     // Marker labels go in rows above the chart, a label moving down a row when it would
     // overlap one already placed; the chart's pixel span is known from the layout constants.
     let (w, _) = LINE_SIZE;
     let plot_left = f64::from(2 * SIDE_GAP + Y_LABEL_AREA);
     let plot_right = f64::from(w - KEY_PANEL - SIDE_GAP);
-    let markers: Vec<&Marker> =
-        plot.markers.iter().filter(|m| m.x.is_finite() && m.x >= x0 && m.x <= x1).collect();
+    let markers: Vec<Marker> = plot
+        .markers
+        .iter()
+        .map(|m| Marker { x: xcoord(m.x), label: m.label.clone() })
+        .filter(|m| m.x.is_finite() && m.x >= x0 && m.x <= x1)
+        .collect();
     let mut row_ends: Vec<f64> = Vec::new();
     let mut rows = Vec::new();
     for m in &markers {
@@ -319,14 +547,37 @@ pub fn draw_lines(plot: &LinePlot, path: &Path) -> Result<(), ProductError> {
         rows.push(row);
     }
     let top = TITLE_BAND + MARKER_ROW * row_ends.len() as u32;
+    let figure = LineFigure { plot, xa, ya, x0, x1, any_point, markers, rows, top };
+    canvas::render(path, LINE_SIZE, &figure)
+}
 
-    raster::render(path, LINE_SIZE, |root, labels| {
+/// A [`LinePlot`] made ready to draw: axes, x extent in axis coordinates, and the marker
+/// labels' rows.
+struct LineFigure<'p> {
+    plot: &'p LinePlot,
+    xa: Axis,
+    ya: Axis,
+    x0: f64,
+    x1: f64,
+    any_point: bool,
+    markers: Vec<Marker>,
+    rows: Vec<usize>,
+    top: u32,
+}
+
+impl Figure for LineFigure<'_> {
+    fn draw<DB: DrawingBackend>(&self, root: &Root<DB>, labels: &mut Vec<Label>) -> DrawResult<DB> {
+        let Self { plot, xa, ya, x0, x1, any_point, markers, rows, top } = self;
+        let (x0, x1) = (*x0, *x1);
+        let (w, _) = LINE_SIZE;
+        let xcoord = |x: f64| axis_coord(plot.log_x, x);
+        let ycoord = |y: f64| axis_coord(plot.log_y, y);
         labels.push(title(&plot.title));
-        let area = root.margin(top, 10, SIDE_GAP, 0);
+        let area = root.margin(*top, 10, SIDE_GAP, 0);
         let (chart_area, _) = area.split_horizontally(w - KEY_PANEL);
-        let mut chart = frame(&chart_area, &xa, &ya, true)?;
+        let mut chart = frame(&chart_area, xa, ya, true)?;
 
-        for (m, row) in markers.iter().zip(&rows) {
+        for (m, row) in markers.iter().zip(rows) {
             let dash =
                 DashedLineSeries::new([(m.x, ya.lo), (m.x, ya.hi)], 6, 5, SOFT_INK.stroke_width(1));
             chart.draw_series(dash)?;
@@ -342,7 +593,7 @@ pub fn draw_lines(plot: &LinePlot, path: &Path) -> Result<(), ProductError> {
         for (k, line) in plot.lines.iter().enumerate() {
             let ink = SERIES[k % SERIES.len()];
             let pts: Vec<(f64, f64)> =
-                line.x.iter().zip(&line.y).map(|(&x, &y)| (x, ycoord(y))).collect();
+                line.x.iter().zip(&line.y).map(|(&x, &y)| (xcoord(x), ycoord(y))).collect();
             if let Some(err) = &line.y_err {
                 for (i, &(x, y)) in pts.iter().enumerate() {
                     let e = err[i].abs();
@@ -395,7 +646,7 @@ pub fn draw_lines(plot: &LinePlot, path: &Path) -> Result<(), ProductError> {
         }
         let border = Rectangle::new([(x0, ya.lo), (x1, ya.hi)], INK.stroke_width(1));
         chart.draw_series([border])?;
-        axis_text(&chart, &xa, &ya, &plot.x_label, &plot.y_label, labels);
+        axis_text(&chart, xa, ya, &plot.x_label, &plot.y_label, labels);
 
         let (px, py) = chart.plotting_area().get_pixel_range();
         if !any_point {
@@ -407,7 +658,7 @@ pub fn draw_lines(plot: &LinePlot, path: &Path) -> Result<(), ProductError> {
         }
         key(root, &plot.lines, (w - KEY_PANEL) as i32 + 8, py.start + 4, labels)?;
         Ok(())
-    })
+    }
 }
 
 /// An [`Axis`] is a plotters coordinate: linear in its own coordinate, ticks where it says
@@ -432,12 +683,12 @@ impl Ranged for Axis {
 
 /// The chart on `area`: axes with tick marks (numbers are painted later by [`axis_text`]) and,
 /// if `grid`, grid lines at the ticks and minor positions.
-fn frame<'a, 'b>(
-    area: &'a Root<'b>,
+fn frame<'a, DB: DrawingBackend>(
+    area: &'a Root<DB>,
     xa: &Axis,
     ya: &Axis,
     grid: bool,
-) -> Result<Chart<'a, 'b>, raster::DrawError> {
+) -> Result<Chart<'a, DB>, DrawError<DB>> {
     let mut chart = ChartBuilder::on(area)
         .margin_right(SIDE_GAP)
         .margin_left(SIDE_GAP)
@@ -446,7 +697,7 @@ fn frame<'a, 'b>(
         .build_cartesian_2d(xa.clone(), ya.clone())?;
     let mut mesh = chart.configure_mesh();
     mesh.axis_style(INK)
-        .label_style((FAMILY, TICK_SIZE))
+        .label_style(unseen((FAMILY, TICK_SIZE)))
         .axis_desc_style((FAMILY, AXIS_LABEL_SIZE))
         .set_all_tick_mark_size(6)
         .bold_line_style(GRID_MAJOR)
@@ -464,12 +715,12 @@ fn frame<'a, 'b>(
 const OVERLAY: RGBColor = RGBColor(255, 255, 255);
 
 /// Draws overlay `o` on a map `chart` whose data extent is (x0, x1, y0, y1), clipped to it.
-fn draw_overlay(
-    chart: &mut Chart<'_, '_>,
+fn draw_overlay<DB: DrawingBackend>(
+    chart: &mut Chart<'_, DB>,
     o: &Overlay,
     (x0, x1, y0, y1): (f64, f64, f64, f64),
     labels: &mut Vec<Label>,
-) -> raster::DrawResult {
+) -> DrawResult<DB> {
     let inside = |&(x, y): &(f64, f64)| x >= x0 && x <= x1 && y >= y0 && y <= y1;
     let (dash, gap) = match o.style {
         LineStyle::Dashed => (8, 5),
@@ -533,8 +784,8 @@ fn draw_overlay(
 
 /// Tick numbers and axis labels around the chart's plotting area. Tick numbers that would
 /// touch are thinned to every second (third, …) one.
-fn axis_text(
-    chart: &Chart<'_, '_>,
+fn axis_text<DB: DrawingBackend>(
+    chart: &Chart<'_, DB>,
     xa: &Axis,
     ya: &Axis,
     x_label: &str,
@@ -597,21 +848,22 @@ fn title(text: &str) -> Label {
     Label::new(text, TITLE_POS, TITLE_SIZE, INK_RGB).anchored(Align::Start, Baseline::Top).bold()
 }
 
-/// A vertical colour bar from pixel row `top` to `bottom`, ticks and numbers on its right;
-/// returns the width of the widest number (pixels).
-fn colour_bar(
-    root: &Root<'_>,
+/// A vertical colour bar of `scale` from pixel row `top` to `bottom`, ticks and numbers on its
+/// right; returns the width of the widest number (pixels).
+fn colour_bar<DB: DrawingBackend>(
+    root: &Root<DB>,
     axis: &Axis,
+    scale: ColourScale,
     left: i32,
     top: i32,
     bottom: i32,
     labels: &mut Vec<Label>,
-) -> Result<f64, raster::DrawError> {
+) -> Result<f64, DrawError<DB>> {
     let height = (bottom - top).max(1);
     for y in top..=bottom {
         let t = f64::from(bottom - y) / f64::from(height);
         let row = vec![(left, y), (left + BAR_WIDTH, y)];
-        root.draw(&PathElement::new(row, rgb(colour(t))))?;
+        root.draw(&PathElement::new(row, rgb(scale.colour(t))))?;
     }
     root.draw(&Rectangle::new([(left, top), (left + BAR_WIDTH, bottom)], INK.stroke_width(1)))?;
     let right = left + BAR_WIDTH;
@@ -631,13 +883,13 @@ fn colour_bar(
 }
 
 /// The key: one row per labelled line, a sample of its style and its label (wrapped to fit).
-fn key(
-    root: &Root<'_>,
+fn key<DB: DrawingBackend>(
+    root: &Root<DB>,
     lines: &[Line],
     left: i32,
     top: i32,
     labels: &mut Vec<Label>,
-) -> raster::DrawResult {
+) -> DrawResult<DB> {
     let text_left = left + KEY_SAMPLE + 10;
     let room = f64::from(LINE_SIZE.0 as i32 - text_left - 12);
     let mut y = top + 10;
@@ -674,7 +926,7 @@ fn key(
         }
         for (n, text) in wrap(&line.label, room).iter().enumerate() {
             if n > 0 {
-                y += 19;
+                y += KEY_LINE;
             }
             labels.push(Label::new(text, (f64::from(text_left), f64::from(y)), KEY_SIZE, INK_RGB));
         }
@@ -698,6 +950,12 @@ fn wrap(text: &str, room: f64) -> Vec<String> {
     }
     lines.push(current);
     lines
+}
+
+/// A text style that draws nothing: plotters' own tick numbers are left out (ours are laid out
+/// by [`axis_text`]), and an SVG gets no empty `<text>` elements.
+fn unseen(style: (&'static str, f64)) -> TextStyle<'static> {
+    TextStyle::from(style.into_font()).color(&TRANSPARENT)
 }
 
 /// A colour-scale triple as a plotters colour.
@@ -816,8 +1074,8 @@ pub struct MapPanels {
     pub panels: Vec<(String, Vec<f64>)>,
     /// Colour-bar label, with the unit.
     pub colour_label: String,
-    /// Colour by log10 of the value (non-positive cells are then drawn grey).
-    pub log_scale: bool,
+    /// How values become colours (one scale for every panel).
+    pub scale: ColourScale,
     /// Panels per row, at least 1.
     pub columns: usize,
     /// Tick positions along x (default: round values).
@@ -831,7 +1089,8 @@ const PANEL_ROW: u32 = 190;
 /// Size of the tick numbers of [`MapPanels`], in pixels.
 const PANEL_TICK_SIZE: f64 = 12.0;
 
-/// Draws `plot` as a PNG at `path`: [`MAP_SIZE`]'s width, one [`PANEL_ROW`] per row of panels.
+/// Draws `plot` at `path` (`.png` or `.svg`): [`MAP_SIZE`]'s width, one [`PANEL_ROW`] per row
+/// of panels.
 pub fn draw_map_panels(plot: &MapPanels, path: &Path) -> Result<(), ProductError> {
     let nx = plot.x_edges.len().saturating_sub(1);
     let ny = plot.y_edges.len().saturating_sub(1);
@@ -847,32 +1106,46 @@ pub fn draw_map_panels(plot: &MapPanels, path: &Path) -> Result<(), ProductError
             return bad(format!("{axis} edges must be finite and strictly increasing"));
         }
     }
+    canvas::Format::of(path)?;
     ensure_registered().map_err(|e| e.in_file(path))?;
-    let to_coord = |v: f64| match plot.log_scale {
-        true if v > 0.0 && v.is_finite() => Some(v.log10()),
-        false if v.is_finite() => Some(v),
-        _ => None,
-    };
     // One colour scale for every panel, so that panels compare by colour.
-    let all = plot.panels.iter().flat_map(|(_, v)| v.iter().filter_map(|&x| to_coord(x)));
-    let (mut lo, mut hi) = finite_extent(all).unwrap_or((0.0, 1.0));
-    if hi <= lo {
-        let pad = if plot.log_scale { 0.5 } else { lo.abs().max(1.0) * 0.5 };
-        (lo, hi) = (lo - pad, hi + pad);
-    }
-    let bar = if plot.log_scale { Axis::log10(lo, hi, 7) } else { Axis::linear(lo, hi, None, 6) };
+    let all =
+        plot.panels.iter().flat_map(|(_, v)| v.iter().filter_map(|&x| plot.scale.coordinate(x)));
+    let bar = plot.scale.bar(all);
     let (x0, x1) = (plot.x_edges[0], plot.x_edges[nx]);
     let (y0, y1) = (plot.y_edges[0], plot.y_edges[ny]);
     let xa = Axis::linear(x0, x1, plot.x_ticks.as_deref(), 5);
     let ya = Axis::linear(y0, y1, plot.y_ticks.as_deref(), 4);
     let cols = plot.columns.min(plot.panels.len());
     let rows = plot.panels.len().div_ceil(cols);
-    let (w, bottom_band) = (MAP_SIZE.0, 56);
-    let size = (w, TITLE_BAND + rows as u32 * PANEL_ROW + bottom_band);
+    let size = (MAP_SIZE.0, TITLE_BAND + rows as u32 * PANEL_ROW + PANEL_FOOT);
+    canvas::render(path, size, &PanelsFigure { plot, bar, xa, ya, cols, rows })
+}
 
-    raster::render(path, size, |root, labels| {
+/// Height of the band under the panels (tick numbers and the x label), in pixels.
+const PANEL_FOOT: u32 = 56;
+
+/// A [`MapPanels`] made ready to draw: the shared colour bar, axes and grid of panels.
+struct PanelsFigure<'p> {
+    plot: &'p MapPanels,
+    bar: Axis,
+    xa: Axis,
+    ya: Axis,
+    cols: usize,
+    rows: usize,
+}
+
+impl Figure for PanelsFigure<'_> {
+    fn draw<DB: DrawingBackend>(&self, root: &Root<DB>, labels: &mut Vec<Label>) -> DrawResult<DB> {
+        let Self { plot, bar, xa, ya, cols, rows } = self;
+        let (cols, rows) = (*cols, *rows);
+        let nx = plot.x_edges.len() - 1;
+        let ny = plot.y_edges.len() - 1;
+        let (x0, x1) = (plot.x_edges[0], plot.x_edges[nx]);
+        let (y0, y1) = (plot.y_edges[0], plot.y_edges[ny]);
+        let w = MAP_SIZE.0;
         labels.push(title(&plot.title));
-        let area = root.margin(TITLE_BAND, bottom_band, 64, 0);
+        let area = root.margin(TITLE_BAND, PANEL_FOOT, 64, 0);
         let (grid, _) = area.split_horizontally(w - 64 - BAR_PANEL);
         let cells = grid.split_evenly((rows, cols));
         let mut extent = (i32::MAX, i32::MIN, i32::MAX, i32::MIN);
@@ -887,7 +1160,7 @@ pub fn draw_map_panels(plot: &MapPanels, path: &Path) -> Result<(), ProductError
                 .configure_mesh()
                 .disable_mesh()
                 .axis_style(INK)
-                .label_style((FAMILY, PANEL_TICK_SIZE))
+                .label_style(unseen((FAMILY, PANEL_TICK_SIZE)))
                 .axis_desc_style((FAMILY, PANEL_TICK_SIZE))
                 .set_all_tick_mark_size(3)
                 .x_label_formatter(&|_| String::new())
@@ -895,8 +1168,8 @@ pub fn draw_map_panels(plot: &MapPanels, path: &Path) -> Result<(), ProductError
                 .draw()?;
             chart.draw_series((0..ny).flat_map(|j| (0..nx).map(move |i| (i, j))).map(
                 |(i, j)| {
-                    let fill = match to_coord(values[j * nx + i]) {
-                        Some(c) => rgb(colour(bar.fraction(c))),
+                    let fill = match plot.scale.coordinate(values[j * nx + i]) {
+                        Some(c) => rgb(plot.scale.colour(bar.fraction(c))),
                         None => NO_DATA,
                     };
                     Rectangle::new(
@@ -958,7 +1231,7 @@ pub fn draw_map_panels(plot: &MapPanels, path: &Path) -> Result<(), ProductError
                 .upright(),
         );
         let bar_left = (w - BAR_PANEL) as i32 + 12;
-        let widest = colour_bar(root, &bar, bar_left, top, bottom, labels)?;
+        let widest = colour_bar(root, bar, plot.scale, bar_left, top, bottom, labels)?;
         let label_x = f64::from(bar_left + BAR_WIDTH + 10) + widest + 14.0;
         labels.push(
             Label::new(&plot.colour_label, (label_x, mid_y), AXIS_LABEL_SIZE, INK_RGB)
@@ -966,5 +1239,5 @@ pub fn draw_map_panels(plot: &MapPanels, path: &Path) -> Result<(), ProductError
                 .upright(),
         );
         Ok(())
-    })
+    }
 }

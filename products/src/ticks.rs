@@ -62,6 +62,18 @@ impl Axis {
         }
     }
 
+    /// An axis from `lo` to `hi` (axis coordinates) with the given `ticks` (axis coordinates)
+    /// written as `labels`; ticks outside the range are dropped with their labels.
+    pub fn labelled(lo: f64, hi: f64, ticks: &[f64], labels: &[String]) -> Self {
+        let (ticks, labels) = ticks
+            .iter()
+            .zip(labels)
+            .filter(|(t, _)| within(**t, lo, hi))
+            .map(|(t, l)| (*t, l.clone()))
+            .unzip();
+        Self { lo, hi, ticks, labels, minor: Vec::new() }
+    }
+
     /// The label of the tick at `v` (empty if `v` is not a tick).
     pub fn label_at(&self, v: f64) -> String {
         let tol = 1e-9 * (self.hi - self.lo).abs().max(f64::MIN_POSITIVE);
@@ -202,5 +214,18 @@ mod tests {
         // Under two decades: round values instead.
         let b = Axis::log10(2.0f64.log10(), 9.0f64.log10(), 8);
         assert!(b.ticks.len() >= 2 && b.labels.iter().all(|l| !l.contains('×')));
+    }
+
+    #[test]
+    fn labelled_axes_keep_their_text_and_drop_ticks_outside() {
+        let a = Axis::labelled(
+            0.0,
+            2.0,
+            &[-0.5, 0.0, 1.0, 2.0],
+            &["x".into(), "1e5".into(), "1e6".into(), "1e7".into()],
+        );
+        assert_eq!(a.ticks, vec![0.0, 1.0, 2.0]);
+        assert_eq!(a.labels, vec!["1e5", "1e6", "1e7"]);
+        assert_eq!(a.label_at(1.0), "1e6");
     }
 }

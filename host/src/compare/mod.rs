@@ -8,15 +8,17 @@
 //! list of seeds, tabulates every summary measure side by side with the
 //! paired differences against the first variant and their significance
 //! ([`stats`]), and draws overlays of the profiles and maps of the
-//! relative column difference.
+//! relative column difference with the cells within the noise marked
+//! ([`maps`]).
 
+pub mod maps;
 pub mod stats;
 
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering};
 
-use exobound_products::{Line, LinePlot, LineStyle, MapPlot, Marker, draw_lines, draw_map};
+use exobound_products::{Line, LinePlot, LineStyle, Marker, draw_lines, draw_map};
 use serde::Serialize;
 
 use crate::checkpoint::ScenarioSource;
@@ -384,6 +386,7 @@ fn write_products(dir: &Path, c: &Comparison, results: &[Vec<RunResult>]) -> Res
                 Marker { x: 12.0, label: "subsolar".into() },
                 Marker { x: 18.0, label: "dusk".into() },
             ],
+            log_x: false,
             log_y: true,
             x_range: Some((0.0, 24.0)),
             x_ticks: Some(vec![0.0, 3.0, 6.0, 9.0, 12.0, 15.0, 18.0, 21.0, 24.0]),
@@ -397,56 +400,26 @@ fn write_products(dir: &Path, c: &Comparison, results: &[Vec<RunResult>]) -> Res
             y_label: "column (atoms cm^-2)".into(),
             lines: lines(&|r| &r.latitude),
             markers: vec![],
+            log_x: false,
             log_y: false,
             x_range: Some((-90.0, 90.0)),
             x_ticks: Some(vec![-90.0, -60.0, -30.0, 0.0, 30.0, 60.0, 90.0]),
         },
         &plots.join("latitude.png"),
     ))?;
-    // Relative column difference maps against the reference.
-    let mean_column = |runs: &[RunResult]| -> Vec<f64> {
-        let n = runs[0].column.column.len();
-        (0..n)
-            .map(|i| {
-                runs.iter()
-                    .map(|r| r.column.column.get(i).copied().unwrap_or(f64::NAN))
-                    .sum::<f64>()
-                    / runs.len() as f64
-            })
-            .collect()
-    };
-    let reference = mean_column(&results[0]);
+    // Signed column difference maps against the reference, cells within the noise marked.
     let shape = |r: &RunResult| (r.column.local_time_h.len(), r.column.latitude_deg.len());
     let (n_lt, n_lat) = shape(&results[0][0]);
+    fn columns(runs: &[RunResult]) -> Vec<&[f64]> {
+        runs.iter().map(|r| r.column.column.as_slice()).collect()
+    }
     for (k, runs) in results.iter().enumerate().skip(1) {
         if shape(&runs[0]) != (n_lt, n_lat) {
             continue;
         }
-        let col = mean_column(runs);
-        let mut values = vec![f64::NAN; n_lt * n_lat];
-        for i in 0..n_lt {
-            for j in 0..n_lat {
-                let (a, b) = (reference[i * n_lat + j], col[i * n_lat + j]);
-                values[j * n_lt + i] = if a > 0.0 { 100.0 * (b - a) / a } else { f64::NAN };
-            }
-        }
-        let edges = |lo: f64, hi: f64, n: usize| -> Vec<f64> {
-            (0..=n).map(|q| lo + (hi - lo) * q as f64 / n as f64).collect()
-        };
+        let diff = maps::paired_difference(&columns(&results[0]), &columns(runs), n_lt * n_lat);
         e(draw_map(
-            &MapPlot {
-                title: format!("Column of {} relative to {}", c.variants[k], c.variants[0]),
-                x_label: "local time (h)".into(),
-                y_label: "latitude (deg)".into(),
-                x_edges: edges(0.0, 24.0, n_lt),
-                y_edges: edges(-90.0, 90.0, n_lat),
-                values,
-                colour_label: "difference (%)".into(),
-                log_scale: false,
-                x_ticks: Some(vec![0.0, 3.0, 6.0, 9.0, 12.0, 15.0, 18.0, 21.0, 24.0]),
-                y_ticks: Some(vec![-90.0, -60.0, -30.0, 0.0, 30.0, 60.0, 90.0]),
-                overlays: vec![],
-            },
+            &maps::difference_plot(&c.variants[k], &c.variants[0], &diff, n_lt, n_lat),
             &plots.join(format!("column_difference_{}.png", c.variants[k])),
         ))?;
     }

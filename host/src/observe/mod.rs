@@ -18,7 +18,8 @@ pub mod view;
 use std::path::{Path, PathBuf};
 
 use exobound_products::{
-    Dataset, Line, LinePlot, LineStyle, MapPlot, Overlay, Variable, draw_lines, draw_map,
+    ColourScale, Dataset, Line, LinePlot, LineStyle, MapPlot, Overlay, Variable, draw_lines,
+    draw_map,
 };
 use serde::Serialize;
 
@@ -482,9 +483,14 @@ fn compute_and_write(
                     y_edges: edges(&img.y_km),
                     values: bright.clone(),
                     colour_label: "4 pi I (R), g-factor in observation.json".into(),
-                    log_scale: true,
+                    scale: ColourScale::Log,
+                    marks: None,
+                    x_log: false,
+                    y_log: false,
                     x_ticks: None,
                     y_ticks: None,
+                    x_tick_labels: None,
+                    y_tick_labels: None,
                     overlays: disk_overlays(d, field.radius, arcsec_per_km(view)),
                 },
                 &plots.join("disk_image.png"),
@@ -604,6 +610,7 @@ fn brightness_plot(
                 style: LineStyle::Solid,
             }],
             markers: vec![],
+            log_x: false,
             log_y: true,
             x_range: None,
             x_ticks: None,

@@ -1,5 +1,7 @@
-//! The PNG plots of a run: column map, reservoir map, equatorial
-//! local-time profile, latitude profile and the ledger over time.
+//! The plots of a run (PNG, SVG or both, by `outputs.plot_format`):
+//! column map, reservoir map, equatorial local-time profile, latitude
+//! profile, the ledger over time, the exosphere by source, the column
+//! window by window and the peak shift's phase series.
 //!
 //! Why this exists: the first look at a run is a picture. This module
 //! chooses what each figure shows (units in every label, the subsolar
@@ -11,14 +13,14 @@
 use std::path::Path;
 
 use exobound_products::{
-    Line, LinePlot, LineStyle, MapPanels, MapPlot, Marker, Overlay, draw_lines, draw_map,
-    draw_map_panels,
+    ColourScale, Line, LinePlot, LineStyle, MapPanels, MapPlot, Marker, Overlay, draw_lines,
+    draw_map, draw_map_panels,
 };
 
 use super::fields::Fields;
 use crate::driver::RunRecord;
 use crate::engine::Simulation;
-use crate::scenario::Scenario;
+use crate::scenario::{PlotFormat, Scenario};
 
 /// Edges `lo..hi` in `n` equal bins.
 pub(crate) fn edges(lo: f64, hi: f64, n: usize) -> Vec<f64> {
@@ -109,9 +111,14 @@ pub(crate) fn column_map(
         y_edges: edges(-90.0, 90.0, n_lat),
         values: transpose(column, n_lt, n_lat),
         colour_label: "column (atoms cm^-2)".into(),
-        log_scale: true,
+        scale: ColourScale::Log,
+        marks: None,
+        x_log: false,
+        y_log: false,
         x_ticks: lt_ticks(),
         y_ticks: lat_ticks(),
+        x_tick_labels: None,
+        y_tick_labels: None,
         overlays: subsolar_latitude.map(terminators).unwrap_or_default(),
     }
 }
@@ -132,9 +139,18 @@ pub(crate) fn reservoir_map(title: String, gm: usize, gl: usize, reservoir: &[f6
         y_edges: edges(-90.0, 90.0, gl),
         values: res,
         colour_label: "surface density (atoms cm^-2)".into(),
-        log_scale: !positive.is_empty() && hi > 100.0 * lo,
+        scale: if !positive.is_empty() && hi > 100.0 * lo {
+            ColourScale::Log
+        } else {
+            ColourScale::Linear
+        },
+        marks: None,
+        x_log: false,
+        y_log: false,
         x_ticks: Some(vec![0.0, 60.0, 120.0, 180.0, 240.0, 300.0, 360.0]),
         y_ticks: lat_ticks(),
+        x_tick_labels: None,
+        y_tick_labels: None,
         overlays: vec![],
     }
 }
@@ -171,6 +187,7 @@ pub(crate) fn equator_plot(
             style: LineStyle::Points,
         }],
         markers,
+        log_x: false,
         log_y: false,
         x_range: Some((0.0, 24.0)),
         x_ticks: lt_ticks(),
@@ -208,6 +225,7 @@ pub(crate) fn source_equator_plot(
         y_label: "column (atoms cm^-2)".into(),
         lines,
         markers: local_time_markers(),
+        log_x: false,
         log_y: true,
         x_range: Some((0.0, 24.0)),
         x_ticks: lt_ticks(),
@@ -257,7 +275,7 @@ pub(crate) fn window_panels(
         y_edges: edges(-90.0, 90.0, n_lat),
         panels,
         colour_label: "column (atoms cm^-2)".into(),
-        log_scale: true,
+        scale: ColourScale::Log,
         columns,
         x_ticks: Some(vec![0.0, 6.0, 12.0, 18.0, 24.0]),
         y_ticks: Some(vec![-90.0, 0.0, 90.0]),
@@ -316,6 +334,7 @@ pub(crate) fn latitude_plot(
         .chain(fit)
         .collect(),
         markers: vec![],
+        log_x: false,
         log_y: false,
         x_range: Some((-90.0, 90.0)),
         x_ticks: lat_ticks(),
@@ -377,6 +396,7 @@ pub(crate) fn ledger_plot(title: String, l: LedgerSeries, spin_up_days: f64) -> 
             line("left the domain bound (cumulative)", cumulative(l.left_bound), LineStyle::Dotted),
         ],
         markers,
+        log_x: false,
         log_y: true,
         x_range: None,
         x_ticks: None,
@@ -393,6 +413,14 @@ pub(crate) fn shift_plot(
     error: Option<&[f64]>,
     markers: Vec<Marker>,
 ) -> LinePlot {
+    // Half a window's spacing of room at each end, so the end points clear the frame.
+    let x_range = match finite_span(&mid_days) {
+        Some((lo, hi)) if mid_days.len() > 1 && hi > lo => {
+            let pad = 0.5 * (hi - lo) / (mid_days.len() - 1) as f64;
+            Some((lo - pad, hi + pad))
+        }
+        _ => None,
+    };
     LinePlot {
         title,
         x_label: "simulated time at the window's middle (d)".into(),
@@ -405,10 +433,34 @@ pub(crate) fn shift_plot(
             style: LineStyle::Points,
         }],
         markers,
+        log_x: false,
         log_y: false,
-        x_range: None,
+        x_range,
         x_ticks: None,
     }
+}
+
+/// The smallest and largest finite value of `x`, if any.
+fn finite_span(x: &[f64]) -> Option<(f64, f64)> {
+    x.iter().filter(|v| v.is_finite()).fold(None, |acc, &v| match acc {
+        None => Some((v, v)),
+        Some((lo, hi)) => Some((lo.min(v), hi.max(v))),
+    })
+}
+
+/// The noise of one window's value in a series `x` with a slow trend, from the mean square
+/// successive difference (von Neumann, Kent, Bellinson & Hart 1941, Ann. Math. Statist. 12,
+/// 153-162): delta^2 = sum (x[i+1] - x[i])^2 / (pairs), whose expectation for independent
+/// noise of variance sigma^2 is 2 sigma^2, while a trend of slope s per step adds only s^2;
+/// so sigma = sqrt(delta^2 / 2), in the unit of `x`. Pairs with a non-finite member are left
+/// out; None without a pair.
+pub(crate) fn successive_difference_sd(x: &[f64]) -> Option<f64> {
+    let d2: Vec<f64> = x
+        .windows(2)
+        .filter(|w| w[0].is_finite() && w[1].is_finite())
+        .map(|w| (w[1] - w[0]) * (w[1] - w[0]))
+        .collect();
+    (!d2.is_empty()).then(|| (d2.iter().sum::<f64>() / d2.len() as f64 / 2.0).sqrt())
 }
 
 /// The start and end (d) of each interval in which the solar wind is
@@ -433,7 +485,20 @@ fn solar_wind_markers(scenario: &Scenario) -> Vec<Marker> {
     out
 }
 
-/// Draw every plot into `dir`.
+/// Writes one figure as `dir/STEM.EXT` for each file extension of `format`, through `draw`.
+pub(crate) fn save(
+    dir: &Path,
+    stem: &str,
+    format: PlotFormat,
+    draw: impl Fn(&Path) -> Result<(), exobound_products::ProductError>,
+) -> Result<(), String> {
+    for ext in format.extensions() {
+        draw(&dir.join(format!("{stem}.{ext}"))).map_err(|e| e.to_string())?;
+    }
+    Ok(())
+}
+
+/// Draw every plot into `dir`, in the scenario's plot format.
 pub fn draw_all(
     dir: &Path,
     scenario: &Scenario,
@@ -445,16 +510,17 @@ pub fn draw_all(
     let sp = &scenario.model.species.name;
     let body = &scenario.model.body.name;
     let (n_lt, n_lat) = (f.local_time_h.len(), f.latitude_deg.len());
-    let e = |r: Result<(), exobound_products::ProductError>| r.map_err(|e| e.to_string());
+    let format = scenario.plan.products.plot_format;
     let title = format!("{sp} column density at {body}, run average");
     // The terminators where the Sun stood at the middle of the averaged time.
     let mid = 0.5 * (scenario.plan.spin_up_steps + scenario.plan.steps) as f64 * scenario.config.dt;
     let delta = scenario.model.sun.subsolar_latitude(&scenario.model.body, mid);
-    let map = column_map(title, n_lt, n_lat, &f.column, Some(delta));
-    e(draw_map(&map, &dir.join("column_map.png")))?;
+    let plot = column_map(title, n_lt, n_lat, &f.column, Some(delta));
+    save(dir, "column_map", format, |path| draw_map(&plot, path))?;
     let (gl, gm) = (f.grid_latitude_deg.len(), f.grid_longitude_deg.len());
     let title = format!("adsorbed {sp} reservoir at the end of the run");
-    e(draw_map(&reservoir_map(title, gm, gl, &f.reservoir), &dir.join("reservoir_map.png")))?;
+    let plot = reservoir_map(title, gm, gl, &f.reservoir);
+    save(dir, "reservoir_map", format, |path| draw_map(&plot, path))?;
     let label = format!(
         "|lat| < {:.0} deg, +-1 s.e. over {} windows",
         scenario.plan.equator_band.to_degrees(),
@@ -463,27 +529,23 @@ pub fn draw_all(
     // The peak's standard error, from the window-to-window scatter of the
     // shifts (deg; 15 deg per hour), as in the summary.
     let peak_error_h = crate::tally::profiles::mean_and_error(&record.window_shifts_deg()).1 / 15.0;
-    e(draw_lines(
-        &equator_plot(
-            format!("equatorial {sp} column by local time"),
-            label,
-            f.local_time_h.clone(),
-            f.equator_profile.clone(),
-            &f.equator_error,
-            Some(peak_error_h),
-        ),
-        &dir.join("equator_local_time.png"),
-    ))?;
-    e(draw_lines(
-        &latitude_plot(
-            format!("dayside {sp} column by latitude (6-18 h)"),
-            "model, +-1 s.e.".into(),
-            f.latitude_deg.clone(),
-            f.latitude_profile.clone(),
-            &f.latitude_error,
-        ),
-        &dir.join("latitude_profile.png"),
-    ))?;
+    let plot = equator_plot(
+        format!("equatorial {sp} column by local time"),
+        label,
+        f.local_time_h.clone(),
+        f.equator_profile.clone(),
+        &f.equator_error,
+        Some(peak_error_h),
+    );
+    save(dir, "equator_local_time", format, |path| draw_lines(&plot, path))?;
+    let plot = latitude_plot(
+        format!("dayside {sp} column by latitude (6-18 h)"),
+        "model, +-1 s.e.".into(),
+        f.latitude_deg.clone(),
+        f.latitude_profile.clone(),
+        &f.latitude_error,
+    );
+    save(dir, "latitude_profile", format, |path| draw_lines(&plot, path))?;
     let rows = &sim.ledger().rows;
     let pick = |p: &dyn Fn(&crate::tally::LedgerRow) -> f64| rows.iter().map(p).collect();
     let series = LedgerSeries {
@@ -497,7 +559,8 @@ pub fn draw_all(
     };
     let spin_up_days = scenario.plan.spin_up_steps as f64 * scenario.config.dt / 86_400.0;
     let title = format!("{sp} ledger over the run");
-    e(draw_lines(&ledger_plot(title, series, spin_up_days), &dir.join("ledger.png")))?;
+    let plot = ledger_plot(title, series, spin_up_days);
+    save(dir, "ledger", format, |path| draw_lines(&plot, path))?;
     // The exosphere by source: each source module's equatorial column.
     let by_source = record.averages.column_by_source_cm2();
     let n_col = n_lt * n_lat;
@@ -513,37 +576,69 @@ pub fn draw_all(
                 (m.name().to_string(), profile)
             })
             .collect();
-        e(draw_lines(
-            &source_equator_plot(
-                format!("equatorial {sp} column by local time and source"),
-                f.local_time_h.clone(),
-                f.equator_profile.clone(),
-                parts,
-            ),
-            &dir.join("equator_by_source.png"),
-        ))?;
+        let plot = source_equator_plot(
+            format!("equatorial {sp} column by local time and source"),
+            f.local_time_h.clone(),
+            f.equator_profile.clone(),
+            parts,
+        );
+        save(dir, "equator_by_source", format, |path| draw_lines(&plot, path))?;
     }
     // Phase-resolved shape measures: the peak shift window by window.
     let win: Vec<&crate::driver::windows::WindowRecord> =
         record.windows.iter().filter(|w| !w.spin_up).collect();
     if win.iter().all(|w| w.column.len() == n_col) && !win.is_empty() {
-        e(draw_map_panels(
-            &window_panels(format!("{sp} column at {body}, window by window"), n_lt, n_lat, &win),
-            &dir.join("column_by_window.png"),
-        ))?;
+        let plot =
+            window_panels(format!("{sp} column at {body}, window by window"), n_lt, n_lat, &win);
+        save(dir, "column_by_window", format, |path| draw_map_panels(&plot, path))?;
     }
     if !win.is_empty() {
-        e(draw_lines(
-            &shift_plot(
-                format!("{sp} equatorial column peak shift, window by window"),
-                "per averaging window".into(),
-                win.iter().map(|w| 0.5 * (w.start + w.end) / 86_400.0).collect(),
-                win.iter().map(|w| w.shift_deg).collect(),
-                None,
-                solar_wind_markers(scenario),
+        // One run has no replicas: the window-to-window noise comes from the successive
+        // differences of the series itself, the same bar on every window.
+        let shifts: Vec<f64> = win.iter().map(|w| w.shift_deg).collect();
+        let sd = successive_difference_sd(&shifts);
+        let (label, bars) = match sd {
+            Some(s) => (
+                format!(
+                    "per averaging window; bars +-{s:.2} deg, the window-to-window noise from \
+                     the mean square successive difference (same for every window)"
+                ),
+                Some(vec![s; shifts.len()]),
             ),
-            &dir.join("phase_series.png"),
-        ))?;
+            None => ("per averaging window (one window: no noise estimate)".to_string(), None),
+        };
+        let plot = shift_plot(
+            format!("{sp} equatorial column peak shift, window by window"),
+            label,
+            win.iter().map(|w| 0.5 * (w.start + w.end) / 86_400.0).collect(),
+            shifts,
+            bars.as_deref(),
+            solar_wind_markers(scenario),
+        );
+        save(dir, "phase_series", format, |path| draw_lines(&plot, path))?;
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn successive_difference_noise_matches_a_hand_computed_value_and_ignores_a_trend() {
+        // 1, 3, 2, 5, 4: differences 2, -1, 3, -1, squares sum 15 over 4 pairs = 3.75 = delta^2;
+        // sigma = sqrt(3.75 / 2) = 1.369306... (von Neumann et al. 1941: E delta^2 = 2 sigma^2).
+        let s = successive_difference_sd(&[1.0, 3.0, 2.0, 5.0, 4.0]).unwrap();
+        assert!((s - 1.875f64.sqrt()).abs() < 1e-15, "{s}");
+        // A pure linear trend of 2 per window has no noise, and contributes only slope^2 / 2
+        // to sigma^2 (sigma = sqrt 2), far below its scatter about the mean (s.d. 3.16).
+        let trend: Vec<f64> = (0..5).map(|i| 10.0 + 2.0 * f64::from(i)).collect();
+        let s = successive_difference_sd(&trend).unwrap();
+        assert!((s - 2f64.sqrt()).abs() < 1e-15, "{s}");
+        // A gap breaks the pairs around it; fewer than two finite neighbours give no estimate.
+        let s = successive_difference_sd(&[1.0, 3.0, f64::NAN, 5.0, 4.0]).unwrap();
+        assert!((s - (2.5f64 / 2.0).sqrt()).abs() < 1e-15, "{s}");
+        assert_eq!(successive_difference_sd(&[1.0]), None);
+        assert_eq!(successive_difference_sd(&[1.0, f64::NAN]), None);
+    }
 }

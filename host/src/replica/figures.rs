@@ -11,12 +11,13 @@
 
 use std::path::Path;
 
-use exobound_products::{draw_lines, draw_map};
+use exobound_products::{ProductError, draw_lines, draw_map};
 
 use super::merge::Merged;
 use super::tables::Table;
 use crate::output::figures::{
-    LedgerSeries, column_map, equator_plot, latitude_plot, ledger_plot, reservoir_map, shift_plot,
+    LedgerSeries, column_map, equator_plot, latitude_plot, ledger_plot, reservoir_map, save,
+    shift_plot,
 };
 
 /// Column `name` of `t`, or an error naming the table.
@@ -24,8 +25,9 @@ fn col(t: &Table, file: &str, name: &str) -> Result<Vec<f64>, String> {
     t.column(name).ok_or_else(|| format!("the merged `{file}` has no column `{name}`"))
 }
 
-/// Draw the six figures into `dir`; the files written, relative to the
-/// output directory (`plots/NAME.png`).
+/// Draw the six figures into `dir`, in the replicas' plot format; the
+/// files written, relative to the output directory (`plots/NAME.png` or
+/// `.svg`).
 pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
     std::fs::create_dir_all(dir).map_err(|e| format!("cannot create `{}`: {e}", dir.display()))?;
     let ds = m.dataset.as_ref().ok_or("plots need the merged NetCDF fields")?;
@@ -43,15 +45,19 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
         .and_then(|x| x.as_array())
         .map_or(0, Vec::len);
     let of = format!("mean of {count} replicas");
-    let e = |r: Result<(), exobound_products::ProductError>| r.map_err(|e| e.to_string());
     let mut files = Vec::new();
-    let mut done = |name: &str| files.push(format!("plots/{name}"));
+    // Each figure in the replicas' plot format(s); the files written are listed.
+    let mut write = |stem: &str, draw: &dyn Fn(&Path) -> Result<(), ProductError>| {
+        save(dir, stem, m.plot_format, draw)?;
+        files.extend(m.plot_format.extensions().iter().map(|ext| format!("plots/{stem}.{ext}")));
+        Ok::<(), String>(())
+    };
 
     let (n_lt, n_lat) = (var("local_time")?.len(), var("latitude")?.len());
     let title = format!("{sp} column density at {body}, run average, {of}");
     let map = column_map(title, n_lt, n_lat, &var("column")?, None);
-    e(draw_map(&map, &dir.join("column_map.png")))?;
-    done("column_map.png");
+    let plot = map;
+    write("column_map", &|path| draw_map(&plot, path))?;
 
     let (gm, gl) = (var("cell_longitude")?.len(), var("cell_latitude")?.len());
     let title = format!("adsorbed {sp} reservoir at the end of the run, {of}");
@@ -65,40 +71,34 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
     }
     let reservoir = exobound_products::swap_outer_axes(&reservoir, gl, gm, 1);
     let map = reservoir_map(title, gm, gl, &reservoir);
-    e(draw_map(&map, &dir.join("reservoir_map.png")))?;
-    done("reservoir_map.png");
+    let plot = map;
+    write("reservoir_map", &|path| draw_map(&plot, path))?;
 
     let eq_file = "profiles/equator_local_time.csv";
     let eq = m.table(eq_file).ok_or("plots need the merged profiles")?;
-    e(draw_lines(
-        &equator_plot(
-            format!("equatorial {sp} column by local time, {of}"),
-            "equatorial band, +-1 s.e. between replicas".into(),
-            col(eq, eq_file, "local_time_h")?,
-            col(eq, eq_file, "column_cm-2")?,
-            &col(eq, eq_file, "column_error_cm-2")?,
-            m.summary
-                .pointer("/equatorial_column_peak/uncertainty_deg")
-                .and_then(serde_json::Value::as_f64)
-                .map(|deg| deg / 15.0),
-        ),
-        &dir.join("equator_local_time.png"),
-    ))?;
-    done("equator_local_time.png");
+    let plot = equator_plot(
+        format!("equatorial {sp} column by local time, {of}"),
+        "equatorial band, +-1 s.e. between replicas".into(),
+        col(eq, eq_file, "local_time_h")?,
+        col(eq, eq_file, "column_cm-2")?,
+        &col(eq, eq_file, "column_error_cm-2")?,
+        m.summary
+            .pointer("/equatorial_column_peak/uncertainty_deg")
+            .and_then(serde_json::Value::as_f64)
+            .map(|deg| deg / 15.0),
+    );
+    write("equator_local_time", &|path| draw_lines(&plot, path))?;
 
     let lat_file = "profiles/latitude.csv";
     let lat = m.table(lat_file).ok_or("plots need the merged profiles")?;
-    e(draw_lines(
-        &latitude_plot(
-            format!("dayside {sp} column by latitude (6-18 h), {of}"),
-            "model, +-1 s.e. between replicas".into(),
-            col(lat, lat_file, "latitude_deg")?,
-            col(lat, lat_file, "column_cm-2")?,
-            &col(lat, lat_file, "column_error_cm-2")?,
-        ),
-        &dir.join("latitude_profile.png"),
-    ))?;
-    done("latitude_profile.png");
+    let plot = latitude_plot(
+        format!("dayside {sp} column by latitude (6-18 h), {of}"),
+        "model, +-1 s.e. between replicas".into(),
+        col(lat, lat_file, "latitude_deg")?,
+        col(lat, lat_file, "column_cm-2")?,
+        &col(lat, lat_file, "column_error_cm-2")?,
+    );
+    write("latitude_profile", &|path| draw_lines(&plot, path))?;
 
     let lf = "ledger.csv";
     let ledger = m.table(lf).ok_or("plots need the merged ledger")?;
@@ -131,8 +131,8 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
         left_bound: col(ledger, lf, "left_bound_atoms")?,
     };
     let title = format!("{sp} ledger over the run, {of}");
-    e(draw_lines(&ledger_plot(title, series, spin_up_days), &dir.join("ledger.png")))?;
-    done("ledger.png");
+    let plot = ledger_plot(title, series, spin_up_days);
+    write("ledger", &|path| draw_lines(&plot, path))?;
 
     // The peak shift window by window, with its between-replica error.
     let wf = "windows.csv";
@@ -145,18 +145,15 @@ pub fn draw_all(dir: &Path, m: &Merged) -> Result<Vec<String>, String> {
         let (start, end) = (col(w, wf, "start_s")?, col(w, wf, "end_s")?);
         let (shift, err) = (col(w, wf, "peak_shift_deg")?, col(w, wf, "peak_shift_error_deg")?);
         let err: Vec<f64> = keep.iter().map(|&r| err[r]).collect();
-        e(draw_lines(
-            &shift_plot(
-                format!("{sp} equatorial column peak shift, window by window, {of}"),
-                "per averaging window, +-1 s.e. between replicas".into(),
-                keep.iter().map(|&r| 0.5 * (start[r] + end[r]) / 86_400.0).collect(),
-                keep.iter().map(|&r| shift[r]).collect(),
-                Some(&err),
-                vec![],
-            ),
-            &dir.join("phase_series.png"),
-        ))?;
-        done("phase_series.png");
+        let plot = shift_plot(
+            format!("{sp} equatorial column peak shift, window by window, {of}"),
+            "per averaging window, +-1 s.e. between replicas".into(),
+            keep.iter().map(|&r| 0.5 * (start[r] + end[r]) / 86_400.0).collect(),
+            keep.iter().map(|&r| shift[r]).collect(),
+            Some(&err),
+            vec![],
+        );
+        write("phase_series", &|path| draw_lines(&plot, path))?;
     }
     Ok(files)
 }

@@ -25,6 +25,7 @@ use serde_json::{Map, Value, json};
 use super::tables::{self, SPECS, Table};
 use super::{ProvenanceFile, ReplicaRun, first_difference, identity, parse_marker};
 use crate::output::{PROVENANCE_FILE, atomic_write, staged};
+use crate::scenario::PlotFormat;
 use crate::tally::profiles;
 
 /// The run's NetCDF file name.
@@ -120,6 +121,8 @@ pub struct Merged {
     pub tables: Vec<(&'static str, Table)>,
     /// Whether to draw the plots.
     pub plots: bool,
+    /// Their file format: the one the replicas' plots were written in.
+    pub plot_format: PlotFormat,
     /// Remarks for the user.
     pub notes: Vec<String>,
 }
@@ -356,7 +359,27 @@ pub fn merge_products(runs: &[ReplicaRun]) -> Result<Merged, String> {
                 .into(),
         );
     }
-    Ok(Merged { provenance, summary, dataset, tables: merged_tables, plots: drawn, notes })
+    let plot_format = plot_format_of(&runs[0].dir.join("plots"));
+    Ok(Merged {
+        provenance,
+        summary,
+        dataset,
+        tables: merged_tables,
+        plots: drawn,
+        plot_format,
+        notes,
+    })
+}
+
+/// The format the plots in `dir` were written in (`outputs.plot_format` of the replicas), read
+/// from which files its column map has; PNG when it has neither.
+fn plot_format_of(dir: &Path) -> PlotFormat {
+    let has = |ext: &str| dir.join(format!("column_map.{ext}")).is_file();
+    match (has("png"), has("svg")) {
+        (true, true) => PlotFormat::Both,
+        (false, true) => PlotFormat::Svg,
+        _ => PlotFormat::Png,
+    }
 }
 
 /// Write `m` into the staging directory `dir`; the files written, relative.

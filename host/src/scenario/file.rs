@@ -290,6 +290,9 @@ pub struct OutputsSection {
     /// Which products: any of `netcdf`, `csv`, `plots` (default all three).
     #[serde(default)]
     pub products: Option<Vec<String>>,
+    /// File format of the plots: `png`, `svg` or `both` (default `png`).
+    #[serde(default)]
+    pub plot_format: Option<String>,
 }
 
 /// A list of numbers sharing one unit: `{ values = [0, 50, 100], unit = "km" }`.

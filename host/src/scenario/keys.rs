@@ -280,6 +280,7 @@ const TAKES: &[(&str, Takes)] = &[
     ("outputs.equator_band", Takes::Quantity(Kind::Angle, "10 deg")),
     ("outputs.products", Takes::List(r#"["netcdf", "csv", "plots"]"#)),
     ("outputs.products[]", Takes::Text("csv")),
+    ("outputs.plot_format", Takes::Text("svg")),
     ("sandbox.fuel_per_record", Takes::Number("1e7")),
     ("sandbox.fuel_per_call", Takes::Number("1e9")),
     ("sandbox.memory_cap", Takes::Text("256 MiB")),

@@ -104,8 +104,35 @@ pub struct Products {
     pub netcdf: bool,
     /// `ledger.csv` and `profiles/*.csv`.
     pub csv: bool,
-    /// `plots/*.png`.
+    /// `plots/*.png` (or `.svg`, by `plot_format`).
     pub plots: bool,
+    /// File format of the plots.
+    pub plot_format: PlotFormat,
+}
+
+/// File format of a run's plots (`outputs.plot_format`).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum PlotFormat {
+    /// PNG only (the default).
+    Png,
+    /// SVG only: shapes as vectors, text as text.
+    Svg,
+    /// Each plot as PNG and as SVG.
+    Both,
+}
+
+impl PlotFormat {
+    /// The scenario spellings, in the order of the variants.
+    pub const NAMES: [&'static str; 3] = ["png", "svg", "both"];
+
+    /// The file extensions each plot is written with.
+    pub fn extensions(self) -> &'static [&'static str] {
+        match self {
+            PlotFormat::Png => &["png"],
+            PlotFormat::Svg => &["svg"],
+            PlotFormat::Both => &["png", "svg"],
+        }
+    }
 }
 
 /// Time plan and products of a run.
@@ -885,7 +912,18 @@ impl Validator<'_> {
             .products
             .clone()
             .unwrap_or_else(|| vec!["netcdf".to_string(), "csv".to_string(), "plots".to_string()]);
-        let mut products = Products { netcdf: false, csv: false, plots: false };
+        let plot_format = match o.plot_format.as_deref().unwrap_or("png") {
+            "png" => PlotFormat::Png,
+            "svg" => PlotFormat::Svg,
+            "both" => PlotFormat::Both,
+            other => {
+                return Err(self.err(
+                    "outputs.plot_format",
+                    keys::unknown_message(other, &PlotFormat::NAMES, "plot format"),
+                ));
+            }
+        };
+        let mut products = Products { netcdf: false, csv: false, plots: false, plot_format };
         for n in &names {
             match n.as_str() {
                 "netcdf" => products.netcdf = true,

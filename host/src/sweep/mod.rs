@@ -18,7 +18,8 @@ use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 use std::sync::{Arc, Mutex};
 
-use exobound_products::{Line, LinePlot, LineStyle, MapPlot, draw_lines, draw_map};
+use exobound_products::ticks::format_number;
+use exobound_products::{ColourScale, Line, LinePlot, LineStyle, MapPlot, draw_lines, draw_map};
 use serde::{Deserialize, Serialize};
 
 use crate::compare::stats::mean_and_se;
@@ -96,6 +97,11 @@ pub struct PlanRecord {
     pub levels: Vec<usize>,
     /// Point values: per point, per parameter, (number, literal).
     pub points: Vec<Vec<(f64, String)>>,
+    /// Per parameter: whether its values are spaced logarithmically (a range with
+    /// `spacing = "log"`), so that plots draw its axis in log; absent in records written
+    /// before this field existed (then linear).
+    #[serde(default)]
+    pub log_spaced: Vec<bool>,
     /// Seeds.
     pub seeds: Vec<u64>,
 }
@@ -124,6 +130,11 @@ impl PlanRecord {
                 .points
                 .iter()
                 .map(|p| p.values.iter().map(|v| (v.number, v.literal.clone())).collect())
+                .collect(),
+            log_spaced: plan
+                .parameters
+                .iter()
+                .map(|p| matches!(p.axis, Axis::Range { log: true, .. }))
                 .collect(),
             seeds: plan.seeds.clone(),
         }
@@ -439,16 +450,61 @@ fn short(key: &str) -> String {
         .replace(|c: char| !c.is_ascii_alphanumeric() && c != '-' && c != '_', "_")
 }
 
+/// Whether parameter `k` is drawn on a log axis: declared log-spaced, and every value positive.
+fn log_axis(r: &SweepResult, k: usize) -> bool {
+    r.plan.log_spaced.get(k).copied().unwrap_or(false) && r.points.iter().all(|p| p.values[k] > 0.0)
+}
+
+/// The axis range of parameter values `v` (finite, ascending), widened by 5 % of the span each
+/// way (of the log span on a log axis) so that the end points sit inside the frame.
+fn padded_range(v: &[f64], log: bool) -> (f64, f64) {
+    let f = |x: f64| if log { x.log10() } else { x };
+    let g = |x: f64| if log { 10f64.powf(x) } else { x };
+    let (lo, hi) = (f(v[0]), f(v[v.len() - 1]));
+    let pad = if hi > lo {
+        0.05 * (hi - lo)
+    } else if log {
+        0.5
+    } else {
+        0.5 * lo.abs().max(1.0)
+    };
+    (g(lo - pad), g(hi + pad))
+}
+
+/// Cell edges around the parameter values `v` of a sweep map, strictly increasing: halfway
+/// between neighbours (the geometric mean on a log axis), the end cells as wide as their
+/// neighbour; None if `v` is not strictly increasing (the map then falls back to index cells).
+fn cell_edges(v: &[f64], log: bool) -> Option<Vec<f64>> {
+    if v.windows(2).any(|w| !(w[1] > w[0])) || v.iter().any(|x| !x.is_finite()) {
+        return None;
+    }
+    let f = |x: f64| if log { x.log10() } else { x };
+    let g = |x: f64| if log { 10f64.powf(x) } else { x };
+    let c: Vec<f64> = v.iter().map(|&x| f(x)).collect();
+    let n = c.len();
+    let half = |i: usize| if n > 1 { 0.5 * (c[i + 1] - c[i]) } else { 0.5 };
+    let mut e = vec![c[0] - half(0)];
+    e.extend((0..n.saturating_sub(1)).map(|i| c[i] + half(i)));
+    e.push(c[n - 1] + if n > 1 { half(n - 2) } else { 0.5 });
+    Some(e.into_iter().map(g).collect())
+}
+
 fn draw(out: &Path, r: &SweepResult) -> Result<(), String> {
     let plots = out.join("plots");
     std::fs::create_dir_all(&plots).map_err(|e| e.to_string())?;
     let e = |x: Result<(), exobound_products::ProductError>| x.map_err(|e| e.to_string());
     let mi = crate::output::results::measure_index;
+    let axis_label = |k: usize| {
+        let (key, unit) = (&r.plan.keys[k], &r.plan.units[k]);
+        if unit.is_empty() { key.clone() } else { format!("{key} ({unit})") }
+    };
     for (k, key) in r.plan.keys.iter().enumerate() {
         if r.points.iter().any(|p| !p.values[k].is_finite()) {
             continue; // words (e.g. a pattern name) have no axis
         }
-        let unit = &r.plan.units[k];
+        let log = log_axis(r, k);
+        let mut xs: Vec<f64> = r.points.iter().map(|p| p.values[k]).collect();
+        xs.sort_by(f64::total_cmp);
         for name in DRAWN {
             let Some(m) = mi(name) else { continue };
             let mut pts: Vec<(f64, f64, f64)> =
@@ -457,7 +513,7 @@ fn draw(out: &Path, r: &SweepResult) -> Result<(), String> {
             e(draw_lines(
                 &LinePlot {
                     title: format!("{}: {name} against {}", r.plan.title, short(key)),
-                    x_label: if unit.is_empty() { key.clone() } else { format!("{key} ({unit})") },
+                    x_label: axis_label(k),
                     y_label: format!("{name} ({})", MEASURES[m].unit),
                     lines: vec![Line {
                         label: format!("mean of {} seed(s)", r.plan.seeds.len()),
@@ -469,8 +525,9 @@ fn draw(out: &Path, r: &SweepResult) -> Result<(), String> {
                         style: LineStyle::Points,
                     }],
                     markers: vec![],
+                    log_x: log,
                     log_y: false,
-                    x_range: None,
+                    x_range: Some(padded_range(&xs, log)),
                     x_ticks: None,
                 },
                 &plots.join(format!("{name}__{}.png", short(key))),
@@ -488,9 +545,22 @@ fn draw(out: &Path, r: &SweepResult) -> Result<(), String> {
         let rest: usize = r.plan.levels[2..].iter().product();
         let x = axis(1, n1, rest);
         let y = axis(0, n0, n1 * rest);
-        // Cells in index space (the values may be log-spaced); the axis
-        // labels list the values.
-        let edges = |c: &[f64]| -> Vec<f64> { (0..=c.len()).map(|i| i as f64 - 0.5).collect() };
+        // Cells around the values, on a log axis for a log-spaced parameter, each tick at a
+        // value and labelled with it; values not in ascending order fall back to one cell
+        // per index, still labelled with the values.
+        let layout = |k: usize, v: &[f64]| {
+            let log = log_axis(r, k);
+            let labels: Vec<String> = v.iter().map(|&x| format_number(x, x)).collect();
+            match cell_edges(v, log) {
+                Some(edges) => (edges, log, v.to_vec(), labels),
+                None => {
+                    let edges = (0..=v.len()).map(|i| i as f64 - 0.5).collect();
+                    (edges, false, (0..v.len()).map(|i| i as f64).collect(), labels)
+                }
+            }
+        };
+        let (x_edges, x_log, x_ticks, x_tick_labels) = layout(1, &x);
+        let (y_edges, y_log, y_ticks, y_tick_labels) = layout(0, &y);
         for name in DRAWN {
             let Some(m) = mi(name) else { continue };
             let mut v = vec![0.0; n0 * n1];
@@ -498,27 +568,23 @@ fn draw(out: &Path, r: &SweepResult) -> Result<(), String> {
                 let (a, b) = (i / (n1 * rest), (i / rest) % n1);
                 v[a * n1 + b] += p.mean[m] / rest as f64;
             }
-            let lab = |k: usize, c: &[f64]| {
-                let vals: Vec<String> = c.iter().map(|x| format!("{x:.3e}")).collect();
-                format!(
-                    "{} index: {} ({})",
-                    short(&r.plan.keys[k]),
-                    vals.join(", "),
-                    r.plan.units[k]
-                )
-            };
             e(draw_map(
                 &MapPlot {
                     title: format!("{}: {name} ({})", r.plan.title, MEASURES[m].unit),
-                    x_label: lab(1, &x),
-                    y_label: lab(0, &y),
-                    x_edges: edges(&x),
-                    y_edges: edges(&y),
+                    x_label: axis_label(1),
+                    y_label: axis_label(0),
+                    x_edges: x_edges.clone(),
+                    y_edges: y_edges.clone(),
                     values: v,
                     colour_label: format!("{name} ({})", MEASURES[m].unit),
-                    log_scale: false,
-                    x_ticks: Some((0..n1).map(|i| i as f64).collect()),
-                    y_ticks: Some((0..n0).map(|i| i as f64).collect()),
+                    scale: ColourScale::Linear,
+                    marks: None,
+                    x_log,
+                    y_log,
+                    x_ticks: Some(x_ticks.clone()),
+                    y_ticks: Some(y_ticks.clone()),
+                    x_tick_labels: Some(x_tick_labels.clone()),
+                    y_tick_labels: Some(y_tick_labels.clone()),
                     overlays: vec![],
                 },
                 &plots.join(format!("map_{name}.png")),
@@ -526,4 +592,68 @@ fn draw(out: &Path, r: &SweepResult) -> Result<(), String> {
         }
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn sweep_map_cells_surround_the_values_halfway_in_log_or_linear() {
+        // Log: the edges are the geometric means of neighbours, sqrt(1e5 1e6) = 10^5.5
+        // (definition), and the end cells are as wide in log as their neighbours.
+        let e = cell_edges(&[1e5, 1e6, 1e7], true).unwrap();
+        let want = [4.5, 5.5, 6.5, 7.5].map(|p: f64| 10f64.powf(p));
+        assert!(e.iter().zip(want).all(|(a, b)| (a / b - 1.0).abs() < 1e-12), "{e:?}");
+        assert_eq!(cell_edges(&[1.0, 2.0, 4.0], false).unwrap(), vec![0.5, 1.5, 3.0, 5.0]);
+        assert_eq!(cell_edges(&[3.0], false).unwrap(), vec![2.5, 3.5]);
+        assert!(cell_edges(&[3.0, 1.0], false).is_none());
+        let (lo, hi) = padded_range(&[1e5, 1e7], true);
+        assert!((lo.log10() - 4.9).abs() < 1e-12 && (hi.log10() - 7.1).abs() < 1e-12);
+        assert_eq!(padded_range(&[0.0, 10.0], false), (-0.5, 10.5));
+    }
+
+    #[test]
+    fn a_log_spaced_range_is_recorded_and_drawn_on_log_axes_with_valued_ticks() {
+        let text = "scenario = \"demo-quick\"\n\
+             [[parameters]]\nkey = \"processes.impact-vapor.parameters.temperature\"\n\
+             values = [\"2000 K\", \"3000 K\"]\n\
+             [[parameters]]\nkey = \"processes.impact-vapor.parameters.flux\"\n\
+             range = { from = \"1e5 cm^-2 s^-1\", to = \"1e7 cm^-2 s^-1\", count = 3, spacing = \"log\" }\n";
+        let file: plan::PlanFile = toml::from_str(text).unwrap();
+        let plan = plan::check(&file, "t.toml", Path::new(".")).unwrap();
+        let record = PlanRecord::of(&plan);
+        assert_eq!(record.log_spaced, vec![false, true]);
+        let points = record
+            .points
+            .iter()
+            .enumerate()
+            .map(|(index, v)| PointResult {
+                index,
+                values: v.iter().map(|x| x.0).collect(),
+                literals: v.iter().map(|x| x.1.clone()).collect(),
+                mean: (0..MEASURES.len()).map(|m| (index * 10 + m) as f64).collect(),
+                se: vec![0.5; MEASURES.len()],
+            })
+            .collect();
+        let r = SweepResult { plan: record, points };
+        assert!(log_axis(&r, 1) && !log_axis(&r, 0));
+        let dir = std::env::temp_dir().join(format!("exobound-sweep-draw-{}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&dir);
+        std::fs::create_dir_all(&dir).unwrap();
+        draw(&dir, &r).expect("sweep plots");
+        for f in
+            ["map_total_content.png", "total_content__flux.png", "escape_rate__temperature.png"]
+        {
+            assert!(dir.join("plots").join(f).is_file(), "{f} missing");
+        }
+        if std::env::var_os("EXOBOUND_KEEP_TEST_OUTPUT").is_none() {
+            std::fs::remove_dir_all(&dir).unwrap();
+        }
+        // An old record without the field reads back as linear.
+        let mut json = serde_json::to_value(&r.plan).unwrap();
+        json.as_object_mut().unwrap().remove("log_spaced");
+        let old: PlanRecord = serde_json::from_value(json).unwrap();
+        assert!(old.log_spaced.is_empty());
+    }
 }
