@@ -259,6 +259,7 @@ const TAKES: &[(&str, Takes)] = &[
     ("processes[].module", Takes::Text("standard:photoionization")),
     ("processes[].role", Takes::Text("loss")),
     ("processes[].parameters", Takes::Table(r#"{ pattern = "apex" }"#)),
+    ("processes[].unlocked", Takes::Flag),
     ("run.dt", Takes::Quantity(Kind::Time, "600 s")),
     ("run.duration", Takes::Quantity(Kind::Time, "29.53 d")),
     ("run.spin_up", Takes::Quantity(Kind::Time, "3 d")),
