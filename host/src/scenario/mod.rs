@@ -227,10 +227,33 @@ impl Scenario {
         overrides: &[String],
         runtime: &Arc<Runtime>,
     ) -> Result<Scenario, ScenarioError> {
-        let file = keys::parse_file(text, origin, overrides)?;
+        let max_manifest = runtime.config().max_manifest;
+        let names = |spec: &str| manifest_name(&inputs, spec, max_manifest);
+        let file = keys::parse_file_named(text, origin, overrides, &names)?;
         let v = Validator { origin, inputs: &inputs };
         v.build(file, text, overrides, runtime)
     }
+}
+
+/// The manifest name of the module a `module` key names (`None` when it
+/// cannot be read), for selecting a process by name in an override. A
+/// catalog reference is taken at its word; the checks come later.
+fn manifest_name(inputs: &Inputs, spec: &str, max_manifest: usize) -> Option<String> {
+    if let Some((name, _)) = crate::share::catalog::parse_ref(spec) {
+        return Some(name.to_string());
+    }
+    let bytes = match spec.strip_prefix("standard:") {
+        Some(name) => match crate::standard::find(name).ok()? {
+            crate::standard::Found::Embedded(b) => b.to_vec(),
+            crate::standard::Found::File(p) => std::fs::read(p).ok()?,
+        },
+        None => match inputs {
+            Inputs::Dir(d) => std::fs::read(d.join(spec)).ok()?,
+            Inputs::Demo => std::fs::read(spec).ok()?,
+        },
+    };
+    let header = crate::runtime::module::read_header(spec, &bytes, max_manifest).ok()?;
+    Some(header.manifest.name)
 }
 
 struct Validator<'a> {
