@@ -164,7 +164,10 @@ fn number(x: f64) -> String {
 /// The parameters (with their units from `schema`) and input fields a
 /// reference point sets, e.g. `parameters: activation_energy = 0.1 eV;
 /// input: temperature = 600 (other fields zero)`.
-fn reference_setting(r: &exobound_sdk::ReferenceInfo, schema: &[exobound_sdk::ParamInfo]) -> String {
+fn reference_setting(
+    r: &exobound_sdk::ReferenceInfo,
+    schema: &[exobound_sdk::ParamInfo],
+) -> String {
     let params: Vec<String> = r
         .parameters
         .iter()

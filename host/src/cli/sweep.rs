@@ -70,9 +70,10 @@ fn absolute(p: &Path) -> Result<PathBuf> {
 /// point's modules, or every point's when a parameter of the plan sets a
 /// `module` (or `unlocked`) key, since only then can points differ in them.
 fn check_lock(plan: &sweep::plan::Plan, runtime: &Arc<Runtime>, update: bool) -> Result<()> {
-    let varies = plan.parameters.iter().any(|p| {
-        matches!(p.key.rsplit('.').next(), Some("module" | "unlocked" | "processes"))
-    });
+    let varies = plan
+        .parameters
+        .iter()
+        .any(|p| matches!(p.key.rsplit('.').next(), Some("module" | "unlocked" | "processes")));
     let seed = plan.seeds.first().copied().unwrap_or(1);
     let mut sources = Vec::new();
     let mut loaded = Vec::new();

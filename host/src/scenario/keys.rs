@@ -572,8 +572,7 @@ fn apply(
                                     manifest_name(&module(it)).is_some_and(|n| same_name(&n, sel))
                                 })
                             })
-                            .ok_or_else(
-                            || {
+                            .ok_or_else(|| {
                                 let known: Vec<String> = items
                                     .iter()
                                     .map(|it| {
@@ -589,8 +588,7 @@ fn apply(
                                      its index from 0 or by its module's name: {}",
                                     known.join(", ")
                                 )
-                            },
-                        )?
+                            })?
                     }
                 };
                 let len = items.len();

@@ -657,9 +657,9 @@ impl Validator<'_> {
                             ),
                         ));
                     }
-                    runtime.load(path).map_err(|e| {
-                        self.err(&module_key, format!("`{}`: {e}", path.display()))
-                    })?
+                    runtime
+                        .load(path)
+                        .map_err(|e| self.err(&module_key, format!("`{}`: {e}", path.display())))?
                 }
                 ModuleOrigin::Embedded(name) => {
                     let bytes = crate::standard::embedded(name).unwrap_or_default();
@@ -1078,4 +1078,3 @@ pub fn with_outer_bins(edges: &[f64], top: f64, n: usize) -> Vec<f64> {
     out.push(top);
     out
 }
-
