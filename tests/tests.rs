@@ -9,6 +9,7 @@ mod abi_equivalence;
 mod cache;
 mod csv_tables;
 mod engine;
+mod lock_commands;
 mod numeric_guards;
 mod observe_compare;
 mod orbit;

@@ -42,8 +42,24 @@ pub struct Inspection {
     pub parameters: Vec<exobound_sdk::ParamInfo>,
 }
 
-/// Inspect the module file at `path`.
+/// Inspect the module file at `path`, or the standard module `NAME` when
+/// `path` is `standard:NAME` (the copy embedded in this binary, or the one
+/// `$EXOBOUND_MODULE_DIR` holds).
 pub fn inspect(path: &Path) -> Result<Inspection, HostError> {
+    if let Some(name) = path.to_str().and_then(|p| p.strip_prefix("standard:")) {
+        let bytes = match crate::standard::find(name) {
+            Ok(crate::standard::Found::Embedded(b)) => b.to_vec(),
+            Ok(crate::standard::Found::File(p)) => return inspect(&p),
+            Err(detail) => {
+                return Err(HostError::Read {
+                    path: path.to_path_buf(),
+                    source: std::io::Error::new(std::io::ErrorKind::NotFound, detail),
+                });
+            }
+        };
+        let header = module::read_header(&format!("{name}.wasm"), &bytes, MAX_MANIFEST)?;
+        return Ok(from_header(Path::new(&format!("embedded:{name}")), header));
+    }
     let bytes = module::read_file(path)?;
     let header = module::read_header(&module::label_of(path), &bytes, MAX_MANIFEST)?;
     Ok(from_header(path, header))
@@ -104,15 +120,18 @@ pub fn render_text(i: &Inspection) -> String {
         s += "    (none)\n";
     }
     for q in &m.parameters {
-        let range = if q.choices.is_empty() {
-            format!("[{}, {}]", q.min.unwrap_or(f64::NEG_INFINITY), q.max.unwrap_or(f64::INFINITY))
+        // A choice has no unit: the unit column says what kind it is.
+        let (unit, range) = if q.choices.is_empty() {
+            let lo = number(q.min.unwrap_or(f64::NEG_INFINITY));
+            let hi = number(q.max.unwrap_or(f64::INFINITY));
+            (p(q.unit_or_dimensionless()), format!("[{lo}, {hi}]"))
         } else {
-            format!("one of {}", list(&q.choices, " | "))
+            ("choice".to_string(), format!("one of {}", list(&q.choices, " | ")))
         };
         s += &format!(
             "    {:<22} {:<14} default {:<14} {}\n",
             p(&q.name),
-            p(q.unit_or_dimensionless()),
+            unit,
             value(&q.default),
             range
         );
@@ -124,13 +143,54 @@ pub fn render_text(i: &Inspection) -> String {
     }
     for r in &m.reference_points {
         s += &format!(
-            "    {}: {} = {:e} (rel. tol. {:e}); {}\n",
+            "    {}: {} = {} (rel. tol. {}); {}\n",
             p(&r.check),
             p(&r.description),
-            r.expected,
-            r.tolerance,
+            number(r.expected),
+            number(r.tolerance),
             p(&r.source)
         );
+        s += &format!("      with {}\n", reference_setting(r, &m.parameters));
     }
     s
+}
+
+/// A number as the defaults are shown (exponent form when small or large,
+/// see [`ParamValue`]'s `Display`), so ranges and defaults read alike.
+fn number(x: f64) -> String {
+    ParamValue::Number(x).to_string()
+}
+
+/// The parameters (with their units from `schema`) and input fields a
+/// reference point sets, e.g. `parameters: activation_energy = 0.1 eV;
+/// input: temperature = 600 (other fields zero)`.
+fn reference_setting(
+    r: &exobound_sdk::ReferenceInfo,
+    schema: &[exobound_sdk::ParamInfo],
+) -> String {
+    let params: Vec<String> = r
+        .parameters
+        .iter()
+        .map(|(k, v)| {
+            let unit = schema
+                .iter()
+                .find(|q| &q.name == k && q.choices.is_empty() && !q.unit.is_empty())
+                .map(|q| format!(" {}", printable(&q.unit)))
+                .unwrap_or_default();
+            format!("{} = {}{unit}", printable(k), value(&Some(v.clone())))
+        })
+        .collect();
+    let input: Vec<String> =
+        r.input.iter().map(|(k, x)| format!("{} = {}", printable(k), number(*x))).collect();
+    let params = if params.is_empty() {
+        "parameters at their defaults".to_string()
+    } else {
+        format!("parameters: {}", params.join(", "))
+    };
+    let input = if input.is_empty() {
+        "all input fields zero".to_string()
+    } else {
+        format!("input: {} (other fields zero)", input.join(", "))
+    };
+    format!("{params}; {input}")
 }

@@ -27,6 +27,7 @@ pub mod runtime;
 pub mod scenario;
 pub mod share;
 pub mod species;
+pub mod standard;
 pub mod surface;
 pub mod sweep;
 pub mod tally;
@@ -36,12 +37,15 @@ pub mod vec3;
 pub mod vet;
 
 /// Directory where the build placed the standard process modules
-/// (`target/modules/<name>.wasm`), as known when this crate was compiled.
+/// (`target/modules/<name>.wasm`), as known when this crate was compiled:
+/// the files the tests and benches read. Scenarios do not look here: they
+/// load the copies embedded in the binary ([`standard`]).
 pub fn standard_module_dir() -> std::path::PathBuf {
     std::path::PathBuf::from(env!("EXOBOUND_MODULE_DIR"))
 }
 
-/// Path of the standard module `name` (e.g. `photoionization`).
+/// Path of the build's copy of the standard module `name` (e.g.
+/// `photoionization`), as [`standard_module_dir`].
 pub fn standard_module(name: &str) -> std::path::PathBuf {
     standard_module_dir().join(format!("{name}.wasm"))
 }

@@ -37,6 +37,9 @@ pub struct CompareArgs {
     /// With no scenario file: use the demo's quick preset.
     #[arg(long)]
     quick: bool,
+    /// Renew the module digests pinned in `exobound.lock` next to each scenario.
+    #[arg(long)]
+    update_lock: bool,
     /// Limits of every module call.
     #[command(flatten)]
     sandbox: super::sandbox::SandboxArgs,
@@ -83,15 +86,17 @@ pub fn run(mut args: CompareArgs) -> Result<()> {
     let runtime = Arc::new(
         Runtime::new(RuntimeConfig::default()).context("starting the WebAssembly runtime")?,
     );
-    // Check every variant before the first run, and take the common seeds
-    // from the reference scenario.
-    let mut seed0 = 0;
-    for (k, v) in variants.iter().enumerate() {
-        let s = v.source.load(&runtime).map_err(|e| anyhow!("variant `{}`: {e}", v.name))?;
-        if k == 0 {
-            seed0 = s.config.seed;
-        }
+    // Check every variant, and its modules against the lock, before the
+    // first run, and take the common seeds from the reference scenario.
+    let mut loaded = Vec::new();
+    for v in &variants {
+        loaded.push(v.source.load(&runtime).map_err(|e| anyhow!("variant `{}`: {e}", v.name))?);
     }
+    let checks: Vec<_> =
+        variants.iter().zip(&loaded).map(|(v, s)| (&v.source, s.modules.as_slice())).collect();
+    super::check_locks(&checks, args.update_lock)?;
+    let seed0 = loaded[0].config.seed;
+    drop(loaded);
     let seeds: Vec<u64> = (0..args.seeds).map(|k| seed0.wrapping_add(k)).collect();
     let total = variants.len() * seeds.len();
     let mut done = 0usize;

@@ -44,6 +44,9 @@ pub struct FitArgs {
     /// With no scenario file: the demo's quick preset.
     #[arg(long)]
     quick: bool,
+    /// Renew the module digests pinned in `exobound.lock` next to the scenario.
+    #[arg(long)]
+    update_lock: bool,
     /// Limits of every module call.
     #[command(flatten)]
     sandbox: super::sandbox::SandboxArgs,
@@ -73,7 +76,10 @@ pub fn run(mut args: FitArgs) -> Result<()> {
     let runtime = Arc::new(
         Runtime::new(RuntimeConfig::default()).context("starting the WebAssembly runtime")?,
     );
-    let seed0 = base.load(&runtime).map_err(|e| anyhow!("{e}"))?.config.seed;
+    let scenario = base.load(&runtime).map_err(|e| anyhow!("{e}"))?;
+    super::check_locks(&[(&base, &scenario.modules)], args.update_lock)?;
+    let seed0 = scenario.config.seed;
+    drop(scenario);
     let settings = FitSettings {
         seeds: (0..args.seeds.max(1)).map(|k| seed0.wrapping_add(k)).collect(),
         grid: args.grid,

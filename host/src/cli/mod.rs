@@ -115,6 +115,36 @@ enum ModuleAction {
     },
 }
 
+/// Check the scenarios a command is about to run against their
+/// `exobound.lock` files (`run`, `compare`, `sweep` and `fit` alike), say
+/// what was written, and name each module the scenarios leave unlocked.
+fn check_locks(
+    scenarios: &[(&exobound::checkpoint::ScenarioSource, &[exobound::scenario::ModuleUse])],
+    update: bool,
+) -> Result<()> {
+    use exobound::share::lock::{LockAction, enforce_all};
+    for (path, action) in enforce_all(scenarios, update)? {
+        if action != LockAction::Unchanged {
+            eprintln!("{}: {action:?}", path.display());
+        }
+    }
+    let mut named: Vec<&str> = Vec::new();
+    for m in scenarios.iter().flat_map(|(_, ms)| ms.iter()).filter(|m| m.unlocked) {
+        if !named.contains(&m.spec.as_str()) {
+            named.push(&m.spec);
+            eprintln!(
+                "note: module `{}` ({} {}, sha256 {}) is unlocked: exobound.lock does not pin \
+                 it, and the provenance says so",
+                exobound::text::printable(&m.spec),
+                exobound::text::printable(&m.name),
+                exobound::text::printable(&m.version),
+                m.sha256
+            );
+        }
+    }
+    Ok(())
+}
+
 /// Parse `args`, run the command, and map the outcome to an exit code.
 pub fn run(args: impl IntoIterator<Item = OsString>) -> ExitCode {
     let cli = match Cli::try_parse_from(args) {

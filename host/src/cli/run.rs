@@ -40,7 +40,8 @@ pub struct RunArgs {
     /// With no SCENARIO: run the demo's short preset (a smoke test of about a minute or less).
     #[arg(long)]
     quick: bool,
-    /// Renew the module digests pinned in `exobound.lock` next to the scenario.
+    /// Renew the module digests pinned in `exobound.lock` next to the scenario
+    /// (every command that runs the scenario checks them).
     #[arg(long, conflicts_with = "resume")]
     update_lock: bool,
     /// Limits of every module call.
@@ -108,13 +109,7 @@ pub fn run(args: RunArgs) -> Result<()> {
             super::replica::apply(&mut source, r, &runtime)?;
         }
         let scenario = source.load(&runtime).map_err(|e| anyhow!("{e}"))?;
-        if let Some(p) = &args.scenario {
-            let lock = exobound::share::lock::path_for(p);
-            match exobound::share::lock::enforce(&lock, &scenario.modules, args.update_lock)? {
-                exobound::share::lock::LockAction::Unchanged => {}
-                action => eprintln!("{}: {action:?}", lock.display()),
-            }
-        }
+        super::check_locks(&[(&source, &scenario.modules)], args.update_lock)?;
         eprintln!(
             "running {} ({}): {} steps of {} s, {} particles, {} threads",
             scenario.title,

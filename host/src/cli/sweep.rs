@@ -44,6 +44,9 @@ pub struct SweepArgs {
     /// With --emit-slurm: partition.
     #[arg(long)]
     partition: Option<String>,
+    /// Renew the module digests pinned in `exobound.lock` next to the plan's scenario.
+    #[arg(long)]
+    update_lock: bool,
     /// Limits of every module call (local runs; for Slurm shards put
     /// `sandbox.KEY=VALUE` in the plan's `set` list).
     #[command(flatten)]
@@ -61,6 +64,27 @@ enum SweepAction {
 
 fn absolute(p: &Path) -> Result<PathBuf> {
     std::path::absolute(p).with_context(|| format!("resolving {}", p.display()))
+}
+
+/// Check the plan's scenario against its `exobound.lock`: the first
+/// point's modules, or every point's when a parameter of the plan sets a
+/// `module` (or `unlocked`) key, since only then can points differ in them.
+fn check_lock(plan: &sweep::plan::Plan, runtime: &Arc<Runtime>, update: bool) -> Result<()> {
+    let varies = plan
+        .parameters
+        .iter()
+        .any(|p| matches!(p.key.rsplit('.').next(), Some("module" | "unlocked" | "processes")));
+    let seed = plan.seeds.first().copied().unwrap_or(1);
+    let mut sources = Vec::new();
+    let mut loaded = Vec::new();
+    for p in plan.points.iter().take(if varies { plan.points.len() } else { 1 }) {
+        let source = plan.source(p, seed, None);
+        loaded.push(source.load(runtime).map_err(|e| anyhow!("point {}: {e}", p.index))?);
+        sources.push(source);
+    }
+    let checks: Vec<_> =
+        sources.iter().zip(&loaded).map(|(s, l)| (s, l.modules.as_slice())).collect();
+    super::check_locks(&checks, update)
 }
 
 /// Run `exobound sweep`.
@@ -83,6 +107,12 @@ pub fn run(args: SweepArgs) -> Result<()> {
     }
     // The limits never change a result, so they are not part of the plan's digest.
     plan.set.extend(sandbox);
+    let runtime = Arc::new(
+        Runtime::new(RuntimeConfig::default()).context("starting the WebAssembly runtime")?,
+    );
+    // The lock is checked (and first written) here, so that the shards of
+    // a Slurm array only read it.
+    check_lock(&plan, &runtime, args.update_lock)?;
     if let Some(dir) = &args.emit_slurm {
         let shards = args.shards.unwrap_or(plan.points.len().min(1000)).max(1);
         std::fs::create_dir_all(dir.join("logs"))
@@ -123,9 +153,6 @@ pub fn run(args: SweepArgs) -> Result<()> {
     };
     let jobs =
         args.jobs.unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
-    let runtime = Arc::new(
-        Runtime::new(RuntimeConfig::default()).context("starting the WebAssembly runtime")?,
-    );
     let stop = Arc::new(AtomicBool::new(false));
     {
         let stop = stop.clone();

@@ -179,7 +179,10 @@ pub fn dataset(
     let modules: Vec<String> = prov
         .modules
         .iter()
-        .map(|m| format!("{}@{} ({}) sha256:{}", m.name, m.version, m.role, m.sha256))
+        .map(|m| {
+            let unlocked = if m.unlocked { " unlocked" } else { "" };
+            format!("{}@{} ({}) sha256:{}{unlocked}", m.name, m.version, m.role, m.sha256)
+        })
         .collect();
     ds.set_attribute("modules", modules.join("; "));
     ds.set_attribute(

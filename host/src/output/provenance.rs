@@ -4,7 +4,9 @@
 //! produced it. The record holds the scenario as written and as resolved
 //! (after the `--set` overrides), the seed, the engine version, and every
 //! module's name, version, role, parameters, file and SHA-256 digest, so
-//! that anyone can check they are running the same modules.
+//! that anyone can check they are running the same modules. A module the
+//! scenario marks `unlocked` (work in progress, not pinned by
+//! `exobound.lock`) is recorded as such.
 
 use serde::Serialize;
 
@@ -22,10 +24,14 @@ pub struct ModuleRecord {
     pub role: String,
     /// The `module` key as written.
     pub spec: String,
-    /// The resolved file.
+    /// The resolved file, or `embedded:NAME` for a standard module
+    /// embedded in the binary.
     pub path: String,
-    /// SHA-256 of the file, hex.
+    /// SHA-256 of the file (or of the embedded bytes), hex.
     pub sha256: String,
+    /// Whether the scenario marked the module `unlocked`: its digest was
+    /// not checked against `exobound.lock`.
+    pub unlocked: bool,
     /// Parameters passed, in the module's units.
     pub parameters: serde_json::Value,
 }
@@ -86,8 +92,9 @@ impl Provenance {
                     version: m.version.clone(),
                     role: m.role.as_str().into(),
                     spec: m.spec.clone(),
-                    path: m.path.display().to_string(),
+                    path: m.origin.to_string(),
                     sha256: m.sha256.clone(),
+                    unlocked: m.unlocked,
                     parameters: serde_json::to_value(&m.parameters).unwrap_or_default(),
                 })
                 .collect(),

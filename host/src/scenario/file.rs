@@ -225,6 +225,11 @@ pub struct ProcessEntry {
     /// number for dimensionless ones, or the name of an option.
     #[serde(default)]
     pub parameters: toml::Table,
+    /// `true` for a module given by path that is being developed: its
+    /// digest is not pinned in `exobound.lock` (default false), and the
+    /// run's provenance records it as unlocked.
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub unlocked: bool,
 }
 
 /// `[run]`.

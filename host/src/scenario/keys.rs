@@ -23,6 +23,19 @@ pub fn parse_file(
     origin: &str,
     overrides: &[String],
 ) -> Result<ScenarioFile, ScenarioError> {
+    parse_file_named(text, origin, overrides, &|_| None)
+}
+
+/// As [`parse_file`], with `manifest_name` giving the manifest name of the
+/// module a `[[processes]]` entry's `module` key names (`None` when it
+/// cannot be read), so that a process can be selected by the name its
+/// author gave it whatever its file is called.
+pub fn parse_file_named(
+    text: &str,
+    origin: &str,
+    overrides: &[String],
+    manifest_name: &dyn Fn(&str) -> Option<String>,
+) -> Result<ScenarioFile, ScenarioError> {
     let file: ScenarioFile =
         toml::from_str(text).map_err(|e| ScenarioError(describe_scenario(origin, text, &e)))?;
     if overrides.is_empty() {
@@ -33,7 +46,7 @@ pub fn parse_file(
     for o in overrides {
         let fail = |m: String| ScenarioError(format!("--set {o}: {m}"));
         check_override(o).map_err(fail)?;
-        apply(&mut table, o).map_err(fail)?;
+        apply(&mut table, o, manifest_name).map_err(fail)?;
     }
     toml::Value::Table(table).try_into::<ScenarioFile>().map_err(|e| {
         ScenarioError(format!("{origin}: after the --set overrides: {}", suggest(e.message())))
@@ -259,6 +272,7 @@ const TAKES: &[(&str, Takes)] = &[
     ("processes[].module", Takes::Text("standard:photoionization")),
     ("processes[].role", Takes::Text("loss")),
     ("processes[].parameters", Takes::Table(r#"{ pattern = "apex" }"#)),
+    ("processes[].unlocked", Takes::Flag),
     ("run.dt", Takes::Quantity(Kind::Time, "600 s")),
     ("run.duration", Takes::Quantity(Kind::Time, "29.53 d")),
     ("run.spin_up", Takes::Quantity(Kind::Time, "3 d")),
@@ -494,8 +508,37 @@ pub fn edit_distance(a: &str, b: &str) -> usize {
     prev[b.len()]
 }
 
-/// Apply one `KEY=VALUE` to `table`.
-fn apply(table: &mut toml::Table, setting: &str) -> Result<(), String> {
+/// Whether the `[[processes]]` entry whose `module` key is `module`
+/// answers to the selector `sel` of a dotted key by the key itself or the
+/// module's name in it (`standard:NAME`, `NAME@VERSION`, or the file name
+/// without `.wasm`), with `-` and `_` taken as the same (cargo writes
+/// `lab-psd` as `lab_psd.wasm`).
+fn selects_by_key(module: &str, sel: &str) -> bool {
+    if module == sel {
+        return true;
+    }
+    let stem = match (module.strip_prefix("standard:"), crate::share::catalog::parse_ref(module)) {
+        (Some(name), _) => name,
+        (None, Some((name, _))) => name,
+        (None, None) => {
+            let file = module.rsplit(['/', '\\']).next().unwrap_or(module);
+            file.strip_suffix(".wasm").unwrap_or(file)
+        }
+    };
+    same_name(stem, sel)
+}
+
+/// Whether two module names are the same, `-` and `_` taken as one.
+fn same_name(a: &str, b: &str) -> bool {
+    a.replace('_', "-") == b.replace('_', "-")
+}
+
+/// Apply one `KEY=VALUE` to `table`; `manifest_name` as for [`parse_file_named`].
+fn apply(
+    table: &mut toml::Table,
+    setting: &str,
+    manifest_name: &dyn Fn(&str) -> Option<String>,
+) -> Result<(), String> {
     let (key, raw) = setting.split_once('=').ok_or("expected KEY=VALUE, e.g. --set run.seed=7")?;
     let (key, raw) = (key.trim(), raw.trim());
     if key.is_empty() {
@@ -516,19 +559,38 @@ fn apply(table: &mut toml::Table, setting: &str) -> Result<(), String> {
             toml::Value::Table(t) => t,
             toml::Value::Array(items) => {
                 let sel = parts[n + 1];
+                let module = |it: &toml::Value| {
+                    it.get("module").and_then(|m| m.as_str()).unwrap_or_default().to_string()
+                };
                 let idx = match sel.parse::<usize>() {
                     Ok(i) => i,
-                    Err(_) => items
-                        .iter()
-                        .position(|it| {
-                            it.get("module").and_then(|m| m.as_str()).is_some_and(|m| {
-                                m == sel
-                                    || m.strip_prefix("standard:") == Some(sel)
-                                    || m.ends_with(&format!("/{sel}.wasm"))
-                                    || m == format!("{sel}.wasm")
+                    Err(_) => {
+                        // By the key first, then by the manifest name.
+                        let by_key = items.iter().position(|it| selects_by_key(&module(it), sel));
+                        by_key
+                            .or_else(|| {
+                                items.iter().position(|it| {
+                                    manifest_name(&module(it)).is_some_and(|n| same_name(&n, sel))
+                                })
                             })
-                        })
-                        .ok_or_else(|| format!("no entry of `{part}` uses the module `{sel}`"))?,
+                            .ok_or_else(|| {
+                                let known: Vec<String> = items
+                                    .iter()
+                                    .map(|it| {
+                                        let m = module(it);
+                                        match manifest_name(&m) {
+                                            Some(name) if name != m => format!("`{m}` ({name})"),
+                                            _ => format!("`{m}`"),
+                                        }
+                                    })
+                                    .collect();
+                                format!(
+                                    "no entry of `{part}` uses the module `{sel}`; select one by \
+                                     its index from 0 or by its module's name: {}",
+                                    known.join(", ")
+                                )
+                            })?
+                    }
                 };
                 let len = items.len();
                 let item = items.get_mut(idx).ok_or_else(|| {
@@ -541,7 +603,7 @@ fn apply(table: &mut toml::Table, setting: &str) -> Result<(), String> {
                         if rest.is_empty() {
                             return Err(format!("name a key inside `{part}.{sel}`"));
                         }
-                        apply(t, &format!("{rest}={raw}"))
+                        apply(t, &format!("{rest}={raw}"), manifest_name)
                     }
                     _ => Err(format!("`{part}.{sel}` is not a table")),
                 };
@@ -667,6 +729,8 @@ mod tests {
             "[run]\nseed = 1\n[[processes]]\nmodule = \"standard:impact-vapor\"\n[processes.parameters]\nflux = \"1 x\"\n",
         )
         .unwrap();
+        let none = |_: &str| None;
+        let apply = |t: &mut toml::Table, s: &str| apply(t, s, &none);
         apply(&mut t, "run.seed=7").unwrap();
         apply(&mut t, "run.dt=600 s").unwrap();
         apply(&mut t, "processes.impact-vapor.parameters.flux=\"2e4 cm^-2 s^-1\"").unwrap();
@@ -679,5 +743,31 @@ mod tests {
         assert!(apply(&mut t, "processes.9.role=x").unwrap_err().contains("out of range"));
         assert!(apply(&mut t, "processes.nope.role=x").unwrap_err().contains("`nope`"));
         assert!(apply(&mut t, "noequals").is_err());
+    }
+
+    #[test]
+    fn a_process_is_selected_by_file_name_or_manifest_name() {
+        let mut t: toml::Table = toml::from_str(
+            "[[processes]]\nmodule = \"standard:photoionization\"\n\
+             [[processes]]\nmodule = \"build/lab_psd_yield.wasm\"\n\
+             [[processes]]\nmodule = \"mine.wasm\"\n",
+        )
+        .unwrap();
+        let names = |m: &str| (m == "mine.wasm").then(|| "thermal-release".to_string());
+        // The file name with hyphens or underscores, and the manifest name.
+        apply(&mut t, "processes.lab-psd-yield.role=source", &names).unwrap();
+        apply(&mut t, "processes.lab_psd_yield.unlocked=true", &names).unwrap();
+        apply(&mut t, "processes.thermal-release.role=loss", &names).unwrap();
+        apply(&mut t, "processes.thermal_release.unlocked=true", &names).unwrap();
+        apply(&mut t, "processes.mine.parameters.x=1", &names).unwrap();
+        let p = &t["processes"];
+        assert_eq!(p[1]["role"].as_str(), Some("source"));
+        assert_eq!(p[1]["unlocked"].as_bool(), Some(true));
+        assert_eq!(p[2]["role"].as_str(), Some("loss"));
+        assert_eq!(p[2]["unlocked"].as_bool(), Some(true));
+        assert_eq!(p[2]["parameters"]["x"].as_integer(), Some(1));
+        // An unknown name lists the modules with their manifest names.
+        let e = apply(&mut t, "processes.nope.role=x", &names).unwrap_err();
+        assert!(e.contains("`mine.wasm` (thermal-release)"), "{e}");
     }
 }

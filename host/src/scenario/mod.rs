@@ -74,6 +74,39 @@ impl Inputs {
     }
 }
 
+/// Where the bytes of a module came from.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub enum ModuleOrigin {
+    /// A `.wasm` file: a path, a catalog's stored file, or a standard
+    /// module taken from `$EXOBOUND_MODULE_DIR`.
+    File(PathBuf),
+    /// The standard module of this name embedded in the binary.
+    Embedded(String),
+}
+
+impl ModuleOrigin {
+    /// The prefix of [`ModuleOrigin::Embedded`] in records (`embedded:NAME`).
+    pub const EMBEDDED_PREFIX: &'static str = "embedded:";
+
+    /// The file, if the module came from one.
+    pub fn file(&self) -> Option<&Path> {
+        match self {
+            ModuleOrigin::File(p) => Some(p),
+            ModuleOrigin::Embedded(_) => None,
+        }
+    }
+}
+
+impl std::fmt::Display for ModuleOrigin {
+    /// The file's path, or `embedded:NAME` (the form provenance records).
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            ModuleOrigin::File(p) => write!(f, "{}", p.display()),
+            ModuleOrigin::Embedded(n) => write!(f, "{}{n}", ModuleOrigin::EMBEDDED_PREFIX),
+        }
+    }
+}
+
 /// A process module as the scenario uses it.
 #[derive(Clone, Debug)]
 pub struct ModuleUse {
@@ -83,8 +116,11 @@ pub struct ModuleUse {
     pub role: Role,
     /// The `module` key as written.
     pub spec: String,
-    /// The resolved `.wasm` path.
-    pub path: PathBuf,
+    /// Where its bytes came from: the resolved `.wasm` file, or the binary.
+    pub origin: ModuleOrigin,
+    /// Whether the scenario marks it `unlocked`: a module given by path
+    /// that is being developed, whose digest `exobound.lock` does not pin.
+    pub unlocked: bool,
     /// Manifest name.
     pub name: String,
     /// Manifest version.
@@ -218,10 +254,33 @@ impl Scenario {
         overrides: &[String],
         runtime: &Arc<Runtime>,
     ) -> Result<Scenario, ScenarioError> {
-        let file = keys::parse_file(text, origin, overrides)?;
+        let max_manifest = runtime.config().max_manifest;
+        let names = |spec: &str| manifest_name(&inputs, spec, max_manifest);
+        let file = keys::parse_file_named(text, origin, overrides, &names)?;
         let v = Validator { origin, inputs: &inputs };
         v.build(file, text, overrides, runtime)
     }
+}
+
+/// The manifest name of the module a `module` key names (`None` when it
+/// cannot be read), for selecting a process by name in an override. A
+/// catalog reference is taken at its word; the checks come later.
+fn manifest_name(inputs: &Inputs, spec: &str, max_manifest: usize) -> Option<String> {
+    if let Some((name, _)) = crate::share::catalog::parse_ref(spec) {
+        return Some(name.to_string());
+    }
+    let bytes = match spec.strip_prefix("standard:") {
+        Some(name) => match crate::standard::find(name).ok()? {
+            crate::standard::Found::Embedded(b) => b.to_vec(),
+            crate::standard::Found::File(p) => std::fs::read(p).ok()?,
+        },
+        None => match inputs {
+            Inputs::Dir(d) => std::fs::read(d.join(spec)).ok()?,
+            Inputs::Demo => std::fs::read(spec).ok()?,
+        },
+    };
+    let header = crate::runtime::module::read_header(spec, &bytes, max_manifest).ok()?;
+    Some(header.manifest.name)
 }
 
 struct Validator<'a> {
@@ -545,10 +604,8 @@ impl Validator<'_> {
         maps::parse(&text, &shown, quantity, unit).map_err(|m| self.err(key, m))
     }
 
+    /// The file a path-given `module` key names, relative to the scenario.
     fn module_path(&self, spec: &str) -> PathBuf {
-        if let Some(name) = spec.strip_prefix("standard:") {
-            return standard_module_dir().join(format!("{name}.wasm"));
-        }
         match self.inputs {
             Inputs::Dir(d) => d.join(spec),
             Inputs::Demo => PathBuf::from(spec),
@@ -584,29 +641,60 @@ impl Validator<'_> {
                     ),
                 )
             })?;
-            let path = match crate::share::catalog::parse_ref(&entry.module) {
-                Some((name, version)) => crate::share::catalog::resolve(
-                    name,
-                    version,
-                    &crate::share::catalog::search_path(&self.catalog_dirs(file)),
-                )
-                .map_err(|e| self.err(&format!("{key}.module"), e))?,
-                None => self.module_path(&entry.module),
-            };
-            if !path.is_file() {
-                let hint = if entry.module.starts_with("standard:") {
-                    " (standard modules are built by `cargo build --release`; set EXOBOUND_MODULE_DIR if they live elsewhere)"
-                } else {
-                    " (paths are relative to the scenario file)"
-                };
+            let module_key = format!("{key}.module");
+            let catalog_ref = crate::share::catalog::parse_ref(&entry.module);
+            let standard = entry.module.strip_prefix("standard:");
+            if entry.unlocked && (catalog_ref.is_some() || standard.is_some()) {
                 return Err(self.err(
-                    &format!("{key}.module"),
-                    format!("module file `{}` not found{hint}", path.display()),
+                    &format!("{key}.unlocked"),
+                    format!(
+                        "only a module given by path can be unlocked; `{}` is a {} module, \
+                         whose digest exobound.lock always pins. Remove `unlocked = true`, or \
+                         name your development copy by its path (e.g. module = \"my-law.wasm\")",
+                        entry.module,
+                        if standard.is_some() { "standard" } else { "catalog" }
+                    ),
                 ));
             }
-            let loaded = runtime.load(&path).map_err(|e| {
-                self.err(&format!("{key}.module"), format!("`{}`: {e}", path.display()))
-            })?;
+            let origin = match (catalog_ref, standard) {
+                (Some((name, version)), _) => ModuleOrigin::File(
+                    crate::share::catalog::resolve(
+                        name,
+                        version,
+                        &crate::share::catalog::search_path(&self.catalog_dirs(file)),
+                    )
+                    .map_err(|e| self.err(&module_key, e))?,
+                ),
+                (None, Some(name)) => match crate::standard::find(name) {
+                    Ok(crate::standard::Found::File(p)) => ModuleOrigin::File(p),
+                    Ok(crate::standard::Found::Embedded(_)) => ModuleOrigin::Embedded(name.into()),
+                    Err(e) => return Err(self.err(&module_key, e)),
+                },
+                (None, None) => ModuleOrigin::File(self.module_path(&entry.module)),
+            };
+            let loaded = match &origin {
+                ModuleOrigin::File(path) => {
+                    if !path.is_file() {
+                        return Err(self.err(
+                            &module_key,
+                            format!(
+                                "module file `{}` not found (paths are relative to the scenario \
+                                 file)",
+                                path.display()
+                            ),
+                        ));
+                    }
+                    runtime
+                        .load(path)
+                        .map_err(|e| self.err(&module_key, format!("`{}`: {e}", path.display())))?
+                }
+                ModuleOrigin::Embedded(name) => {
+                    let bytes = crate::standard::embedded(name).unwrap_or_default();
+                    runtime
+                        .load_bytes(&format!("{name}.wasm (embedded)"), bytes)
+                        .map_err(|e| self.err(&module_key, format!("`{origin}`: {e}")))?
+                }
+            };
             let info = loaded.manifest().clone();
             let label = format!("{key} ({})", info.name);
             if !info.has_role(role) {
@@ -628,7 +716,8 @@ impl Validator<'_> {
                 index: i,
                 role,
                 spec: entry.module.clone(),
-                path,
+                origin,
+                unlocked: entry.unlocked,
                 name: info.name.clone(),
                 version: info.version.clone(),
                 sha256: loaded.sha256().to_string(),
@@ -1026,12 +1115,4 @@ pub fn with_outer_bins(edges: &[f64], top: f64, n: usize) -> Vec<f64> {
     out.extend((1..n).map(|k| last * ratio.powf(k as f64 / n as f64)));
     out.push(top);
     out
-}
-
-/// Directory of the standard modules: `$EXOBOUND_MODULE_DIR` if set, else
-/// where the build placed them.
-pub fn standard_module_dir() -> PathBuf {
-    std::env::var_os("EXOBOUND_MODULE_DIR")
-        .map(PathBuf::from)
-        .unwrap_or_else(crate::standard_module_dir)
 }

@@ -3,13 +3,16 @@
 //! Why this exists: a scenario names modules by path or `name@version`,
 //! and either can come to mean another file (a rebuilt module, a replaced
 //! catalog file). The lock file next to the scenario pins each module's
-//! SHA-256; `exobound run` refuses a module whose digest differs from its
-//! pin, naming the module and both digests, until `--update-lock` renews
-//! the pins. The first run writes the lock; a module added to the
-//! scenario later is pinned on its first run. Layout (TOML):
+//! SHA-256; every command that runs the scenario (`run`, `compare`, `sweep`,
+//! `fit`) refuses a module whose digest differs from its pin, naming the
+//! module and both digests, until `--update-lock` renews the pins. The
+//! first use writes the lock; a module added to the scenario later is
+//! pinned on its first use. A module given by path and marked `unlocked =
+//! true` in the scenario (work in progress, rebuilt often) is not pinned;
+//! the run's provenance records it as unlocked. Layout (TOML):
 //!
 //! ```toml
-//! # exobound.lock: module digests pinned by `exobound run` (see docs/sharing.md).
+//! # exobound.lock: module digests pinned by exobound (see docs/sharing.md).
 //! format = 1
 //! [[module]]
 //! spec = "photoionization@1.0.0"    # the scenario's `module` key as written
@@ -23,6 +26,7 @@ use std::path::{Path, PathBuf};
 use serde::{Deserialize, Serialize};
 
 use super::{ShareError, write_atomic};
+use crate::checkpoint::ScenarioSource;
 use crate::scenario::ModuleUse;
 
 /// File name of the lock, next to the scenario file.
@@ -77,6 +81,12 @@ pub fn path_for(scenario: &Path) -> PathBuf {
         .join(LOCK_FILE)
 }
 
+/// The lock path of a scenario source: next to its file, `None` for the
+/// built-in demo (which has no lock).
+pub fn path_for_source(source: &ScenarioSource) -> Option<PathBuf> {
+    source.input_dir.as_ref().map(|d| d.join(LOCK_FILE))
+}
+
 /// Read a lock file.
 pub fn read(path: &Path) -> Result<Lock, ShareError> {
     let text = std::fs::read_to_string(path)
@@ -100,7 +110,7 @@ pub fn read(path: &Path) -> Result<Lock, ShareError> {
 
 fn pins(modules: &[ModuleUse]) -> Vec<Pin> {
     let mut out: Vec<Pin> = Vec::new();
-    for m in modules {
+    for m in modules.iter().filter(|m| !m.unlocked) {
         if !out.iter().any(|p| p.spec == m.spec) {
             out.push(Pin {
                 spec: m.spec.clone(),
@@ -116,15 +126,16 @@ fn pins(modules: &[ModuleUse]) -> Vec<Pin> {
 fn write(path: &Path, lock: &Lock) -> Result<(), ShareError> {
     let body = toml::to_string(lock).map_err(|e| ShareError(e.to_string()))?;
     let text = format!(
-        "# exobound.lock: module digests pinned by `exobound run` (see docs/sharing.md).\n\
+        "# exobound.lock: module digests pinned by exobound (see docs/sharing.md).\n\
          # Renew with `exobound run SCENARIO --update-lock`.\n{body}"
     );
     write_atomic(path, text.as_bytes(), false)
 }
 
 /// Check the scenario's `modules` against the lock at `path`, writing or
-/// renewing it as described in the module docs. On a mismatch nothing is
-/// written and the error names each changed module with both digests.
+/// renewing it as described in the module docs. Modules marked `unlocked`
+/// are left out. On a mismatch nothing is written and the error names each
+/// changed module with both digests, and the fix.
 pub fn enforce(path: &Path, modules: &[ModuleUse], update: bool) -> Result<LockAction, ShareError> {
     let now = pins(modules);
     if update {
@@ -137,17 +148,19 @@ pub fn enforce(path: &Path, modules: &[ModuleUse], update: bool) -> Result<LockA
     }
     let mut lock = read(path)?;
     let mut changed = Vec::new();
+    let mut by_path = false;
     let mut added = Vec::new();
     for pin in &now {
         match lock.modules.iter().find(|p| p.spec == pin.spec) {
             Some(old) if old.sha256 != pin.sha256 => {
-                let file = modules
-                    .iter()
-                    .find(|m| m.spec == pin.spec)
-                    .map(|m| m.path.display().to_string())
-                    .unwrap_or_default();
+                let m = modules.iter().find(|m| m.spec == pin.spec);
+                let origin = m.map(|m| m.origin.to_string()).unwrap_or_default();
+                by_path |= m.is_some_and(|m| {
+                    !m.spec.starts_with("standard:")
+                        && crate::share::catalog::parse_ref(&m.spec).is_none()
+                });
                 changed.push(format!(
-                    "module `{}` ({} {}, file `{file}`) changed since it was locked: locked \
+                    "module `{}` ({} {}, from `{origin}`) changed since it was locked: locked \
                      sha256 {}, now {}",
                     pin.spec, pin.name, pin.version, old.sha256, pin.sha256
                 ));
@@ -157,8 +170,14 @@ pub fn enforce(path: &Path, modules: &[ModuleUse], update: bool) -> Result<LockA
         }
     }
     if !changed.is_empty() {
+        let develop = if by_path {
+            "; or, while you are developing a module given by path, mark its [[processes]] \
+             entry `unlocked = true` so that it is not pinned"
+        } else {
+            ""
+        };
         return Err(ShareError(format!(
-            "{}: {}. If the change is intended, run again with --update-lock",
+            "{}: {}. If the change is intended, run again with --update-lock{develop}",
             path.display(),
             changed.join("; ")
         )));
@@ -170,4 +189,29 @@ pub fn enforce(path: &Path, modules: &[ModuleUse], update: bool) -> Result<LockA
     lock.modules.extend(added);
     write(path, &lock)?;
     Ok(LockAction::Added(specs))
+}
+
+/// Check every scenario a command is about to run against its lock: the
+/// scenarios are grouped by lock file (one per scenario directory; the
+/// demo has none), and each lock is checked against the union of its
+/// scenarios' modules as [`enforce`] does. Returns what was done to each
+/// lock; stops at the first refusal.
+pub fn enforce_all(
+    scenarios: &[(&ScenarioSource, &[ModuleUse])],
+    update: bool,
+) -> Result<Vec<(PathBuf, LockAction)>, ShareError> {
+    let mut groups: Vec<(PathBuf, Vec<ModuleUse>)> = Vec::new();
+    for (source, modules) in scenarios {
+        let Some(path) = path_for_source(source) else { continue };
+        match groups.iter_mut().find(|(p, _)| *p == path) {
+            Some((_, all)) => all.extend(modules.iter().cloned()),
+            None => groups.push((path, modules.to_vec())),
+        }
+    }
+    let mut out = Vec::new();
+    for (path, modules) in groups {
+        let action = enforce(&path, &modules, update)?;
+        out.push((path, action));
+    }
+    Ok(out)
 }

@@ -5,7 +5,8 @@
 //! version, role, file and SHA-256. Months later, someone holding the
 //! output wants to know whether the modules at those paths are still the
 //! ones that made it. This reads the record and re-hashes each module file
-//! that is present.
+//! that is present; a standard module recorded as `embedded:NAME` is
+//! compared with the one this `exobound` carries.
 
 use std::path::Path;
 
@@ -14,6 +15,7 @@ use serde::Serialize;
 use super::ShareError;
 use crate::output::PROVENANCE_FILE;
 use crate::runtime::module::sha256_hex;
+use crate::scenario::ModuleOrigin;
 use crate::text::printable;
 
 /// What re-hashing a recorded module found.
@@ -92,9 +94,13 @@ pub fn trace(run_dir: &Path) -> Result<Trace, ShareError> {
     for m in modules {
         let file = s(m, "path");
         let recorded = s(m, "sha256");
-        let now = match std::fs::read(&file) {
-            Err(_) => FileState::Missing,
-            Ok(bytes) => {
+        let bytes = match file.strip_prefix(ModuleOrigin::EMBEDDED_PREFIX) {
+            Some(name) => crate::standard::embedded(name).map(<[u8]>::to_vec),
+            None => std::fs::read(&file).ok(),
+        };
+        let now = match bytes {
+            None => FileState::Missing,
+            Some(bytes) => {
                 let d = sha256_hex(&bytes);
                 if d == recorded { FileState::Same } else { FileState::Changed(d) }
             }
@@ -131,10 +137,20 @@ pub fn render_text(t: &Trace) -> String {
         t.seed
     );
     for m in &t.modules {
-        let state = match &m.now {
-            FileState::Same => "present, same digest".to_string(),
-            FileState::Changed(d) => format!("CHANGED: the file now has sha256 {}", p(d)),
-            FileState::Missing => "not present (cannot re-verify)".to_string(),
+        let embedded = m.path.starts_with(ModuleOrigin::EMBEDDED_PREFIX);
+        let state = match (&m.now, embedded) {
+            (FileState::Same, false) => "present, same digest".to_string(),
+            (FileState::Same, true) => "embedded in this exobound, same digest".to_string(),
+            (FileState::Changed(d), false) => {
+                format!("CHANGED: the file now has sha256 {}", p(d))
+            }
+            (FileState::Changed(d), true) => {
+                format!("CHANGED: the copy embedded in this exobound has sha256 {}", p(d))
+            }
+            (FileState::Missing, false) => "not present (cannot re-verify)".to_string(),
+            (FileState::Missing, true) => {
+                "not embedded in this exobound (cannot re-verify)".to_string()
+            }
         };
         s += &format!(
             "  {:<22} {:<8} {:<20} sha256 {}\n  {:<22} {} ({})\n",
