@@ -4,7 +4,10 @@
 //! produced it. The record holds the scenario as written and as resolved
 //! (after the `--set` overrides), the seed, the engine version, and every
 //! module's name, version, role, parameters, file and SHA-256 digest, so
-//! that anyone can check they are running the same modules.
+//! that anyone can check they are running the same modules. For a table
+//! parameter it records the table used: its values, and for a CSV file its
+//! path and SHA-256 digest (a module's default table is covered by the
+//! module's own digest).
 
 use serde::Serialize;
 
@@ -28,6 +31,8 @@ pub struct ModuleRecord {
     pub sha256: String,
     /// Parameters passed, in the module's units.
     pub parameters: serde_json::Value,
+    /// Each table parameter and the table used (empty if none).
+    pub tables: Vec<crate::scenario::table::TableUse>,
 }
 
 /// The g-factor table a run used.
@@ -89,6 +94,7 @@ impl Provenance {
                     path: m.path.display().to_string(),
                     sha256: m.sha256.clone(),
                     parameters: serde_json::to_value(&m.parameters).unwrap_or_default(),
+                    tables: m.tables.clone(),
                 })
                 .collect(),
             g_factor_table: GFactorRecord {
