@@ -27,6 +27,16 @@ use serde::{Deserialize, Serialize};
 use crate::math;
 use crate::roles::{ErrorCode, ProcessError};
 
+/// `x` for a message: exponent form when |x| < 1e-3 or >= 1e6 (so a
+/// cross-section reads `2e-20`, not twenty zeros), plain otherwise.
+fn num(x: f64) -> String {
+    if x != 0.0 && x.is_finite() && (x.abs() < 1e-3 || x.abs() >= 1e6) {
+        format!("{x:e}")
+    } else {
+        format!("{x}")
+    }
+}
+
 /// One column of a table parameter, as decoded from a manifest.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct ColumnInfo {
@@ -78,7 +88,7 @@ impl TableInfo {
             .enumerate()
             .map(|(j, c)| {
                 let order = if j == 0 { ", strictly increasing" } else { "" };
-                format!("`{}` in [{}, {}]{order}", c.header(), c.min, c.max)
+                format!("`{}` in [{}, {}]{order}", c.header(), num(c.min), num(c.max))
             })
             .collect();
         format!(
@@ -162,7 +172,7 @@ pub fn check_table(spec: &TableInfo, columns: &[Vec<f64>]) -> Result<(), TableFa
                 return fault(
                     Some(i + 1),
                     Some(j + 1),
-                    format!("{at} is {x}; every value must be a finite number"),
+                    format!("{at} is {}; every value must be a finite number", num(x)),
                 );
             }
             if x < col.min || x > col.max {
@@ -170,9 +180,10 @@ pub fn check_table(spec: &TableInfo, columns: &[Vec<f64>]) -> Result<(), TableFa
                     Some(i + 1),
                     Some(j + 1),
                     format!(
-                        "{at} = {x} is outside the column's allowed range [{}, {}] {}",
-                        col.min,
-                        col.max,
+                        "{at} = {} is outside the column's allowed range [{}, {}] {}",
+                        num(x),
+                        num(col.min),
+                        num(col.max),
                         if col.unit.is_empty() { "(dimensionless)" } else { &col.unit }
                     ),
                 );
@@ -186,8 +197,8 @@ pub fn check_table(spec: &TableInfo, columns: &[Vec<f64>]) -> Result<(), TableFa
                     "`{}` = {} does not increase on the row before ({}); sort the rows by `{}` \
                      and give each value once",
                     spec.columns[0].header(),
-                    columns[0][i],
-                    columns[0][i - 1],
+                    num(columns[0][i]),
+                    num(columns[0][i - 1]),
                     spec.columns[0].name
                 ),
             );
@@ -322,16 +333,16 @@ impl Curve {
                 return bad(format!(
                     "row {}: ({}, {}) is not a pair of finite numbers",
                     i + 1,
-                    x[i],
-                    y[i]
+                    num(x[i]),
+                    num(y[i])
                 ));
             }
             if i > 0 && x[i] <= x[i - 1] {
                 return bad(format!(
                     "row {}: x = {} does not increase on the row before ({})",
                     i + 1,
-                    x[i],
-                    x[i - 1]
+                    num(x[i]),
+                    num(x[i - 1])
                 ));
             }
             if scale == Scale::Log && y[i] <= 0.0 {
@@ -339,7 +350,7 @@ impl Curve {
                     "row {}: y = {} is not > 0, so it has no logarithm; use linear \
                      interpolation, or give positive values",
                     i + 1,
-                    y[i]
+                    num(y[i])
                 ));
             }
         }
@@ -379,9 +390,14 @@ impl Curve {
             Ok(self.clamped(x))
         } else {
             Err(ProcessError::outside_validity(format!(
-                "{} = {x} {} lies outside the tabulated range [{lo}, {hi}] {}; the table does \
-                 not reach it: extend the table to cover it",
-                self.label, self.unit, self.unit
+                "{} = {} {} lies outside the tabulated range [{}, {}] {}; the table does not \
+                 reach it: extend the table to cover it",
+                self.label,
+                num(x),
+                self.unit,
+                num(lo),
+                num(hi),
+                self.unit
             )))
         }
     }
