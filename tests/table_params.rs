@@ -28,7 +28,9 @@ use crate::support::{TempDir, loss_export, params, particles, text, wat};
 fn runtime() -> Arc<Runtime> {
     static RT: OnceLock<Arc<Runtime>> = OnceLock::new();
     RT.get_or_init(|| {
-        Arc::new(Runtime::new(RuntimeConfig { cache_dir: None, ..RuntimeConfig::default() }).unwrap())
+        Arc::new(
+            Runtime::new(RuntimeConfig { cache_dir: None, ..RuntimeConfig::default() }).unwrap(),
+        )
     })
     .clone()
 }
@@ -340,6 +342,22 @@ fn the_host_and_the_guest_each_check_a_table() {
     )]);
     let p = exobound_sdk::Params::decode(&exobound_sdk::Params::encode(&ok), &schema).unwrap();
     assert!(table_law::TableLaw::new(&p).is_ok());
+}
+
+#[test]
+fn a_table_of_the_most_rows_initialises_within_a_fiftieth_of_the_default_fuel() {
+    // Decoding and checking a table in `exobound_init` costs fuel; the
+    // largest table the fixture allows (64 rows) must fit the test limits
+    // (1e6 units per call, a fiftieth of the default 5e7).
+    let rt = crate::support::runtime();
+    let m = rt.load(&fixture()).unwrap();
+    let base = rt.instantiate(&m, &params(&[])).unwrap().unwrap();
+    eprintln!("exobound_init with the 3-row default: {} fuel units", base.fuel_used());
+    let t: Vec<f64> = (0..64).map(|i| 100.0 + 5.0 * i as f64).collect();
+    let table = ParamValue::Table(vec![t, vec![3.0e-20; 64]]);
+    let inst = rt.instantiate(&m, &params(&[("cross_section", table)])).unwrap().unwrap();
+    eprintln!("exobound_init with a 64-row table: {} fuel units", inst.fuel_used());
+    assert!(inst.fuel_used() < 1_000_000, "{}", inst.fuel_used());
 }
 
 // ---------------------------------------------------------------------------

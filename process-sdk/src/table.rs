@@ -167,12 +167,13 @@ pub fn check_table(spec: &TableInfo, columns: &[Vec<f64>]) -> Result<(), TableFa
     for i in 0..rows {
         for (j, col) in spec.columns.iter().enumerate() {
             let x = columns[j][i];
-            let at = format!("`{}`", col.header());
+            // Formatted only on a fault: this loop runs in every `exobound_init`.
+            let at = || format!("`{}`", col.header());
             if !x.is_finite() {
                 return fault(
                     Some(i + 1),
                     Some(j + 1),
-                    format!("{at} is {}; every value must be a finite number", num(x)),
+                    format!("{} is {}; every value must be a finite number", at(), num(x)),
                 );
             }
             if x < col.min || x > col.max {
@@ -180,7 +181,8 @@ pub fn check_table(spec: &TableInfo, columns: &[Vec<f64>]) -> Result<(), TableFa
                     Some(i + 1),
                     Some(j + 1),
                     format!(
-                        "{at} = {} is outside the column's allowed range [{}, {}] {}",
+                        "{} = {} is outside the column's allowed range [{}, {}] {}",
+                        at(),
                         num(x),
                         num(col.min),
                         num(col.max),
