@@ -50,6 +50,7 @@ fn hostile_manifest() -> Vec<u8> {
             max: Some(10.0),
             choices: vec![],
             default_origin: format!("common practice{TITLE}"),
+            table: None,
         }],
         reference_points: vec![ReferenceInfo {
             description: format!("one atom{CLEAR}"),

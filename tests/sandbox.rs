@@ -145,7 +145,7 @@ fn wrong_abi_major_is_refused_naming_both_versions() {
     let e = wat_error(wat(Some("2.0.0"), Some(&m), "", &loss_export("(local.get $n)")));
     assert!(matches!(e, HostError::AbiUnsupported { .. }), "{e}");
     let msg = e.to_string();
-    assert!(msg.contains("2.0.0") && msg.contains("1.0.0"), "{msg}");
+    assert!(msg.contains("2.0.0") && msg.contains("1.1.0"), "{msg}");
 }
 
 #[test]

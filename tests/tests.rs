@@ -1,7 +1,7 @@
 //! The integration tests of exobound: one test binary, one module per area.
 //!
-//! Fixture modules are built from source: the hostile Rust fixture by this
-//! crate's build script, the hostile WAT fixtures by `support::wat`.
+//! Fixture modules are built from source: the hostile and table Rust
+//! fixtures by this crate's build script, the WAT fixtures by `support::wat`.
 
 mod support;
 
@@ -24,5 +24,6 @@ mod scaffold;
 mod scenario_errors;
 mod standard_modules;
 mod sweep_fit;
+mod table_params;
 mod under_load;
 mod vet_sign;

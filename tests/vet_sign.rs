@@ -169,6 +169,7 @@ fn vet_names_the_check_each_bad_fixture_fails() {
         max: Some(2.0),
         choices: vec![],
         default_origin: "common practice".into(),
+        table: None,
     });
     let good_manifest = manifest("abi-two", &["loss"], vec![point("loss-rate", &[], 1e-6)]);
     let cases: Vec<(&str, Vec<u8>, Vec<&str>)> = vec![

@@ -2,8 +2,10 @@
 //!
 //! Why this exists: before anyone trusts a module from another group they
 //! want to see, without running it, what law it claims to be, its digest,
-//! the ABI it was built for, its parameters with units and ranges, and the
-//! reference points it promises. This reads only the file's sections.
+//! the ABI it was built for, its parameters with units and ranges (for a
+//! table parameter its columns, row limits and default table), and the
+//! reference points it promises. This reads only the file's sections, so
+//! what it prints is what the file's digest covers.
 
 use std::path::Path;
 
@@ -87,6 +89,54 @@ fn value(v: &Option<ParamValue>) -> String {
     }
 }
 
+/// Rows of a default table printed by the text view; `--json` gives all.
+pub const TABLE_ROWS_SHOWN: usize = 12;
+
+/// A table parameter: its columns with units and ranges, its row limits,
+/// and its default table (the first [`TABLE_ROWS_SHOWN`] rows).
+fn table_param(q: &exobound_sdk::ParamInfo, t: &exobound_sdk::table::TableInfo) -> String {
+    let p = |x: &str| printable(x).into_owned();
+    let mut s = format!(
+        "    {:<22} {:<14} {} to {} rows; first column strictly increasing\n",
+        p(&q.name),
+        "table",
+        t.min_rows,
+        t.max_rows
+    );
+    s += &format!("    {:<22} {} (default: {})\n", "", p(&q.description), p(&q.default_origin));
+    for c in &t.columns {
+        s += &format!(
+            "    {:<22}   column {:<20} {:<14} [{}, {}]\n",
+            "",
+            p(&c.name),
+            p(if c.unit.is_empty() { "dimensionless" } else { &c.unit }),
+            crate::output::number::text(c.min),
+            crate::output::number::text(c.max)
+        );
+    }
+    match &q.default {
+        Some(ParamValue::Table(cols)) => {
+            let rows = cols.first().map_or(0, Vec::len);
+            s += &format!("    {:<22}   default table ({rows} rows):\n", "");
+            s += &format!("    {:<22}     {}\n", "", p(&t.header()));
+            for i in 0..rows.min(TABLE_ROWS_SHOWN) {
+                let row: Vec<String> =
+                    cols.iter().map(|c| crate::output::number::text(c[i])).collect();
+                s += &format!("    {:<22}     {}\n", "", row.join(","));
+            }
+            if rows > TABLE_ROWS_SHOWN {
+                s += &format!(
+                    "    {:<22}     ... {} more rows (`--json` lists them all)\n",
+                    "",
+                    rows - TABLE_ROWS_SHOWN
+                );
+            }
+        }
+        _ => s += &format!("    {:<22}   default table: (required)\n", ""),
+    }
+    s
+}
+
 /// Module-provided strings joined by `sep`, each made safe to print.
 fn list(items: &[String], sep: &str) -> String {
     items.iter().map(|x| printable(x)).collect::<Vec<_>>().join(sep)
@@ -120,6 +170,10 @@ pub fn render_text(i: &Inspection) -> String {
         s += "    (none)\n";
     }
     for q in &m.parameters {
+        if let Some(t) = &q.table {
+            s += &table_param(q, t);
+            continue;
+        }
         // A choice has no unit: the unit column says what kind it is.
         let (unit, range) = if q.choices.is_empty() {
             let lo = number(q.min.unwrap_or(f64::NEG_INFINITY));

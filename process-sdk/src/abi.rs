@@ -9,7 +9,7 @@
 use std::alloc::Layout;
 use std::sync::{Mutex, Once};
 
-use crate::manifest::Role;
+use crate::manifest::{Manifest, ParamKind, Role};
 use crate::params::Params;
 use crate::records::Record;
 use crate::roles::{ErrorCode, Process, ProcessError};
@@ -156,6 +156,20 @@ pub unsafe fn last_error(buf: *mut u8, cap: usize) -> usize {
         unsafe { core::ptr::copy_nonoverlapping(bytes.as_ptr(), buf, k) }
     }
     bytes.len()
+}
+
+/// The `exobound:abi` section of a module with manifest `m`: the oldest ABI
+/// version that can run it, 1.1.0 if it declares a table parameter (which a
+/// 1.0 host cannot decode), else 1.0.0.
+pub const fn version_bytes(m: &Manifest) -> [u8; 5] {
+    let mut i = 0;
+    while i < m.parameters.len() {
+        if matches!(m.parameters[i].kind, ParamKind::Table { .. }) {
+            return crate::ABI_VERSION_BYTES;
+        }
+        i += 1;
+    }
+    crate::ABI_BASE_VERSION_BYTES
 }
 
 /// Compile-time check that the roles listed in `export_process!` are

@@ -15,9 +15,10 @@
 //!   [`Impact`], [`Outcome`], [`OutcomeKind`], [`RngKey`];
 //! - randomness: [`Rng`] and its samplers ([`sample`]);
 //! - [`math`] and [`constants`];
-//! - manifests: [`Manifest`], [`ParamSpec`], [`ParamKind`], [`Origin`], [`Input`],
-//!   [`ReferencePoint`], [`Check`], [`Value`], [`Role`], [`Pool`];
-//! - parameters: [`Params`], [`ParamValue`]; errors: [`ProcessError`], [`ErrorCode`].
+//! - manifests: [`Manifest`], [`ParamSpec`], [`ParamKind`], [`TableColumn`], [`Origin`],
+//!   [`Input`], [`ReferencePoint`], [`Check`], [`Value`], [`Role`], [`Pool`];
+//! - parameters: [`Params`], [`ParamValue`]; table parameters: [`TableRef`] and the
+//!   interpolating [`Curve`] ([`table`]); errors: [`ProcessError`], [`ErrorCode`].
 //!
 //! Dependencies are serde, rmp-serde and libm only; the host depends on
 //! this crate, never the reverse.
@@ -30,13 +31,14 @@ pub mod records;
 pub mod rng;
 pub mod roles;
 pub mod sample;
+pub mod table;
 
 #[doc(hidden)]
 pub mod abi;
 
 pub use manifest::{
     Check, Input, Manifest, ManifestInfo, Origin, ParamInfo, ParamKind, ParamSpec, Pool,
-    ReferenceInfo, ReferencePoint, Role, Value,
+    ReferenceInfo, ReferencePoint, Role, TableColumn, Value,
 };
 pub use params::{ParamValue, Params};
 pub use records::{
@@ -48,13 +50,22 @@ pub use roles::{
     ErrorCode, Loss, Process, ProcessError, ReservoirProcess, Source, SurfaceInteraction,
 };
 pub use sample::Direction;
+pub use table::{Curve, TableRef};
 
-/// ABI version implemented by this SDK, as stored in the `exobound:abi`
-/// custom section: `major.minor.patch` in ASCII.
-pub const ABI_VERSION: &str = "1.0.0";
+/// ABI version implemented by this SDK: `major.minor.patch` in ASCII.
+/// 1.1 adds table parameters. A module is stamped in its `exobound:abi`
+/// section with the oldest version that can run it: [`ABI_VERSION`] if it
+/// declares a table parameter, else [`ABI_BASE_VERSION`], so a module that
+/// does not use tables still loads in a host that knows only ABI 1.0.
+pub const ABI_VERSION: &str = "1.1.0";
 /// [`ABI_VERSION`] as the bytes of the custom section.
 #[doc(hidden)]
-pub const ABI_VERSION_BYTES: [u8; 5] = *b"1.0.0";
+pub const ABI_VERSION_BYTES: [u8; 5] = *b"1.1.0";
+/// The version stamped on modules that declare no table parameter.
+pub const ABI_BASE_VERSION: &str = "1.0.0";
+/// [`ABI_BASE_VERSION`] as the bytes of the custom section.
+#[doc(hidden)]
+pub const ABI_BASE_VERSION_BYTES: [u8; 5] = *b"1.0.0";
 /// Name of the custom section holding the ABI version.
 pub const ABI_SECTION: &str = "exobound:abi";
 /// Name of the custom section holding the MessagePack manifest.
@@ -72,6 +83,8 @@ pub const MANIFEST_SECTION: &str = "exobound:manifest";
 /// error. On `wasm32` the macro emits the ABI v1 exports and the
 /// `exobound:abi` and `exobound:manifest` custom sections; on other targets
 /// it emits only the compile-time checks, and the type is called directly.
+/// The `exobound:abi` section holds the oldest ABI version that can run the
+/// module (see [`ABI_VERSION`]).
 /// Invoke it once per `cdylib`.
 #[macro_export]
 macro_rules! export_process {
@@ -95,7 +108,8 @@ macro_rules! export_process {
                 $crate::manifest::encode::<MANIFEST_LEN>(&<$law as $crate::Process>::MANIFEST);
             #[unsafe(link_section = "exobound:abi")]
             #[used]
-            static EXOBOUND_ABI: [u8; 5] = $crate::ABI_VERSION_BYTES;
+            static EXOBOUND_ABI: [u8; 5] =
+                $crate::abi::version_bytes(&<$law as $crate::Process>::MANIFEST);
 
             #[unsafe(no_mangle)]
             pub extern "C" fn exobound_alloc(size: u32, align: u32) -> u32 {
@@ -229,5 +243,6 @@ mod tests {
     #[test]
     fn abi_version_bytes_match() {
         assert_eq!(ABI_VERSION.as_bytes(), &ABI_VERSION_BYTES);
+        assert_eq!(ABI_BASE_VERSION.as_bytes(), &ABI_BASE_VERSION_BYTES);
     }
 }

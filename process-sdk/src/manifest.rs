@@ -17,10 +17,14 @@
 //!
 //! Wire format (ABI v1): a MessagePack map with string keys, the field names
 //! of [`ManifestInfo`]; numbers are float64; enumerations are strings.
+//! ABI 1.1 adds table parameters: a table entry carries a ninth key,
+//! `table` (see [`TableInfo`]); every other entry is written exactly as in
+//! ABI 1.0.
 
 use serde::{Deserialize, Serialize};
 
 use crate::params::ParamValue;
+use crate::table::{ColumnInfo, TableInfo};
 
 /// The roles a module can play.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -188,6 +192,33 @@ pub enum ParamKind {
         /// The allowed options.
         options: &'static [&'static str],
     },
+    /// A table of numbers (ABI 1.1): named columns with units, the first
+    /// strictly increasing. The parameter's own `unit` stays empty.
+    Table {
+        /// The columns, in order; the first is the abscissa.
+        columns: &'static [TableColumn],
+        /// Fewest rows allowed (at least 1).
+        min_rows: u32,
+        /// Most rows allowed.
+        max_rows: u32,
+        /// Default table as rows, each with one value per column (in the
+        /// columns' units), or `None` if required. A row of the wrong
+        /// length is a compile error.
+        default: Option<&'static [&'static [f64]]>,
+    },
+}
+
+/// One column of a table parameter.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct TableColumn {
+    /// Column name, e.g. `temperature` (ASCII letters, digits, `_`, `-`).
+    pub name: &'static str,
+    /// Unit of the column's values, e.g. `K`; empty for dimensionless.
+    pub unit: &'static str,
+    /// Smallest allowed value, inclusive, in `unit`.
+    pub min: f64,
+    /// Largest allowed value, inclusive, in `unit`.
+    pub max: f64,
 }
 
 /// One entry of the parameter schema.
@@ -328,21 +359,33 @@ pub struct ParamInfo {
     /// Where the default comes from: `source: ...`, `common practice`,
     /// `from memory: ...` or `no default`.
     pub default_origin: String,
+    /// The declared columns and row limits (table parameters only, ABI
+    /// 1.1); absent from the wire for numbers and choices.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub table: Option<TableInfo>,
 }
 
-/// Whether a decoded parameter is a number or a choice.
+/// Whether a decoded parameter is a number, a choice or a table.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum ParamKindInfo {
     /// A number with a range.
     Number,
     /// One of named options.
     Choice,
+    /// A table of numbers (ABI 1.1).
+    Table,
 }
 
 impl ParamInfo {
-    /// Number or choice.
+    /// Number, choice or table.
     pub fn kind(&self) -> ParamKindInfo {
-        if self.choices.is_empty() { ParamKindInfo::Number } else { ParamKindInfo::Choice }
+        if self.table.is_some() {
+            ParamKindInfo::Table
+        } else if self.choices.is_empty() {
+            ParamKindInfo::Number
+        } else {
+            ParamKindInfo::Choice
+        }
     }
 
     /// The unit, or "dimensionless".
@@ -360,6 +403,7 @@ impl ParamInfo {
                 self.unit_or_dimensionless()
             ),
             ParamKindInfo::Choice => format!("allowed options: {}", self.choices.join(", ")),
+            ParamKindInfo::Table => self.table.as_ref().map(TableInfo::allowed).unwrap_or_default(),
         }
     }
 }
@@ -451,6 +495,7 @@ fn value_owned(v: Value) -> ParamValue {
 impl ParamSpec {
     /// The owned form.
     pub fn to_info(&self) -> ParamInfo {
+        let mut table = None;
         let (default, min, max, choices) = match self.kind {
             ParamKind::Number { default, min, max } => {
                 (default.map(ParamValue::Number), Some(min), Some(max), Vec::new())
@@ -461,6 +506,30 @@ impl ParamSpec {
                 None,
                 options.iter().map(|s| s.to_string()).collect(),
             ),
+            ParamKind::Table { columns, min_rows, max_rows, default } => {
+                table = Some(TableInfo {
+                    columns: columns
+                        .iter()
+                        .map(|c| ColumnInfo {
+                            name: c.name.to_string(),
+                            unit: c.unit.to_string(),
+                            min: c.min,
+                            max: c.max,
+                        })
+                        .collect(),
+                    min_rows,
+                    max_rows,
+                });
+                // Rows to columns; a short row reads as NaN, which validation refuses.
+                let by_column = |rows: &[&[f64]]| {
+                    (0..columns.len())
+                        .map(|j| {
+                            rows.iter().map(|r| r.get(j).copied().unwrap_or(f64::NAN)).collect()
+                        })
+                        .collect()
+                };
+                (default.map(|rows| ParamValue::Table(by_column(rows))), None, None, Vec::new())
+            }
         };
         ParamInfo {
             name: self.name.to_string(),
@@ -471,6 +540,7 @@ impl ParamSpec {
             max,
             choices,
             default_origin: origin_text(self.origin),
+            table,
         }
     }
 }
@@ -561,6 +631,20 @@ impl<const N: usize> Writer<N> {
     const fn array(&mut self, n: usize) {
         self.header(n, 0x90, 15, 0xdc, 0xdd);
     }
+    const fn uint(&mut self, x: u32) {
+        if x <= 0x7f {
+            self.byte(x as u8);
+        } else if x <= 0xFF {
+            self.byte(0xcc);
+            self.byte(x as u8);
+        } else if x <= 0xFFFF {
+            self.byte(0xcd);
+            self.be(x as u64, 2);
+        } else {
+            self.byte(0xce);
+            self.be(x as u64, 4);
+        }
+    }
     const fn str(&mut self, s: &str) {
         let b = s.as_bytes();
         let n = b.len();
@@ -642,7 +726,8 @@ impl<const N: usize> Writer<N> {
         }
     }
     const fn param(&mut self, p: &ParamSpec) {
-        self.map(8);
+        // Numbers and choices keep the 8 keys of ABI 1.0; a table adds `table`.
+        self.map(if matches!(p.kind, ParamKind::Table { .. }) { 9 } else { 8 });
         self.key("name");
         self.str(p.name);
         self.key("unit");
@@ -676,9 +761,71 @@ impl<const N: usize> Writer<N> {
                 self.key("choices");
                 self.strs(options);
             }
+            ParamKind::Table { default, .. } => {
+                self.key("default");
+                match default {
+                    Some(rows) => self.table_columns(p, rows),
+                    None => self.nil(),
+                }
+                self.key("min");
+                self.nil();
+                self.key("max");
+                self.nil();
+                self.key("choices");
+                self.array(0);
+            }
         }
         self.key("default_origin");
         self.origin(p.origin);
+        if let ParamKind::Table { columns, min_rows, max_rows, .. } = p.kind {
+            self.key("table");
+            self.map(3);
+            self.key("columns");
+            self.array(columns.len());
+            let mut j = 0;
+            while j < columns.len() {
+                self.map(4);
+                self.key("name");
+                self.str(columns[j].name);
+                self.key("unit");
+                self.str(columns[j].unit);
+                self.key("min");
+                self.f64(columns[j].min);
+                self.key("max");
+                self.f64(columns[j].max);
+                j += 1;
+            }
+            self.key("min_rows");
+            self.uint(min_rows);
+            self.key("max_rows");
+            self.uint(max_rows);
+        }
+    }
+    /// A default table, given as rows, written as one array per column.
+    const fn table_columns(&mut self, p: &ParamSpec, rows: &[&[f64]]) {
+        let ncols = match p.kind {
+            ParamKind::Table { columns, .. } => columns.len(),
+            _ => 0,
+        };
+        let mut i = 0;
+        while i < rows.len() {
+            assert!(
+                rows[i].len() == ncols,
+                "manifest: a row of a table parameter's default has not one value per column"
+            );
+            i += 1;
+        }
+        self.array(ncols);
+        let mut j = 0;
+        while j < ncols {
+            self.array(rows.len());
+            i = 0;
+            while i < rows.len() {
+                self.f64(rows[i][j]);
+                i += 1;
+            }
+            j += 1;
+        }
     }
     const fn reference(&mut self, r: &ReferencePoint) {
         self.map(7);
@@ -826,6 +973,21 @@ mod tests {
                 kind: ParamKind::Number { default: None, min: 10.0, max: 5000.0 },
                 origin: Origin::NoDefault,
             },
+            ParamSpec {
+                name: "yield_table",
+                unit: "",
+                description: "a table; max_rows = 200 needs the uint8 form of MessagePack",
+                kind: ParamKind::Table {
+                    columns: &[
+                        TableColumn { name: "temperature", unit: "K", min: 0.0, max: 1.0e4 },
+                        TableColumn { name: "yield", unit: "", min: 0.0, max: 1.0 },
+                    ],
+                    min_rows: 2,
+                    max_rows: 200,
+                    default: Some(&[&[100.0, 0.5], &[200.0, 0.25], &[300.0, 0.125]]),
+                },
+                origin: Origin::CommonPractice,
+            },
         ],
         reference_points: &[ReferencePoint {
             description: "at 1 AU",
@@ -846,5 +1008,37 @@ mod tests {
         assert_eq!(decoded, EXAMPLE.to_info());
         assert_eq!(decoded.parsed_roles().unwrap(), vec![Role::Source, Role::Loss]);
         assert_eq!(decoded.parameters[0].default_origin, "source: Yakshinskiy & Madey 1999");
+        // The default table arrives as columns.
+        assert_eq!(
+            decoded.parameters[3].default,
+            Some(ParamValue::Table(vec![vec![100.0, 200.0, 300.0], vec![0.5, 0.25, 0.125]]))
+        );
+        // The const writer and rmp-serde's named encoding agree byte for byte.
+        assert_eq!(rmp_serde::to_vec_named(&EXAMPLE.to_info()).unwrap(), BYTES.to_vec());
+    }
+
+    #[test]
+    fn entries_without_tables_keep_the_abi_1_0_layout() {
+        // ABI 1.0 hosts decode parameter entries of exactly eight keys; only
+        // a table entry carries the ninth, `table`.
+        const LEN: usize = encoded_len(&EXAMPLE);
+        static BYTES: [u8; LEN] = encode::<LEN>(&EXAMPLE);
+        let raw: rmpv_like::Map = rmp_serde::from_slice(&BYTES).unwrap();
+        let keys: Vec<usize> = raw.parameters.iter().map(|p| p.len()).collect();
+        assert_eq!(keys, vec![8, 8, 8, 9]);
+        assert!(raw.parameters[3].contains_key("table"));
+        assert_eq!(crate::abi::version_bytes(&EXAMPLE), *b"1.1.0");
+        let no_tables = Manifest { parameters: &EXAMPLE.parameters[..3], ..EXAMPLE };
+        assert_eq!(crate::abi::version_bytes(&no_tables), *b"1.0.0");
+    }
+
+    /// Just enough structure to count the keys of each parameter entry.
+    mod rmpv_like {
+        use std::collections::BTreeMap;
+
+        #[derive(serde::Deserialize)]
+        pub struct Map {
+            pub parameters: Vec<BTreeMap<String, serde::de::IgnoredAny>>,
+        }
     }
 }

@@ -6,7 +6,9 @@
 //! module's name, version, role, parameters, file and SHA-256 digest, so
 //! that anyone can check they are running the same modules. A module the
 //! scenario marks `unlocked` (work in progress, not pinned by
-//! `exobound.lock`) is recorded as such.
+//! `exobound.lock`) is recorded as such. For a table parameter it records
+//! the table used: its values, and for a CSV file its path and SHA-256
+//! digest (a module's default table is covered by the module's own digest).
 
 use serde::Serialize;
 
@@ -34,6 +36,8 @@ pub struct ModuleRecord {
     pub unlocked: bool,
     /// Parameters passed, in the module's units.
     pub parameters: serde_json::Value,
+    /// Each table parameter and the table used (empty if none).
+    pub tables: Vec<crate::scenario::table::TableUse>,
 }
 
 /// The g-factor table a run used.
@@ -96,6 +100,7 @@ impl Provenance {
                     sha256: m.sha256.clone(),
                     unlocked: m.unlocked,
                     parameters: serde_json::to_value(&m.parameters).unwrap_or_default(),
+                    tables: m.tables.clone(),
                 })
                 .collect(),
             g_factor_table: GFactorRecord {

@@ -154,6 +154,12 @@ pub struct ModuleEntry {
     pub sha256: String,
     /// Parameters passed, in the module's units.
     pub parameters: Value,
+    /// The tables of the module's table parameters (`None` in a record
+    /// from before table parameters). Not part of [`identity`]: a given
+    /// table's values are in `parameters`, and a default table is covered
+    /// by the module's digest.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tables: Option<Value>,
 }
 
 /// `provenance.json` read back, field by field in the order the run writes

@@ -10,7 +10,8 @@
 
 use std::path::Path;
 
-use exobound_sdk::{ABI_SECTION, MANIFEST_SECTION, ManifestInfo, Role};
+use exobound_sdk::table::TableInfo;
+use exobound_sdk::{ABI_SECTION, MANIFEST_SECTION, ManifestInfo, ParamValue, Role};
 use sha2::{Digest, Sha256};
 use wasmparser::{ExternalKind, Parser, Payload, TypeRef};
 
@@ -19,7 +20,9 @@ use super::error::HostError;
 /// The ABI major version this host implements.
 pub const SUPPORTED_ABI_MAJOR: u32 = 1;
 /// The ABI version this host implements, for messages.
-pub const SUPPORTED_ABI: &str = "1.x (built with exobound-sdk ABI 1.0.0)";
+pub const SUPPORTED_ABI: &str = "1.x (built with exobound-sdk ABI 1.1.0)";
+/// The first minor version of ABI 1 with table parameters.
+pub const TABLES_SINCE_MINOR: u32 = 1;
 
 /// Exports every module must have, whatever its roles.
 pub const CORE_EXPORTS: [&str; 5] =
@@ -191,6 +194,19 @@ pub fn read_header(
         detail: format!("it does not decode as an exobound manifest: {e}"),
     })?;
     let roles = check_manifest(label, &manifest)?;
+    if abi.minor < TABLES_SINCE_MINOR
+        && let Some(p) = manifest.parameters.iter().find(|p| p.table.is_some())
+    {
+        return Err(HostError::ManifestMalformed {
+            module: label.to_string(),
+            detail: format!(
+                "parameter `{}` is a table, which needs ABI 1.{TABLES_SINCE_MINOR}, but the \
+                 exobound:abi section says {abi} (a host of ABI 1.0 could not read this \
+                 manifest); stamp the module 1.{TABLES_SINCE_MINOR}.0, as exobound-sdk does",
+                p.name
+            ),
+        });
+    }
     let name = manifest.name.clone();
     if let Some(import) = imports.into_iter().next() {
         return Err(HostError::ForbiddenImport { module: name, import });
@@ -264,6 +280,15 @@ pub fn check_manifest(label: &str, m: &ManifestInfo) -> Result<Vec<Role>, HostEr
         {
             return Err(bad(format!("parameter `{}` has min {lo} above max {hi}", p.name)));
         }
+        if let Some(t) = &p.table {
+            check_table_declaration(p, t)
+                .map_err(|m| bad(format!("table parameter `{}` {m}", p.name)))?;
+        } else if let Some(ParamValue::Table(_)) = &p.default {
+            return Err(bad(format!(
+                "parameter `{}` has a table as its default but declares no `table` (columns)",
+                p.name
+            )));
+        }
         if let Some(d) = &p.default {
             let given = std::collections::BTreeMap::from([(p.name.clone(), d.clone())]);
             if let Err(e) = exobound_sdk::Params::validate(&given, std::slice::from_ref(p)) {
@@ -272,6 +297,55 @@ pub fn check_manifest(label: &str, m: &ManifestInfo) -> Result<Vec<Role>, HostEr
         }
     }
     Ok(roles)
+}
+
+/// Characters allowed in a table column's name: they must survive a CSV
+/// header cell `name [unit]` unchanged.
+fn column_name_ok(s: &str) -> bool {
+    !s.is_empty() && s.chars().all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '-')
+}
+
+/// The declaration of a table parameter: columns named for a CSV header,
+/// units that fit in `[...]`, sane ranges and row limits, no number or
+/// choice fields. The error completes "table parameter `x` ...".
+fn check_table_declaration(p: &exobound_sdk::ParamInfo, t: &TableInfo) -> Result<(), String> {
+    if !p.unit.is_empty() || p.min.is_some() || p.max.is_some() || !p.choices.is_empty() {
+        return Err(
+            "sets `unit`, `min`, `max` or `choices`; a table declares them per column".into()
+        );
+    }
+    if t.columns.is_empty() {
+        return Err("declares no columns".into());
+    }
+    for (j, c) in t.columns.iter().enumerate() {
+        if !column_name_ok(&c.name) {
+            return Err(format!(
+                "column {} is named {:?}; use ASCII letters, digits, '_' or '-'",
+                j + 1,
+                c.name
+            ));
+        }
+        if t.columns[..j].iter().any(|d| d.name == c.name) {
+            return Err(format!("names the column `{}` twice", c.name));
+        }
+        if c.unit.contains([',', '[', ']', '\n', '\r']) || c.unit.trim() != c.unit {
+            return Err(format!(
+                "column `{}` has the unit {:?}, which cannot be written in a CSV header \
+                 `name [unit]`",
+                c.name, c.unit
+            ));
+        }
+        if c.min.is_nan() || c.max.is_nan() || c.min > c.max {
+            return Err(format!("column `{}` has min {} above max {}", c.name, c.min, c.max));
+        }
+    }
+    if t.min_rows < 1 || t.min_rows > t.max_rows {
+        return Err(format!(
+            "allows {} to {} rows; a table needs 1 <= min_rows <= max_rows",
+            t.min_rows, t.max_rows
+        ));
+    }
+    Ok(())
 }
 
 /// Read a module file from disk (errors name the file).

@@ -17,6 +17,7 @@ pub mod maps;
 pub mod orbit;
 pub mod quantity;
 pub mod sandbox;
+pub mod table;
 
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -129,6 +130,9 @@ pub struct ModuleUse {
     pub sha256: String,
     /// Parameters as passed to the module, each in the manifest's unit.
     pub parameters: BTreeMap<String, ParamValue>,
+    /// Every table parameter of the module and the table it used (given
+    /// inline, from a file, or the module's default).
+    pub tables: Vec<table::TableUse>,
     /// The configured module.
     pub handle: ModuleHandle,
 }
@@ -708,7 +712,8 @@ impl Validator<'_> {
                     ),
                 ));
             }
-            let parameters = self.parameters(&label, &entry.parameters, &info.parameters)?;
+            let (parameters, tables) =
+                self.parameters(&label, &entry.parameters, &info.parameters)?;
             let handle =
                 ModuleHandle::wasm(runtime.clone(), loaded.clone(), parameters.clone(), limits)
                     .map_err(|e| self.err(&format!("{label}.parameters"), e))?;
@@ -722,19 +727,54 @@ impl Validator<'_> {
                 version: info.version.clone(),
                 sha256: loaded.sha256().to_string(),
                 parameters,
+                tables,
                 handle,
             });
         }
         Ok(out)
     }
 
+    /// The parameters given for a module, checked against its `schema`,
+    /// and the tables its table parameters use.
     fn parameters(
         &self,
         label: &str,
         given: &toml::Table,
         schema: &[exobound_sdk::ParamInfo],
-    ) -> Result<BTreeMap<String, ParamValue>, ScenarioError> {
+    ) -> Result<(BTreeMap<String, ParamValue>, Vec<table::TableUse>), ScenarioError> {
         let mut out = BTreeMap::new();
+        let mut tables = Vec::new();
+        for p in schema {
+            let Some(spec) = &p.table else { continue };
+            let key = format!("{label}.parameters.{}", p.name);
+            match (given.get(&p.name), &p.default) {
+                (Some(value), _) => {
+                    let dir = match self.inputs {
+                        Inputs::Dir(d) => Some(d.as_path()),
+                        Inputs::Demo => None,
+                    };
+                    let g =
+                        table::given(&p.name, spec, value, dir).map_err(|m| self.err(&key, m))?;
+                    out.insert(p.name.clone(), ParamValue::Table(g.columns));
+                    tables.push(g.record);
+                }
+                (None, Some(ParamValue::Table(d))) => {
+                    tables.push(table::default_use(&p.name, spec, d));
+                }
+                (None, _) => {
+                    return Err(self.err(
+                        &key,
+                        format!(
+                            "the module's table `{}` has no default; give one: {} = {{ file = \
+                             \"TABLE.csv\" }} with the header `{}`",
+                            p.name,
+                            p.name,
+                            spec.header()
+                        ),
+                    ));
+                }
+            }
+        }
         for (name, value) in given {
             let key = format!("{label}.parameters.{name}");
             let Some(p) = schema.iter().find(|p| &p.name == name) else {
@@ -744,6 +784,8 @@ impl Validator<'_> {
             let unit = quantity::normalise_unit(&p.unit);
             let dimensionless = unit.is_empty() || unit == "1";
             let v = match (p.kind(), value) {
+                // Read above, with the file and row of any fault.
+                (ParamKindInfo::Table, _) => continue,
                 (ParamKindInfo::Choice, toml::Value::String(s)) => ParamValue::Text(s.clone()),
                 (ParamKindInfo::Choice, other) => {
                     return Err(self.err(
@@ -787,7 +829,7 @@ impl Validator<'_> {
             };
             out.insert(name.clone(), v);
         }
-        Ok(out)
+        Ok((out, tables))
     }
 
     fn processes(&self, modules: &[ModuleUse]) -> Result<Processes, ScenarioError> {

@@ -457,11 +457,12 @@ pub fn central(call: Call, first: u64, n: usize) -> Records {
 
 /// The base parameters: every default, and for a parameter without one
 /// the middle of its range (geometric when it spans more than two decades
-/// above zero) or its first option.
+/// above zero) or its first option. A table without a default is left out
+/// (no table can be made up for it), so its absence is reported by name.
 pub fn base_parameters(m: &ManifestInfo) -> BTreeMap<String, ParamValue> {
     let mut out = BTreeMap::new();
     for p in &m.parameters {
-        if p.default.is_some() {
+        if p.default.is_some() || p.table.is_some() {
             continue;
         }
         let v = if let Some(first) = p.choices.first() {

@@ -125,7 +125,20 @@ pub fn completeness(m: &ManifestInfo) -> Check {
         if blank(&p.description) {
             problems.push(format!("parameter `{}` has no description", p.name));
         }
-        if p.choices.is_empty() {
+        if let Some(t) = &p.table {
+            for c in &t.columns {
+                match unit_problem(&c.unit) {
+                    Some(why) => problems
+                        .push(format!("table `{}`, column `{}`: unit {why}", p.name, c.name)),
+                    None => notes.push(format!(
+                        "table `{}`, column `{}`: unit {}",
+                        p.name,
+                        c.name,
+                        if c.unit.trim().is_empty() { "dimensionless" } else { c.unit.as_str() }
+                    )),
+                }
+            }
+        } else if p.choices.is_empty() {
             match unit_problem(&p.unit) {
                 Some(why) => problems.push(format!("parameter `{}`: unit {why}", p.name)),
                 None => notes.push(format!(
@@ -221,6 +234,12 @@ fn texts(m: &ManifestInfo) -> Vec<(String, &str)> {
         out.extend(
             p.choices.iter().enumerate().map(|(j, c)| (at(&format!("choices[{j}]")), c.as_str())),
         );
+        if let Some(t) = &p.table {
+            for (j, c) in t.columns.iter().enumerate() {
+                out.push((at(&format!("table.columns[{j}].name")), &c.name));
+                out.push((at(&format!("table.columns[{j}].unit")), &c.unit));
+            }
+        }
     }
     for (i, r) in m.reference_points.iter().enumerate() {
         let at = |f: &str| format!("reference_points[{i}].{f}");
@@ -267,6 +286,7 @@ mod tests {
                 max: None,
                 choices: vec!["quiet".into(), "active".into()],
                 default_origin: "common practice".into(),
+                table: None,
             }],
             reference_points: vec![ReferenceInfo {
                 description: "1 AU".into(),
