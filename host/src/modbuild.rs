@@ -99,7 +99,6 @@ pub fn lib_name(manifest: &Path) -> Result<String, BuildError> {
     })
 }
 
-
 /// The custom section `exobound module build` appends to a module: the
 /// toolchain and SDK version that built it, as UTF-8 `key: value` lines.
 pub const BUILD_SECTION: &str = "exobound:build";

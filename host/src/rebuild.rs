@@ -173,7 +173,12 @@ impl Rebuild {
         } else if !differences.is_empty() {
             s += "  the two builds differ in:\n";
             for (key, p, r) in &differences {
-                s += &format!("    {}: published {}, rebuilt {}\n", quoted(key), quoted(p), quoted(r));
+                s += &format!(
+                    "    {}: published {}, rebuilt {}\n",
+                    quoted(key),
+                    quoted(p),
+                    quoted(r)
+                );
             }
             if differences.iter().any(|(k, _, _)| k.starts_with("rustc") || k == "llvm") {
                 s += "  rebuild with the published toolchain: `rustup toolchain install \
@@ -195,8 +200,8 @@ pub fn built_module(src: &Path) -> Result<PathBuf, RebuildError> {
     if !manifest.is_file() {
         return Err(RebuildError::NotCrate(src.to_path_buf()));
     }
-    let lib = modbuild::lib_name(&manifest)
-        .map_err(|e| RebuildError::Build(src.to_path_buf(), e))?;
+    let lib =
+        modbuild::lib_name(&manifest).map_err(|e| RebuildError::Build(src.to_path_buf(), e))?;
     let target = std::env::var_os("CARGO_TARGET_DIR")
         .map(PathBuf::from)
         .unwrap_or_else(|| src.join("target"));

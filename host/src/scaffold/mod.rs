@@ -142,7 +142,8 @@ pub fn new_module(
         if existed {
             if let Ok(entries) = std::fs::read_dir(dir) {
                 for e in entries.flatten() {
-                    let _ = std::fs::remove_dir_all(e.path()).or_else(|_| std::fs::remove_file(e.path()));
+                    let _ = std::fs::remove_dir_all(e.path())
+                        .or_else(|_| std::fs::remove_file(e.path()));
                 }
             }
         } else {
@@ -184,13 +185,13 @@ fn write_crate(
                 .ok()
                 .filter(|p| p.join("Cargo.toml").is_file())
                 .ok_or_else(|| {
-                    ScaffoldError::Sdk(format!(
-                        "{} is not the exobound-sdk crate (no Cargo.toml there); pass the \
+                ScaffoldError::Sdk(format!(
+                    "{} is not the exobound-sdk crate (no Cargo.toml there); pass the \
                          `process-sdk` directory of an exobound checkout to --sdk, or leave \
                          --sdk out to copy the SDK into the crate",
-                        at.display()
-                    ))
-                })?;
+                    at.display()
+                ))
+            })?;
             let rel = relative_path(&here, &there).unwrap_or(there);
             (
                 rel.display().to_string().replace('\\', "/"),
@@ -241,7 +242,10 @@ mod tests {
     #[test]
     fn relative_paths() {
         let rel = |a: &str, b: &str| relative_path(Path::new(a), Path::new(b));
-        assert_eq!(rel("/w/mods/lab", "/w/exobound/process-sdk"), Some("../../exobound/process-sdk".into()));
+        assert_eq!(
+            rel("/w/mods/lab", "/w/exobound/process-sdk"),
+            Some("../../exobound/process-sdk".into())
+        );
         assert_eq!(rel("/w/mods/lab", "/w/mods/lab/exobound-sdk"), Some("exobound-sdk".into()));
         assert_eq!(rel("/w/a", "/w/a"), Some(".".into()));
     }

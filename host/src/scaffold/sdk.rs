@@ -61,9 +61,8 @@ pub fn version() -> String {
 /// dropped (the copy is built, not tested).
 pub fn standalone_manifest() -> Result<Table, String> {
     let sdk: Table = SDK_MANIFEST.parse().map_err(|e| format!("the SDK's Cargo.toml: {e}"))?;
-    let ws: Table = WORKSPACE_MANIFEST
-        .parse()
-        .map_err(|e| format!("the workspace's Cargo.toml: {e}"))?;
+    let ws: Table =
+        WORKSPACE_MANIFEST.parse().map_err(|e| format!("the workspace's Cargo.toml: {e}"))?;
     let ws = ws.get("workspace").and_then(Value::as_table).cloned().unwrap_or_default();
     let section = |name: &str| ws.get(name).and_then(Value::as_table).cloned().unwrap_or_default();
     let (ws_package, ws_deps) = (section("package"), section("dependencies"));
@@ -84,7 +83,10 @@ pub fn standalone_manifest() -> Result<Table, String> {
                     t.remove("dev-dependencies");
                     for kind in ["dependencies", "build-dependencies"] {
                         if let Some(d) = t.remove(kind) {
-                            t.insert(kind.into(), Value::Table(resolve_dependencies(kind, d, &ws_deps)?));
+                            t.insert(
+                                kind.into(),
+                                Value::Table(resolve_dependencies(kind, d, &ws_deps)?),
+                            );
                         }
                     }
                     targets.insert(cfg, Value::Table(t));
@@ -134,7 +136,11 @@ fn resolve_dependencies(kind: &str, value: Value, ws_deps: &Table) -> Result<Tab
                     Table::from_iter([("version".to_string(), Value::String(version.clone()))])
                 }
                 Some(Value::Table(t)) => t.clone(),
-                _ => return Err(format!("the SDK inherits {kind} `{name}`, which the workspace does not declare")),
+                _ => {
+                    return Err(format!(
+                        "the SDK inherits {kind} `{name}`, which the workspace does not declare"
+                    ));
+                }
             },
             Value::String(version) => {
                 Table::from_iter([("version".to_string(), Value::String(version.clone()))])
