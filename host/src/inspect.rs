@@ -106,7 +106,7 @@ pub fn render_text(i: &Inspection) -> String {
                 s += &format!("  {label:<12} {}\n", p(&line));
             }
         }
-        None => s += "  built with:  not recorded (not built by `exobound module build`)\n",
+        None => s += "  built with:  not recorded (no `exobound:build` section)\n",
     }
     s += &format!("  law source:  {}\n", p(&m.law_source));
     s += &format!("  authors:     {} ({})\n", list(&m.authors, ", "), p(&m.institution));

@@ -159,9 +159,10 @@ fn sysroot(dir: &Path) -> Option<PathBuf> {
     (out.status.success() && !text.is_empty()).then(|| PathBuf::from(text))
 }
 
-/// Whether the active toolchain has the wasm32 standard library.
-pub fn wasm_target_installed() -> bool {
-    let Some(sysroot) = sysroot(Path::new(".")) else { return false };
+/// Whether the toolchain that rustup selects in `dir` has the wasm32
+/// standard library.
+pub fn wasm_target_installed(dir: &Path) -> bool {
+    let Some(sysroot) = sysroot(dir) else { return false };
     sysroot.join("lib/rustlib").join(WASM_TARGET).join("lib").is_dir()
 }
 
@@ -266,7 +267,7 @@ fn build_with(
     root: &Path,
     outside: &[PathBuf],
 ) -> Result<(), BuildError> {
-    if !wasm_target_installed() {
+    if !wasm_target_installed(root) {
         return Err(BuildError::TargetMissing);
     }
     let sysroot = sysroot(root);
