@@ -42,6 +42,9 @@ pub struct Inspection {
     pub manifest: ManifestInfo,
     /// Parameters (repeated at top level for scripts): name, unit, default, min, max.
     pub parameters: Vec<exobound_sdk::ParamInfo>,
+    /// The `exobound:build` record (toolchain and SDK version) that
+    /// `exobound module build` appends, if the file has one.
+    pub build: Option<String>,
 }
 
 /// Inspect the module file at `path`, or the standard module `NAME` when
@@ -60,15 +63,17 @@ pub fn inspect(path: &Path) -> Result<Inspection, HostError> {
             }
         };
         let header = module::read_header(&format!("{name}.wasm"), &bytes, MAX_MANIFEST)?;
-        return Ok(from_header(Path::new(&format!("embedded:{name}")), header));
+        let build = crate::modbuild::read_build_section(&bytes);
+        return Ok(from_header(Path::new(&format!("embedded:{name}")), header, build));
     }
     let bytes = module::read_file(path)?;
     let header = module::read_header(&module::label_of(path), &bytes, MAX_MANIFEST)?;
-    Ok(from_header(path, header))
+    Ok(from_header(path, header, crate::modbuild::read_build_section(&bytes)))
 }
 
-fn from_header(path: &Path, h: ModuleHeader) -> Inspection {
+fn from_header(path: &Path, h: ModuleHeader, build: Option<String>) -> Inspection {
     Inspection {
+        build,
         file: path.display().to_string(),
         name: h.manifest.name.clone(),
         version: h.manifest.version.clone(),
@@ -158,6 +163,18 @@ pub fn render_text(i: &Inspection) -> String {
     s += &format!("  ABI:         {}\n", i.abi);
     s += &format!("  sha256:      {}\n", i.sha256);
     s += &format!("  size:        {} bytes\n", i.size_bytes);
+    match &i.build {
+        // At most a few lines of at most a line's length: the record comes
+        // from the file, and a hostile one could be long.
+        Some(b) => {
+            for (n, line) in b.lines().take(8).enumerate() {
+                let line: String = line.chars().take(120).collect();
+                let label = if n == 0 { "built with:" } else { "" };
+                s += &format!("  {label:<12} {}\n", p(&line));
+            }
+        }
+        None => s += "  built with:  not recorded (no `exobound:build` section)\n",
+    }
     s += &format!("  law source:  {}\n", p(&m.law_source));
     s += &format!("  authors:     {} ({})\n", list(&m.authors, ", "), p(&m.institution));
     s += &format!("  licence:     {}\n", p(&m.licence));

@@ -22,6 +22,7 @@ pub mod observe;
 pub mod output;
 pub mod particles;
 pub mod radiation;
+pub mod rebuild;
 pub mod replica;
 pub mod runtime;
 pub mod scenario;

@@ -94,8 +94,9 @@ enum ModuleAction {
         /// Directory to create (default: ./NAME).
         #[arg(long)]
         dir: Option<PathBuf>,
-        /// exobound-sdk sources for the crate's path dependency (default: the SDK this
-        /// binary was built with, or $EXOBOUND_SDK_DIR).
+        /// Depend on the exobound-sdk crate in this directory by a relative path, for work
+        /// on the SDK itself (default: write a copy of the SDK this binary carries into the
+        /// crate, which builds to the same .wasm wherever the crate is put).
         #[arg(long)]
         sdk: Option<PathBuf>,
     },
@@ -106,9 +107,11 @@ enum ModuleAction {
     Keygen(share::KeygenArgs),
     /// Vet a module and write a detached signature over its digest and the vet report.
     Sign(share::SignArgs),
-    /// Check a module's detached signature (and, optionally, that the signer is trusted).
+    /// Check a module's detached signature (and, optionally, that the signer is trusted);
+    /// with --rebuild SRC_DIR, first rebuild its source elsewhere and compare digests.
     Verify(share::VerifyArgs),
-    /// Build a module crate to a `.wasm` file (release, wasm32) and print its path.
+    /// Build a module crate to a `.wasm` file (release, wasm32) and print its path; the same
+    /// source, Cargo.lock and toolchain give the same file on any machine.
     Build {
         /// The crate directory (default: the current directory).
         dir: Option<PathBuf>,
@@ -220,10 +223,10 @@ fn dispatch(cli: Cli) -> Result<()> {
                     );
                 };
                 let dir = dir.unwrap_or_else(|| PathBuf::from(&name));
-                let sdk = sdk.unwrap_or_else(scaffold::default_sdk_dir);
-                let sdk = std::fs::canonicalize(&sdk).with_context(|| {
-                    format!("the SDK directory {} does not exist; pass --sdk", sdk.display())
-                })?;
+                let sdk = match sdk {
+                    None => scaffold::SdkSource::Copy,
+                    Some(path) => scaffold::SdkSource::Path(path),
+                };
                 scaffold::new_module(&name, role, &dir, &sdk)?;
                 println!("wrote module crate `{name}` ({}) in {}", role.as_str(), dir.display());
                 println!("next: cd {} && cargo test && exobound module build", dir.display());
@@ -235,8 +238,9 @@ fn dispatch(cli: Cli) -> Result<()> {
                     .map_err(anyhow::Error::msg)
                     .with_context(|| format!("building the module crate in {}", dir.display()))?;
                 // Refuse to hand out a file the runtime would refuse.
-                inspect::inspect(&wasm)?;
+                let report = inspect::inspect(&wasm)?;
                 println!("{}", wasm.display());
+                eprintln!("sha256 {}", report.sha256);
                 Ok(())
             }
         },

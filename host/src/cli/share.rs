@@ -65,8 +65,13 @@ pub struct SignArgs {
 /// `exobound module verify`.
 #[derive(Args)]
 pub struct VerifyArgs {
-    /// The `.wasm` file.
-    file: PathBuf,
+    /// The `.wasm` file. With --rebuild: the published module to compare
+    /// (default: the one `exobound module build` left in SRC_DIR).
+    file: Option<PathBuf>,
+    /// Rebuild the module crate in SRC_DIR, in a fresh copy in another directory, and
+    /// compare its digest with FILE's; the signature is checked too if there is one.
+    #[arg(long, value_name = "SRC_DIR")]
+    rebuild: Option<PathBuf>,
     /// The signature (default: FILE.sig).
     #[arg(long, value_name = "SIG")]
     sig: Option<PathBuf>,
@@ -192,18 +197,50 @@ pub fn sign(a: SignArgs) -> Result<()> {
 
 /// Run `module verify`.
 pub fn verify(a: VerifyArgs) -> Result<()> {
-    let sig_path = a.sig.unwrap_or_else(|| signature::default_path(&a.file));
+    let Some(src) = a.rebuild else {
+        let Some(file) = a.file else {
+            bail!("give the .wasm file to verify (or --rebuild SRC_DIR to rebuild its source)");
+        };
+        return verify_signature(&file, a.sig, &a.trusted, true);
+    };
+    let file = match a.file {
+        Some(f) => f,
+        None => exobound::rebuild::built_module(&src)?,
+    };
+    let r = exobound::rebuild::rebuild_and_compare(&src, &file)?;
+    if !r.matches() {
+        bail!("{}", r.summary().trim_end());
+    }
+    print!("{}", r.summary());
+    let explicit = a.sig.is_some() || !a.trusted.is_empty();
+    verify_signature(&file, a.sig, &a.trusted, explicit)
+}
+
+/// Check the signature of `file` (at `sig`, default FILE.sig) and, if
+/// `trusted` is not empty, that its signer is one of them. When the
+/// signature was not asked for (`required` false) and there is none, say so.
+fn verify_signature(
+    file: &Path,
+    sig: Option<PathBuf>,
+    trusted: &[PathBuf],
+    required: bool,
+) -> Result<()> {
+    let sig_path = sig.unwrap_or_else(|| signature::default_path(file));
+    if !required && !sig_path.exists() {
+        println!("signature: none at {}, not checked", sig_path.display());
+        return Ok(());
+    }
     let sig = signature::read(&sig_path)?;
-    let bytes = std::fs::read(&a.file)
-        .with_context(|| format!("cannot read the module `{}`", a.file.display()))?;
-    let v = signature::verify(&bytes, &sig).map_err(|e| anyhow!("{}: {e}", a.file.display()))?;
-    if !a.trusted.is_empty() {
-        let mut trusted = false;
-        for p in &a.trusted {
+    let bytes = std::fs::read(file)
+        .with_context(|| format!("cannot read the module `{}`", file.display()))?;
+    let v = signature::verify(&bytes, &sig).map_err(|e| anyhow!("{}: {e}", file.display()))?;
+    if !trusted.is_empty() {
+        let mut is_trusted = false;
+        for p in trusted {
             let (_, key) = keys::read_public(p)?;
-            trusted |= key == v.public;
+            is_trusted |= key == v.public;
         }
-        if !trusted {
+        if !is_trusted {
             bail!(
                 "the signature is valid, but its signer `{}` (key {}) is none of the --trusted keys",
                 printable(&v.signer),
@@ -218,7 +255,7 @@ pub fn verify(a: VerifyArgs) -> Result<()> {
         printable(&sig.module_sha256),
         printable(&v.signer),
         v.key_id,
-        if a.trusted.is_empty() { ", not checked against a trust list" } else { ", trusted" },
+        if trusted.is_empty() { ", not checked against a trust list" } else { ", trusted" },
         if v.vet_passed { "passed" } else { "FAILED" }
     );
     Ok(())
