@@ -206,10 +206,12 @@ fn fit_recovers_a_known_flux_from_synthetic_observations() {
     assert!(r.chi2_per_dof > 0.3 && r.chi2_per_dof < 3.0, "{}", r.chi2_per_dof);
     // The model's own noise is in every residual's denominator.
     assert!(r.residuals.iter().all(|q| q.model_error > 0.0));
-    // One line per evaluation, and nothing run twice.
+    // One line per evaluation plus one for the noise calibration (six
+    // more seeds at the best grid point), and nothing run twice.
     let lines = lines.into_inner().unwrap();
-    assert_eq!(lines.len(), r.evaluations.len());
-    assert_eq!(r.runs, r.evaluations.len() * 2);
+    assert_eq!(lines.len(), r.evaluations.len() + 1, "{lines:#?}");
+    assert!(lines.iter().any(|l| l.starts_with("noise: measured from 8 seeds")), "{lines:#?}");
+    assert_eq!(r.runs, r.evaluations.len() * 2 + 6);
     let mut seen: Vec<Vec<u64>> =
         r.evaluations.iter().map(|e| e.values.iter().map(|v| v.to_bits()).collect()).collect();
     seen.sort();
