@@ -233,7 +233,7 @@ fn fit_recovers_a_known_flux_from_synthetic_observations() {
 }
 
 #[test]
-fn fit_to_a_slit_brightness_profile_recovers_the_flux() {
+fn fit_to_a_slit_profile_and_image_points_recovers_the_flux() {
     let tmp = TempDir::new("fit-slit");
     let rt = runtime();
     // A ground telescope's slit above the dawn limb at 70 deg phase,
@@ -264,8 +264,32 @@ fn fit_to_a_slit_brightness_profile_recovers_the_flux() {
         let sigma = 0.058 * s.brightness_r;
         obs.push_str(&format!("brightness:slit.toml,{} km,{v:e},{sigma:e},R\n", s.altitude_km));
     }
+    // An image point straight above the disk centre is the line of sight
+    // of a slit at position angle 0 through the same aperture.
+    let north = tmp.path().join("north.toml");
+    let text = std::fs::read_to_string(&view).unwrap();
+    std::fs::write(
+        &north,
+        text.replace("[distant]\n", "[distant]\nslit_position_angle = \"0 deg\"\n"),
+    )
+    .unwrap();
+    let slit = exobound::observe::view_samples(&run, &north).unwrap();
+    let above: Vec<(f64, f64)> = slit.iter().map(|s| (0.0, 1737.4 + s.altitude_km)).collect();
+    let same = exobound::observe::sky_brightness(&run, &north, &above).unwrap();
+    for (s, b) in slit.iter().zip(&same) {
+        assert!(s.brightness_r > 0.0 && (s.brightness_r - b).abs() <= 1e-9 * b, "{s:?} vs {b}");
+    }
+    // Image pixels of the same telescope off the limb in other directions.
+    let pixels =
+        [(-2100.0, 0.0), (2100.0, 0.0), (0.0, -2300.0), (1500.0, 1500.0), (-1500.0, -1500.0)];
+    let b = exobound::observe::sky_brightness(&run, &view, &pixels).unwrap();
+    for (k, ((x, y), b)) in pixels.iter().zip(&b).enumerate() {
+        assert!(*b > 0.0, "({x}, {y}) km: {b} R");
+        let v = b * (1.0 + 0.05 * normal(42_000 + k as u64));
+        obs.push_str(&format!("image:slit.toml,{x} {y} km,{v:e},{:e},R\n", 0.058 * b));
+    }
     let obs = fit::observed::parse(&obs, "slit-obs.csv", tmp.path()).unwrap();
-    assert_eq!(obs.len(), samples.len());
+    assert_eq!(obs.len(), samples.len() + pixels.len());
     let base = ScenarioSource::demo(true, &[]);
     let settings = FitSettings { seeds: vec![7, 8], jobs: 2, ..FitSettings::default() };
     let r = fit::fit(&base, &flux_free(), &obs, &settings, &tmp.path().join("fit"), &rt, &|_| {})
@@ -279,7 +303,7 @@ fn fit_to_a_slit_brightness_profile_recovers_the_flux() {
         r.notes
     );
     // Brightness grows with the flux: the fitted model reproduces the
-    // observed slit to its errors (common practice: chi2/dof 0.3-3).
+    // observed slit and pixels to their errors (common practice: chi2/dof 0.3-3).
     assert!(r.chi2_per_dof > 0.2 && r.chi2_per_dof < 3.0, "{}", r.chi2_per_dof);
 }
 

@@ -13,7 +13,7 @@
 //!   uncertainty of the peak shift or cos^n exponent.
 //!
 //! The noise of a family of observations (the equatorial profile, the
-//! latitude profile, one view's brightness) has two parts, estimated from
+//! latitude profile, one view's slit or scan, one view's image points) has two parts, estimated from
 //! every point evaluated so far ([`Noise`]): a common relative shift of
 //! the whole family from seed to seed (the reservoir and the source total
 //! fluctuate together), and an independent relative scatter of each value.
@@ -241,9 +241,25 @@ fn run_values(
     obs: &[Observation],
 ) -> Result<(Vec<f64>, Vec<f64>), String> {
     let mut views: HashMap<&PathBuf, Vec<(f64, f64)>> = HashMap::new();
+    // Image points: each view's points computed together, from one density field.
+    let mut sky: HashMap<&PathBuf, Vec<(usize, (f64, f64))>> = HashMap::new();
+    for (i, o) in obs.iter().enumerate() {
+        if let Observable::ImagePoint(v, x, y) = &o.what {
+            sky.entry(v).or_default().push((i, (*x, *y)));
+        }
+    }
+    let mut image = vec![f64::NAN; obs.len()];
+    for (view, pts) in &sky {
+        let xy: Vec<(f64, f64)> = pts.iter().map(|p| p.1).collect();
+        let b = crate::observe::sky_brightness(dir, view, &xy)
+            .map_err(|e| format!("image points through `{}`: {e}", view.display()))?;
+        for ((i, _), v) in pts.iter().zip(b) {
+            image[*i] = v;
+        }
+    }
     let mut values = Vec::with_capacity(obs.len());
     let mut errors = Vec::with_capacity(obs.len());
-    for o in obs {
+    for (i, o) in obs.iter().enumerate() {
         let (v, e) = match &o.what {
             Observable::EquatorColumn(lt) => {
                 (r.equator.at(*lt, Some(24.0)), r.equator.error_at(*lt, Some(24.0)))
@@ -286,6 +302,7 @@ fn run_values(
                 }
                 (prof.at(*alt, None), f64::NAN)
             }
+            Observable::ImagePoint(..) => (image[i], f64::NAN),
         };
         values.push(v);
         errors.push(e);
@@ -301,7 +318,7 @@ pub fn unknown_noise(obs: &[Observation], seeds: usize) -> Vec<String> {
     let mut out: Vec<String> = obs
         .iter()
         .filter(|o| match &o.what {
-            Observable::Brightness(..) => true,
+            Observable::Brightness(..) | Observable::ImagePoint(..) => true,
             Observable::Summary(m) => {
                 !matches!(MEASURES[*m].name, "equatorial_peak_shift" | "latitude_cos_power_n")
             }

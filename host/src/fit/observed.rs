@@ -12,6 +12,7 @@
 //! latitude_column,30 deg,8.0e8,1.0e8,cm^-2
 //! summary:dayside_near_surface_density,,20,5,cm^-3
 //! brightness:slit.toml,500 km,1200,120,R
+//! image:slit.toml,1200 -300 km,900,90,R
 //! ```
 //!
 //! `equator_column` is the equatorial column at a local time (the
@@ -21,7 +22,10 @@
 //! is the brightness (rayleigh) seen through a view file of `exobound
 //! observe` (a path relative to the observations file) at an altitude above
 //! the limb (distant slit) or a tangent altitude (orbiter scan), with its
-//! unit. `docs/fit.md` documents it.
+//! unit; `image:VIEW` is the brightness a distant observer's view sees at
+//! a point of the sky plane (km to the observer's right and to projected
+//! north of the disk centre, the axes of `image.nc`), through the view's
+//! aperture. `docs/fit.md` documents it.
 
 use crate::output::results::MEASURES;
 use crate::scenario::quantity::{self, Kind};
@@ -41,17 +45,21 @@ pub enum Observable {
     /// Brightness through a view file (the path as resolved) at an altitude
     /// above the limb or a tangent altitude, km.
     Brightness(std::path::PathBuf, f64),
+    /// Brightness through a distant view file (the path as resolved) at a
+    /// sky-plane point: km to the observer's right, km to projected north.
+    ImagePoint(std::path::PathBuf, f64, f64),
 }
 
 impl Observable {
     /// Observations of one kind share a model-noise estimate: "equator",
-    /// "latitude", "brightness VIEW" or the summary measure's name.
+    /// "latitude", "brightness VIEW", "image VIEW" or the summary measure's name.
     pub fn family(&self) -> String {
         match self {
             Observable::EquatorColumn(_) => "equator".into(),
             Observable::LatitudeColumn(_) => "latitude".into(),
             Observable::Summary(m) => MEASURES[*m].name.into(),
             Observable::Brightness(v, _) => format!("brightness {}", v.display()),
+            Observable::ImagePoint(v, ..) => format!("image {}", v.display()),
         }
     }
 }
@@ -128,16 +136,16 @@ pub fn parse(text: &str, file: &str, base: &std::path::Path) -> Result<Vec<Obser
                     (Observable::LatitudeColumn(lat), format!("latitude_column at {lat} deg"))
                 }
             }
-            k if k.starts_with("brightness:") => {
-                let name = &k["brightness:".len()..];
-                let view = base.join(name);
-                if name.is_empty() || !view.is_file() {
-                    return Err(format!(
-                        "{at}: `{k}` names the view file `{}`, which does not exist; give the \
-                         path of an `exobound observe` view file relative to the observations file",
-                        view.display()
-                    ));
+            k if k.starts_with("image:") => {
+                let view = view_file(&k["image:".len()..], k, base, &at)?;
+                if !matches!(unit.as_str(), "R" | "rayleigh") {
+                    return Err(format!("{at}: brightness is in `R` (rayleigh), not `{unit}`"));
                 }
+                let (x, y) = sky_point(c[1]).map_err(|e| format!("{at}: coordinate: {e}"))?;
+                (Observable::ImagePoint(view, x, y), format!("{k} at ({x}, {y}) km"))
+            }
+            k if k.starts_with("brightness:") => {
+                let view = view_file(&k["brightness:".len()..], k, base, &at)?;
                 if !matches!(unit.as_str(), "R" | "rayleigh") {
                     return Err(format!("{at}: brightness is in `R` (rayleigh), not `{unit}`"));
                 }
@@ -153,7 +161,7 @@ pub fn parse(text: &str, file: &str, base: &std::path::Path) -> Result<Vec<Obser
                 let Some(name) = k.strip_prefix("summary:") else {
                     return Err(format!(
                         "{at}: unknown kind `{k}`; use equator_column, latitude_column, \
-                         brightness:VIEW or summary:NAME"
+                         brightness:VIEW, image:VIEW or summary:NAME"
                     ));
                 };
                 let Some(m) = crate::output::results::measure_index(name) else {
@@ -176,6 +184,40 @@ pub fn parse(text: &str, file: &str, base: &std::path::Path) -> Result<Vec<Obser
         return Err(format!("`{file}`: no observations after the header"));
     }
     Ok(out)
+}
+
+/// The view file `name` of the row kind `kind`, relative to `base`; it must exist.
+fn view_file(
+    name: &str,
+    kind: &str,
+    base: &std::path::Path,
+    at: &str,
+) -> Result<std::path::PathBuf, String> {
+    let view = base.join(name);
+    if name.is_empty() || !view.is_file() {
+        return Err(format!(
+            "{at}: `{kind}` names the view file `{}`, which does not exist; give the path of an \
+             `exobound observe` view file relative to the observations file",
+            view.display()
+        ));
+    }
+    Ok(view)
+}
+
+/// A sky-plane point written `X Y UNIT` (e.g. `1200 -300 km`), in km.
+fn sky_point(text: &str) -> Result<(f64, f64), String> {
+    let words: Vec<&str> = text.split_whitespace().collect();
+    let [x, y, unit] = words[..] else {
+        return Err(format!(
+            "`{text}`: write the sky-plane point as `X Y UNIT`, e.g. `1200 -300 km` (to the \
+             observer's right, to projected north)"
+        ));
+    };
+    let km = |v: &str| -> Result<f64, String> {
+        let m = quantity::parse(&format!("{v} {unit}"), Kind::Length)?;
+        Ok(m / 1e3)
+    };
+    Ok((km(x)?, km(y)?))
 }
 
 #[cfg(test)]
@@ -224,5 +266,29 @@ mod tests {
         )
         .unwrap_err();
         assert!(e.contains("line 2") && e.contains("nowhere.toml"), "{e}");
+    }
+
+    #[test]
+    fn image_points_parse_in_km_and_a_bad_point_is_named() {
+        let dir = std::env::temp_dir().join(format!("exobound-obs-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        std::fs::write(dir.join("v.toml"), "[distant]\n").unwrap();
+        let o = parse(&format!("{HEADER}\nimage:v.toml,1200 -300 km,900,90,R\n"), "o.csv", &dir)
+            .unwrap();
+        assert_eq!(o[0].what, Observable::ImagePoint(dir.join("v.toml"), 1200.0, -300.0));
+        assert_eq!(o[0].what.family(), format!("image {}", dir.join("v.toml").display()));
+        let o = parse(&format!("{HEADER}\nimage:v.toml,1.2e6 -3e5 m,900,90,R\n"), "o.csv", &dir)
+            .unwrap();
+        assert_eq!(o[0].what, Observable::ImagePoint(dir.join("v.toml"), 1200.0, -300.0));
+        for (row, says) in [
+            ("image:v.toml,1200 km,900,90,R", "X Y UNIT"),
+            ("image:v.toml,1200 -300 furlong,900,90,R", "furlong"),
+            ("image:v.toml,1200 -300 km,900,90,cm^-2", "rayleigh"),
+            ("image:w.toml,1200 -300 km,900,90,R", "w.toml"),
+        ] {
+            let e = parse(&format!("{HEADER}\n{row}\n"), "o.csv", &dir).unwrap_err();
+            assert!(e.contains("line 2") && e.contains(says), "{row}: {e}");
+        }
+        let _ = std::fs::remove_dir_all(&dir);
     }
 }

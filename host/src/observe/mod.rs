@@ -330,6 +330,35 @@ pub fn view_samples(run_dir: &Path, view_path: &Path) -> Result<Vec<Sample>, Str
     })
 }
 
+/// Brightness (rayleigh) that the distant observer of the view file
+/// `view_path` sees through the view's aperture (single lines of sight when
+/// it is 0) centred at each sky point of `points` (km to the observer's
+/// right, km to projected north, from the disk centre: the axes of
+/// `image.nc`), computed from the finished run `run_dir` as `observe`
+/// computes its image. An orbiter's view has no sky plane and is refused.
+pub fn sky_brightness(
+    run_dir: &Path,
+    view_path: &Path,
+    points: &[(f64, f64)],
+) -> Result<Vec<f64>, String> {
+    let Prepared { field, view, g, .. } = prepare(run_dir, view_path)?;
+    let Geometry::Distant(d) = &view.geometry else {
+        return Err(format!(
+            "`{}` is an orbiter's view; image points need a distant observer's view (a \
+             `[distant]` section)",
+            view_path.display()
+        ));
+    };
+    let mut cuts = Cuts::default();
+    Ok(points
+        .iter()
+        .map(|&(x_km, y_km)| {
+            let c = vec3::add(vec3::scale(d.right, x_km * 1e3), vec3::scale(d.up, y_km * 1e3));
+            brightness_rayleigh(g, distant_column(&field, d, c, &mut cuts).0)
+        })
+        .collect())
+}
+
 type Computed = (Vec<Sample>, String, Option<f64>, Option<f64>, Option<f64>);
 
 /// Arcseconds per radian (180 x 3600 / pi).
