@@ -20,7 +20,8 @@
 //! Accounting. The sputtered atoms leave energetic, with a Sigmund-Thompson
 //! spectrum whose median is (1 + sqrt 2) U and whose tail reaches far above
 //! the escape energy of Na from the Moon (0.67 eV) and from Mercury
-//! (2.15 eV; both C from the escape speeds of check-values §1), so most of
+//! (2.15 eV; both (1/2) m v_esc^2 with v_esc = sqrt(2GM/R) from the GM and
+//! mean radius of JPL's planetary physical parameters, DE440), so most of
 //! them escape. The module does not launch them: the host books the removed
 //! atoms in the ledger column `sputtered-escape`, i.e. they are reported as
 //! having escaped rather than followed as particles. Use the `ion-sputter`

@@ -64,7 +64,8 @@ use exobound_sdk::{
     Params, Pool, Process, ProcessError, ReferencePoint, Rng, Role, Source, Value, Velocity, math,
 };
 
-/// Mass of one Na atom, kg (22.98976928 u, IUPAC; check-values §2), used by
+/// Mass of one Na atom, kg (22.98976928 u, the IUPAC standard atomic weight;
+/// Prohaska et al. 2022, Pure Appl. Chem. 94, 573), used by
 /// the launch-speed reference point.
 const NA_MASS: f64 = 22.989_769_28 * exobound_sdk::constants::ATOMIC_MASS;
 
@@ -387,8 +388,8 @@ impl Process for ImpactVapor {
                 // u = 1.66053906660e-27 kg (the SDK's constants).
                 expected: 1_958.220_582_885_396,
                 tolerance: 0.01,
-                source: "check-values §6, Maxwellian flux mean speed (3 sqrt(pi)/4) a (C), \
-                         evaluated for Na at 3000 K",
+                source: "mean of the Maxwellian flux (3 sqrt(pi)/4) sqrt(2kT/m), evaluated for \
+                         Na at 3000 K (closed form; tests/python/module_reference_values.py)",
             },
         ],
     };
@@ -667,8 +668,8 @@ mod tests {
             let got = equator_mean(n);
             assert!((got - want).abs() < 1e-14, "C({n}) = {got}, want {want}");
         }
-        // C(50) = 0.17464095287360928, computed independently with Python 3's
-        // math.lgamma (the C library's lgamma) from the same closed form.
+        // C(50) = 0.1746409528736113 (mpmath at 40 digits, from the closed form and by
+        // quadrature of cos^51; tests/python/module_reference_values.py).
         assert!((equator_mean(50.0) - 0.174_640_952_873_609_28).abs() < 1e-13);
     }
 
@@ -793,12 +794,13 @@ mod tests {
 
     #[test]
     fn mean_speed_reference_value_is_the_closed_form() {
-        // check-values §6: <v> = (3 sqrt(pi)/4) a, a = sqrt(2kT/m); recomputed here from
+        // Maxwellian flux: <v> = (3 sqrt(pi)/4) a, a = sqrt(2kT/m); recomputed here from
         // the SDK constants for Na at 3000 K, so the manifest's number cannot drift.
         let a = thermal_speed(3000.0, NA_MASS);
         let mean = 0.75 * PI.sqrt() * a;
         assert!((mean - 1_958.220_582_885_396).abs() < 1e-9, "{mean}");
-        // check-values §6 at 1200 K (a = 931.66 m/s, C) confirms the formula and constants.
+        // a = 931.66 m/s at 1200 K (tests/python/sampler_reference_values.py) confirms the
+        // formula and constants.
         assert!((thermal_speed(1200.0, NA_MASS) - 931.66).abs() < 0.005);
     }
 
@@ -814,15 +816,17 @@ mod tests {
         assert!(vs.iter().all(|v| v.up > 0.0), "every launch leaves the surface");
         let mut speeds: Vec<f64> = vs.iter().map(Velocity::speed).collect();
         let a = thermal_speed(3000.0, NA_MASS);
-        // check-values §6: <v> = (3 sqrt(pi)/4) a; sd = a sqrt(2 - 9 pi/16) (chi, 4 dof, C).
+        // Maxwellian flux: <v> = (3 sqrt(pi)/4) a; sd = a sqrt(2 - 9 pi/16) (moments of chi
+        // with 4 degrees of freedom, scipy.stats.chi(df=4)).
         let mean = speeds.iter().sum::<f64>() / nf;
         let sd = a * (2.0 - 9.0 * PI / 16.0).sqrt();
         assert!((mean - 0.75 * PI.sqrt() * a).abs() < 3.0 * sd / nf.sqrt(), "mean {mean}");
-        // check-values §6: <E> = 2kT, and Var(E) = 2 (kT)^2 for a Gamma(2) energy (C).
+        // <E> = 2kT, and Var(E) = 2 (kT)^2 for the flux's Gamma(2, kT) energy distribution.
         let kt = BOLTZMANN * 3000.0;
         let mean_e = speeds.iter().map(|v| 0.5 * NA_MASS * v * v).sum::<f64>() / nf;
         assert!((mean_e - 2.0 * kt).abs() < 3.0 * 2f64.sqrt() * kt / nf.sqrt(), "{mean_e}");
-        // check-values §6: CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2); KS at p = 0.01.
+        // Maxwellian flux CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2) (integral of v^3
+        // exp(-v^2/a^2)); KS at p = 0.01.
         speeds.sort_by(f64::total_cmp);
         let d = speeds
             .iter()
@@ -845,7 +849,8 @@ mod tests {
     #[test]
     fn launch_depends_only_on_the_key_and_the_vapour() {
         let mut law = law_with(&[("vapor_temperature", num(4500.0))]);
-        // K, 39.0983 u (check-values §2, F: IUPAC).
+        // K, 39.0983 u (IUPAC standard atomic weight; Prohaska et al. 2022, Pure Appl. Chem.
+        // 94, 573).
         let m = 39.0983 * ATOMIC_MASS;
         let reqs = requests(2, m, 300.0);
         let mut pair = [Velocity::ZERO; 2];

@@ -28,14 +28,15 @@
 //! mass 21.5 u per atom (from memory, Lunar Sourcebook compilations).
 //!
 //! Energies follow the Sigmund-Thompson distribution of atoms sputtered
-//! from a collision cascade (Thompson 1968),
+//! from a collision cascade (Sigmund 1969, Phys. Rev. 184, 383; Thompson
+//! 1968, Phil. Mag. 18, 377; both from memory),
 //!
 //! ```text
 //! f(E) = 2 U E / (E + U)^3,  CDF = E^2 / (E + U)^2,  mode U/2,  median (1 + sqrt 2) U
 //! ```
 //!
-//! with U the surface binding energy (default 0.27 eV for Na, from memory;
-//! check-values §6 uses it as its worked case). Its mean diverges, so one
+//! with U the surface binding energy (default 0.27 eV for Na, the value
+//! used in Mercury sputtering models, from memory). Its mean diverges, so one
 //! of three tails is chosen by `energy_cutoff`:
 //! - `none`: the bare distribution (mean energy infinite; only for tests);
 //! - `hard`: truncated at `max_energy`, sampled by inverting the truncated CDF;
@@ -43,8 +44,8 @@
 //!   [1 - sqrt((E + U) / (Lambda E_i))], Lambda = 4 m1 m2 / (m1 + m2)^2, which
 //!   vanishes at the largest energy a head-on collision of an ion of mass
 //!   m1 and energy E_i can give a target atom of mass m2 (the species'
-//!   mass, read per launch). For 1 keV H+ on Na, Lambda E_i = 160.85 eV
-//!   (check-values §6 quotes ~160 eV). Sampled by rejection from the
+//!   mass, read per launch). For 1 keV H+ on Na, Lambda E_i = 160.85 eV.
+//!   Sampled by rejection from the
 //!   Sigmund-Thompson law truncated at Lambda E_i - U, accepting with
 //!   probability factor / (1 - sqrt(U / (Lambda E_i))), the factor's
 //!   maximum; the counter-based generator makes the number of draws free.
@@ -64,7 +65,8 @@ use exobound_sdk::{
     Params, Pool, Process, ProcessError, ReferencePoint, Rng, Role, Source, Value, Velocity, math,
 };
 
-/// Mass of one Na atom, kg (22.98976928 u, IUPAC; check-values §2), used by
+/// Mass of one Na atom, kg (22.98976928 u, the IUPAC standard atomic weight;
+/// Prohaska et al. 2022, Pure Appl. Chem. 94, 573), used by
 /// the launch-speed reference points.
 const NA_MASS: f64 = 22.989_769_28 * ATOMIC_MASS;
 
@@ -80,7 +82,8 @@ pub const DEFAULT_ION_MASS: f64 = 1.007_276;
 
 /// Rejection attempts allowed for one Thompson-cutoff draw, dimensionless.
 /// The acceptance probability is 0.42 at Lambda E_i = 2 U, 0.64 at 10 U and
-/// 0.85 at 100 U (mpmath quadrature), so this is never reached in practice;
+/// 0.85 at 100 U (mpmath quadrature, tests/python/module_reference_values.py),
+/// so this is never reached in practice;
 /// it only turns a pathological case into an error instead of a hang.
 const MAX_REJECTIONS: usize = 100_000;
 
@@ -188,7 +191,8 @@ impl Process for IonSputter {
         institution: "exobound project",
         licence: "Apache-2.0",
         law_source: "Energy distribution and cutoff: Thompson, M. W. (1968), Phil. Mag. 18, 377 \
-                     (from memory; check-values §6). Yields of Apollo 16 soil 68501: \
+                     and Sigmund, P. (1969), Phys. Rev. 184, 383 (both from memory). Yields \
+                     of Apollo 16 soil 68501: \
                      Brötzner, J., Biber, H. et al. (2024), arXiv:2410.14450 (abstract: porous \
                      regolith, 1 keV/amu, 7.3e-3 atoms/ion for H and 7.6e-2 for He). Rate as \
                      yield times flux times atomic fraction: common practice",
@@ -230,8 +234,8 @@ impl Process for IonSputter {
                               mode U/2, median (1 + sqrt 2) U",
                 kind: ParamKind::Number { default: Some(0.27), min: 0.01, max: 10.0 },
                 origin: Origin::FromMemory(
-                    "U = 0.27 eV for Na as used in Mercury sputtering models (check-values §6 \
-                     worked case); low confidence",
+                    "U = 0.27 eV for Na as used in Mercury sputtering models; low \
+                     confidence",
                 ),
             },
             ParamSpec {
@@ -309,12 +313,15 @@ impl Process for IonSputter {
                     ("max_energy", Value::Number(2.7)),
                 ],
                 input: &[("mass", NA_MASS)],
-                // int sqrt(2E/m) f(E) dE / CDF(2.7 eV) over (0, 2.7 eV), mpmath quad at 30
-                // digits; the relative sd of the speed is 0.48, so 1e5 draws give 0.15%.
+                // int sqrt(2E/m) f(E) dE / CDF(2.7 eV) over (0, 2.7 eV), mpmath quad at 40
+                // digits (tests/python/module_reference_values.py); the relative sd of the
+                // speed is 0.48, so 1e5 draws give 0.15%.
                 expected: 2_193.557_795_088_484,
                 tolerance: 0.01,
-                source: "quadrature of the Sigmund-Thompson law of check-values §6 (C, mpmath \
-                         1.3); the same truncation gives the check-values mean energy 0.70278 eV",
+                source: "quadrature of the Sigmund-Thompson law 2UE/(E+U)^3 (Sigmund 1969, \
+                         Phys. Rev. 184, 383; Thompson 1968, Phil. Mag. 18, 377) cut at 2.7 eV \
+                         (mpmath 1.3, tests/python/module_reference_values.py); mean energy \
+                         0.70278 eV",
             },
             ReferencePoint {
                 description: "Na, U = 0.27 eV, Thompson cutoff for 1 keV protons (Lambda E_i = \
@@ -328,12 +335,13 @@ impl Process for IonSputter {
                 ],
                 input: &[("mass", NA_MASS)],
                 // int sqrt(2E/m) f(E) w(E) dE / int f w dE, w = 1 - sqrt((E+U)/(Lambda E_i)),
-                // mpmath quad at 30 digits; relative sd of the speed 0.87, so 1e5 draws give
-                // 0.28% (5 sigma inside the tolerance).
+                // mpmath quad at 40 digits (tests/python/module_reference_values.py); relative
+                // sd of the speed 0.87, so 1e5 draws give 0.28% (5 sigma inside the tolerance).
                 expected: 2_986.224_711_175_713,
                 tolerance: 0.015,
                 source: "quadrature of the Sigmund-Thompson law with Thompson's cutoff factor \
-                         (check-values §6, M: Thompson 1968; C, mpmath 1.3)",
+                         (Thompson 1968, Phil. Mag. 18, 377, from memory; mpmath 1.3, \
+                         tests/python/module_reference_values.py)",
             },
         ],
     };
@@ -513,7 +521,7 @@ mod tests {
     }
 
     /// Unnormalised CDF of the Sigmund-Thompson law times Thompson's factor,
-    /// integrated in closed form (C): E^2/(E+U)^2 - (2U/sqrt L) [4/(3 sqrt U)
+    /// integrated in closed form: E^2/(E+U)^2 - (2U/sqrt L) [4/(3 sqrt U)
     /// - 2/sqrt(E+U) + (2U/3)(E+U)^(-3/2)], with L = Lambda E_i, all in eV.
     fn thompson_cdf_unnormalised(e: f64, u: f64, l: f64) -> f64 {
         let w = e + u;
@@ -529,10 +537,10 @@ mod tests {
         // regolith at 1 keV/amu; 4% He/H (common practice) gives 1.0e-2.
         assert!((0.96 * 7.3e-3 + 0.04 * 7.6e-2 - law.sputter_yield).abs() < 0.05e-2);
         // 0.4 wt% Na2O (from memory) -> 0.30 wt% Na -> 0.0028 by atoms at 21.5 u per atom:
-        // 0.004 * (2 * 22.98977 / 61.97894) * 21.5 / 22.98977 (IUPAC masses, check-values §2).
+        // 0.004 * (2 * 22.98977 / 61.97894) * 21.5 / 22.98977 (IUPAC standard atomic weights).
         let c = 0.004 * (2.0 * 22.989_77 / 61.978_94) * 21.5 / 22.989_77;
         assert!((c - law.surface_fraction).abs() < 0.5e-4, "{c}");
-        // check-values §6: U = 0.27 eV worked case (from memory for Na).
+        // U = 0.27 eV for Na, as used in Mercury sputtering models (from memory).
         assert_eq!(law.binding_energy, 0.27);
         assert_eq!(law.cutoff, Cutoff::Thompson);
         let info = IonSputter::MANIFEST.to_info();
@@ -557,9 +565,10 @@ mod tests {
     }
 
     #[test]
-    fn transfer_factor_matches_check_values() {
-        // check-values §6: 1 keV H+ on Na, Lambda E_i ~ 160 eV (M: Thompson 1968);
-        // Lambda = 4 m1 m2/(m1 + m2)^2 with 1.007276 u and 22.98976928 u gives 160.85 eV (C).
+    fn transfer_factor_matches_the_kinematic_limit() {
+        // 1 keV H+ on Na: Lambda E_i ~ 160 eV (Thompson 1968, Phil. Mag. 18, 377, from
+        // memory); Lambda = 4 m1 m2/(m1 + m2)^2 with 1.007276 u and 22.98976928 u gives
+        // 160.85 eV (tests/python/module_reference_values.py).
         let law = law_with(&[]);
         let top = law.max_transfer(NA_MASS);
         assert!((top - 160.852_401_221_453_26).abs() < 1e-9, "{top}");
@@ -576,17 +585,19 @@ mod tests {
         let nf = n as f64;
         let (mut e, vs) = energies(&mut law, n);
         assert!(vs.iter().all(|v| v.up > 0.0), "every launch leaves the surface");
-        // check-values §6: CDF = E^2/(E+U)^2 (scipy betaprime(2, 1, scale=U)); KS at p = 0.01.
+        // CDF = E^2/(E+U)^2 (Thompson 1968, Phil. Mag. 18, 377; scipy betaprime(2, 1, scale=U));
+        // KS at p = 0.01.
         let d = ks_distance(&mut e, |x| (x / (x + u)).powi(2));
         assert!(d < KS_1PC / nf.sqrt(), "KS distance {d}");
-        // check-values §6: median (1 + sqrt 2) U = 0.65184 eV. Standard error of a sample
+        // Median (1 + sqrt 2) U = 0.65184 eV (tests/python/sampler_reference_values.py,
+        // scipy betaprime(2, 1).median()). Standard error of a sample
         // median 1/(2 f(m) sqrt(N)) (asymptotic order statistics, common practice); 4 sigma.
         let median = e[n as usize / 2];
         let f_m = 2.0 * u * 0.65184 / (0.65184f64 + u).powi(3);
         assert!((median - 0.65184).abs() < 4.0 * 0.5 / (f_m * nf.sqrt()), "median {median}");
-        // check-values §6: mode U/2. The fraction of draws within +-0.02 eV of the mode
+        // Mode U/2 (maximum of 2UE/(E+U)^3). The fraction of draws within +-0.02 eV of the mode
         // must exceed that in the same width at 0.3 U and at 0.7 U (the density peaks there;
-        // CDF differences, C).
+        // CDF differences).
         let frac = |c: f64| e.iter().filter(|&&x| (x - c).abs() < 0.02).count();
         assert!(frac(u / 2.0) > frac(0.3 * u) && frac(u / 2.0) > frac(0.7 * u));
         // Cosine law: cos theta has CDF c^2 (from f ~ cos theta sin theta, common practice).
@@ -596,7 +607,7 @@ mod tests {
     }
 
     #[test]
-    fn hard_cutoff_mean_matches_check_values() {
+    fn hard_cutoff_mean_matches_the_quadrature() {
         let u = 0.27;
         let mut law = law_with(&[("energy_cutoff", text("hard")), ("max_energy", num(2.7))]);
         let n = 100_000;
@@ -604,11 +615,12 @@ mod tests {
         let (mut e, _) = energies(&mut law, n);
         // v = sqrt(2E/m) and back loses a few ulps, hence the 1e-12 allowance.
         assert!(e.iter().all(|&x| x <= 2.7 * (1.0 + 1e-12)));
-        // check-values §6: with a hard cutoff at 2.7 eV the mean is 0.70278 eV (C); 3 sigma.
+        // With a hard cutoff at 2.7 eV the mean is 0.70278 eV (quadrature,
+        // tests/python/sampler_reference_values.py); 3 sigma.
         let mean = e.iter().sum::<f64>() / nf;
         let sd = (e.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / nf).sqrt();
         assert!((mean - 0.70278).abs() < 3.0 * sd / nf.sqrt(), "mean {mean}");
-        // Truncated CDF (E^2/(E+U)^2) / CDF(2.7), check-values §6; KS at p = 0.01.
+        // Truncated CDF (E^2/(E+U)^2) / CDF(2.7) (Thompson 1968); KS at p = 0.01.
         let top = (2.7f64 / (2.7 + u)).powi(2);
         let d = ks_distance(&mut e, |x| (x / (x + u)).powi(2) / top);
         assert!(d < KS_1PC / nf.sqrt(), "KS distance {d}");
@@ -617,7 +629,8 @@ mod tests {
     #[test]
     fn thompson_cutoff_closed_form_agrees_with_quadrature() {
         // The closed-form CDF used below, checked a second way: composite Simpson on the
-        // density 2UE/(E+U)^3 [1 - sqrt((E+U)/L)] (check-values §6, M: Thompson 1968).
+        // density 2UE/(E+U)^3 [1 - sqrt((E+U)/L)] (Thompson 1968, Phil. Mag. 18, 377, from
+        // memory).
         let (u, l) = (0.27, 160.852_401_221_453_26);
         let f = |e: f64| 2.0 * u * e / (e + u).powi(3) * (1.0 - ((e + u) / l).sqrt());
         for top in [1.0, 10.0, l - u] {
@@ -637,7 +650,8 @@ mod tests {
             let closed = thompson_cdf_unnormalised(top, u, l);
             assert!((quad - closed).abs() < 1e-10, "E = {top}: {quad} vs {closed}");
         }
-        // The normalisation over the whole range, 0.894102303 (mpmath quad, 30 digits).
+        // The normalisation over the whole range, 0.894102303 (mpmath quad at 40 digits,
+        // tests/python/module_reference_values.py).
         assert!((thompson_cdf_unnormalised(l - u, u, l) - 0.894_102_303_097_773_4).abs() < 1e-12);
     }
 
@@ -655,14 +669,16 @@ mod tests {
         let z = thompson_cdf_unnormalised(l - u, u, l);
         let d = ks_distance(&mut e, |x| thompson_cdf_unnormalised(x, u, l) / z);
         assert!(d < KS_1PC / nf.sqrt(), "KS distance {d}");
-        // Median of the cut distribution 0.597438 eV (mpmath findroot on the closed form, C);
-        // the cutoff pulls it below the uncut 0.65184 eV of check-values §6. 4 sigma.
+        // Median of the cut distribution 0.597438 eV (mpmath findroot on the quadrature,
+        // tests/python/module_reference_values.py); the cutoff pulls it below the uncut
+        // (1 + sqrt 2) U = 0.65184 eV. 4 sigma.
         let median = e[n as usize / 2];
         let f_m = 2.0 * u * 0.597_438 / (0.597_438f64 + u).powi(3)
             * (1.0 - ((0.597_438 + u) / l).sqrt())
             / z;
         assert!((median - 0.597_438).abs() < 4.0 * 0.5 / (f_m * nf.sqrt()), "median {median}");
-        // Mean energy 1.8752716 eV (mpmath quad, C); 3 sigma.
+        // Mean energy 1.8752716 eV (mpmath quad, tests/python/module_reference_values.py);
+        // 3 sigma.
         let mean = e.iter().sum::<f64>() / nf;
         let sd = (e.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / nf).sqrt();
         assert!((mean - 1.875_271_6).abs() < 3.0 * sd / nf.sqrt(), "mean {mean}");

@@ -25,7 +25,7 @@
 //! rates; for Na, ionized from 241 nm down mostly by near-UV photons, the
 //! two differ modestly. `solar_activity` picks `rate_1au` (quiet Sun) or
 //! `rate_1au_active` (active Sun), whose default 7.26e-6 s^-1 for Na is
-//! recalled from the same table with low confidence (not in check-values);
+//! recalled from the same table with low confidence;
 //! give both for another species or epoch.
 //!
 //! What the law leaves out, so that a user can judge it:
@@ -43,10 +43,12 @@ use exobound_sdk::{
     Process, ProcessError, ReferencePoint, Role, Value,
 };
 
-/// Heliocentric distance of Mercury at perihelion, AU (check-values §1, F: fact sheets).
+/// Heliocentric distance of Mercury at perihelion, AU: q = a(1 - e) with
+/// a = 0.387098 AU and e = 0.20563 (NASA NSSDCA Mercury fact sheet).
 const MERCURY_PERIHELION_AU: f64 = 0.307_50;
 
-/// Heliocentric distance of Mercury at aphelion, AU (check-values §1, F: fact sheets).
+/// Heliocentric distance of Mercury at aphelion, AU: Q = a(1 + e) with
+/// a = 0.387098 AU and e = 0.20563 (NASA NSSDCA Mercury fact sheet).
 const MERCURY_APHELION_AU: f64 = 0.466_70;
 
 /// Default Na photoionization rate at 1 AU, quiet Sun, s^-1
@@ -155,41 +157,48 @@ impl Process for Photoionization {
                 input: &[("helio_distance", 1.0), ("sunlit_fraction", 1.0)],
                 expected: NA_RATE_1AU,
                 tolerance: 1.0e-9,
-                source: "check-values §2 (M: Huebner et al. 1992; Huebner & Mukherjee 2015)",
+                source: "Huebner, Keady & Lyon 1992, Astrophys. Space Sci. 195, 1, quiet-Sun Na \
+                         rate at 1 AU (from memory); Huebner & Mukherjee 2015, Planet. Space \
+                         Sci. 106, 11",
             },
             ReferencePoint {
                 description: "Na at Mercury perihelion (0.3075 AU), fully sunlit",
                 check: Check::LossRate,
                 parameters: &[],
                 input: &[("helio_distance", MERCURY_PERIHELION_AU), ("sunlit_fraction", 1.0)],
-                // 5.92e-6 / 0.3075^2 (check-values §2: rate(r) = rate(1 AU)/r^2, exact).
+                // 5.92e-6 / 0.3075^2: rate(r) = rate(1 AU)/r^2, exact
+                // (tests/python/module_reference_values.py).
                 expected: 6.260_823_583_845_6e-5,
                 tolerance: 1.0e-9,
-                source: "check-values §1 (q = 0.30750 AU, F) and §2 (r^-2 law, exact; \
-                         M: Huebner et al. 1992)",
+                source: "Huebner et al. 1992, Astrophys. Space Sci. 195, 1 (from memory), scaled \
+                         as r^-2 to q = 0.3075 AU (NASA NSSDCA Mercury fact sheet: a = \
+                         0.387098 AU, e = 0.20563)",
             },
             ReferencePoint {
                 description: "Na at Mercury aphelion (0.4667 AU), sunlit half the interval",
                 check: Check::LossRate,
                 parameters: &[],
                 input: &[("helio_distance", MERCURY_APHELION_AU), ("sunlit_fraction", 0.5)],
-                // 0.5 * 5.92e-6 / 0.4667^2 (check-values §2, r^-2 law, exact).
+                // 0.5 * 5.92e-6 / 0.4667^2 (r^-2 law, exact;
+                // tests/python/module_reference_values.py).
                 expected: 1.358_989_525_175_03e-5,
                 tolerance: 1.0e-9,
-                source: "check-values §1 (Q = 0.46670 AU, F) and §2 (r^-2 law, exact; \
-                         M: Huebner et al. 1992)",
+                source: "Huebner et al. 1992, Astrophys. Space Sci. 195, 1 (from memory), scaled \
+                         as r^-2 to Q = 0.4667 AU (NASA NSSDCA Mercury fact sheet: a = \
+                         0.387098 AU, e = 0.20563)",
             },
             ReferencePoint {
                 description: "Na at Mercury perihelion (0.3075 AU), fully sunlit, active Sun",
                 check: Check::LossRate,
                 parameters: &[("solar_activity", Value::Text("active"))],
                 input: &[("helio_distance", MERCURY_PERIHELION_AU), ("sunlit_fraction", 1.0)],
-                // 7.26e-6 / 0.3075^2 (r^-2 law, exact; mpmath).
+                // 7.26e-6 / 0.3075^2 (r^-2 law, exact; mpmath,
+                // tests/python/module_reference_values.py).
                 expected: 7.677_969_462_621_456e-5,
                 tolerance: 1.0e-9,
                 source: "from memory, low confidence: Huebner et al. 1992 active-Sun Na rate \
-                         7.26e-6 s^-1 (not in check-values); check-values §1 (q, F) and §2 \
-                         (r^-2 law, exact)",
+                         7.26e-6 s^-1, scaled as r^-2 to q = 0.3075 AU (NASA NSSDCA Mercury \
+                         fact sheet)",
             },
         ],
     };
@@ -287,10 +296,11 @@ mod tests {
     #[test]
     fn default_is_the_na_quiet_sun_rate() {
         let law = law_with(&[]);
-        // check-values §2: Na photoionization 5.92e-6 s^-1 at 1 AU, quiet Sun
-        // (M: Huebner et al. 1992; Huebner & Mukherjee 2015; from memory).
+        // Na photoionization 5.92e-6 s^-1 at 1 AU, quiet Sun (Huebner, Keady & Lyon 1992,
+        // Astrophys. Space Sci. 195, 1; Huebner & Mukherjee 2015, Planet. Space Sci. 106, 11;
+        // from memory).
         assert_eq!(law.rate_1au, 5.92e-6);
-        // check-values §2: lifetime 1.69e5 s (same source, from memory).
+        // Lifetime 1.69e5 s (same sources, from memory).
         assert!((law.lifetime(1.0) - 1.69e5).abs() < 0.005e5, "{}", law.lifetime(1.0));
         let info = Photoionization::MANIFEST.to_info();
         assert_eq!(info.ledger_label, "photoionized");
@@ -300,12 +310,15 @@ mod tests {
     #[test]
     fn rate_scales_as_inverse_square_of_distance() {
         let mut law = law_with(&[]);
-        // check-values §2: rate(1 AU), 5.92e-6 s^-1 (M: Huebner et al. 1992).
+        // rate(1 AU), 5.92e-6 s^-1 (Huebner et al. 1992, Astrophys. Space Sci. 195, 1; from
+        // memory).
         assert_eq!(one(&mut law, atom(1.0, 1.0)).unwrap(), 5.92e-6);
-        // check-values §1: Mercury q = 0.30750 AU (F); §2: rate(r) = rate(1 AU)/r^2 (exact).
+        // Mercury q = 0.30750 AU (NASA NSSDCA Mercury fact sheet, a(1 - e)); rate(r) =
+        // rate(1 AU)/r^2 (exact: the photon flux of a distant source).
         let q = one(&mut law, atom(0.3075, 1.0)).unwrap();
         assert!((q - 5.92e-6 / (0.3075 * 0.3075)).abs() <= 1e-15 * q, "{q}");
-        // r^-2 law (check-values §2, exact): perihelion/aphelion ratio (Q/q)^2 = 2.3035 (C).
+        // r^-2 law (exact): perihelion/aphelion ratio (Q/q)^2 = 2.3035
+        // (tests/python/module_reference_values.py).
         let big_q = one(&mut law, atom(0.4667, 1.0)).unwrap();
         assert!((q / big_q - (0.4667f64 / 0.3075).powi(2)).abs() < 1e-12);
         assert!((q / big_q - 2.3035).abs() < 1e-4, "{}", q / big_q);
@@ -315,7 +328,7 @@ mod tests {
     fn shadow_switches_the_loss_off() {
         let mut law = law_with(&[]);
         // Photoionization needs solar photons: no loss in the body's shadow
-        // (law, check-values §2) and a linear interval average across the terminator.
+        // (the law) and a linear interval average across the terminator.
         assert_eq!(one(&mut law, atom(1.0, 0.0)).unwrap(), 0.0);
         assert_eq!(one(&mut law, atom(0.3075, 0.0)).unwrap(), 0.0);
         let half = one(&mut law, atom(1.0, 0.5)).unwrap();
@@ -325,7 +338,7 @@ mod tests {
     #[test]
     fn active_sun_rate_is_chosen_and_scaled() {
         // Active Sun, Na: 7.26e-6 s^-1 at 1 AU (from memory, low confidence: Huebner et
-        // al. 1992; not in check-values), scaled by the r^-2 law (check-values §2, exact).
+        // al. 1992, Astrophys. Space Sci. 195, 1), scaled by the r^-2 law (exact).
         let mut law = law_with(&[("solar_activity", ParamValue::Text("active".into()))]);
         assert_eq!(law.activity, SolarActivity::Active);
         assert_eq!(one(&mut law, atom(1.0, 1.0)).unwrap(), 7.26e-6);
@@ -354,8 +367,9 @@ mod tests {
 
     #[test]
     fn potassium_rate_is_a_parameter() {
-        // check-values §2: K about 2-3e-5 s^-1 at 1 AU (M: Huebner et al. 1992, low
-        // confidence); 2.5e-5 at Mercury perihelion gives 2.5e-5/0.3075^2 (r^-2 law).
+        // K about 2-3e-5 s^-1 at 1 AU (Huebner et al. 1992, Astrophys. Space Sci. 195, 1;
+        // from memory, low confidence); 2.5e-5 at Mercury perihelion gives 2.5e-5/0.3075^2
+        // (r^-2 law).
         let mut law = law_with(&[("rate_1au", ParamValue::Number(2.5e-5))]);
         let r = one(&mut law, atom(0.3075, 1.0)).unwrap();
         assert!((r - 2.5e-5 / 0.3075f64.powi(2)).abs() <= 1e-15 * r);
@@ -383,7 +397,7 @@ mod tests {
                 assert!(p.set_field(k, *v), "unknown field {k}");
             }
             let got = one(&mut law, p).unwrap();
-            // Values and sources are stated in each point (check-values §1, §2).
+            // Values and sources are stated in each point.
             assert!(
                 (got - point.expected).abs() <= point.tolerance * point.expected.abs(),
                 "{}: got {got:e}, expected {:e}",

@@ -204,6 +204,7 @@ impl Process for RegolithDiffusion {
         // bulk_abundance must be given or every rate would be 0. The
         // expected values come from Python 3's math.exp with CODATA k_B and
         // e; libm and glibc agree to ~1e-16, E_a/k_B T to ~1e-15 relative.
+        // tests/python/module_reference_values.py recomputes them with mpmath.
         reference_points: &[
             ReferencePoint {
                 description: "Defaults, nominal regolith, empty surface at 600 K",
@@ -395,7 +396,7 @@ mod tests {
         let r = law.supply_rate(600.0, 1.0, 0.0);
         assert!((1.0e6..1.0e7).contains(&r), "{r:e}");
         // ... and, as documented, nothing of consequence on the Moon (390 K dayside, Butler
-        // 1997 via check-values §7, from memory): below 1e-3 cm^-2 s^-1.
+        // 1997, J. Geophys. Res. 102, 19283, from memory): below 1e-3 cm^-2 s^-1.
         assert!(law.supply_rate(390.0, 1.0, 0.0) < 1.0e-3);
     }
 

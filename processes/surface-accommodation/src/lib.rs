@@ -56,7 +56,8 @@ use exobound_sdk::{
     Process, ProcessError, ReferencePoint, Rng, Role, SurfaceInteraction, Value,
 };
 
-/// Mass of one Na atom, kg (22.98976928 u, IUPAC; check-values §2), used by
+/// Mass of one Na atom, kg (22.98976928 u, the IUPAC standard atomic weight;
+/// Prohaska et al. 2022, Pure Appl. Chem. 94, 573), used by
 /// the stick-fraction reference point.
 const NA_MASS: f64 = 22.989_769_28 * exobound_sdk::constants::ATOMIC_MASS;
 
@@ -444,8 +445,9 @@ mod tests {
     fn defaults_come_from_the_manifest() {
         let schema = SurfaceAccommodation::MANIFEST.to_info().parameters;
         let law = SurfaceAccommodation::new(&Params::decode(&[], &schema).unwrap()).unwrap();
-        // Defaults: constant S = 0.5 and alpha = 0.5, common practice (check-values §7 gives
-        // 0.2-0.6 for alpha, M); re-emission at the local surface temperature.
+        // Defaults: constant S = 0.5 and alpha = 0.5, common practice (exosphere models use
+        // 0.2-0.6 for alpha; Hunten, Morgan & Shemansky 1988, from memory); re-emission at the
+        // local surface temperature.
         assert_eq!(law.sticking, StickingLaw::Constant(0.5));
         assert_eq!(law.accommodation, 0.5);
         assert_eq!(law.reemit_temperature, 0.0);
@@ -484,7 +486,8 @@ mod tests {
     fn full_reemission_at_a_fixed_temperature_is_a_maxwellian_flux() {
         // Limiting case: S = 0, alpha = 1, T_re = 1200 K. Every atom bounces with a
         // Maxwellian-flux speed at 1200 K whatever its impact speed and the surface
-        // temperature (needed for the Chamberlain comparison, check-values §4).
+        // temperature (needed for the comparison with Chamberlain 1963, Planet. Space Sci.
+        // 11, 901).
         let mut law = law_with(&[
             ("sticking", num(0.0)),
             ("accommodation", num(1.0)),
@@ -495,13 +498,15 @@ mod tests {
         let mut v = bounce_speeds(&out);
         assert_eq!(v.len() as u64, n, "no atom sticks");
         let nf = n as f64;
-        // check-values §6: Na at 1200 K, a = 931.66 m/s, <v> = 1238.49 m/s (C); sd of the
-        // flux speed a sqrt(2 - 9 pi/16) (chi with 4 degrees of freedom, C).
+        // Maxwellian flux, Na at 1200 K: a = 931.66 m/s, <v> = 1238.49 m/s
+        // (tests/python/sampler_reference_values.py); sd of the flux speed a sqrt(2 - 9 pi/16)
+        // (moments of chi with 4 degrees of freedom).
         let a = 931.66;
         let mean = v.iter().sum::<f64>() / nf;
         let sd = a * (2.0 - 9.0 * core::f64::consts::PI / 16.0).sqrt();
         assert!((mean - 1238.49).abs() < 3.0 * sd / nf.sqrt(), "mean {mean}");
-        // check-values §6: CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2) (C); KS at p = 0.01.
+        // Maxwellian flux CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2) (integral of v^3
+        // exp(-v^2/a^2)); KS at p = 0.01.
         v.sort_by(f64::total_cmp);
         let d = v
             .iter()
@@ -522,7 +527,8 @@ mod tests {
 
     #[test]
     fn mean_reemitted_energy_obeys_the_accommodation_definition() {
-        // check-values §7: alpha = (E_in - E_out)/(E_in - 2kT_s) (M), so
+        // alpha = (E_in - E_out)/(E_in - 2kT_s) (Hunten, Morgan & Shemansky 1988, in Mercury,
+        // Univ. Arizona Press; from memory), so
         // <E_out> = E_in - alpha (E_in - 2kT_s). Test a fast atom on a cool surface and a
         // slow atom on a hot one, for alpha within the 0.2-0.6 range quoted there.
         let n = 100_000;
@@ -538,7 +544,7 @@ mod tests {
             let expected = e_in - alpha * (e_in - e_th);
             let mean = e.iter().sum::<f64>() / nf;
             // E_out = alpha E_th + const, and Var(E_th) = 2 (kT)^2 for the Maxwellian flux
-            // (Gamma(2, kT) energy, C): sd(E_out) = alpha sqrt(2) kT_s.
+            // (Gamma(2, kT) energy): sd(E_out) = alpha sqrt(2) kT_s.
             let sd = alpha * core::f64::consts::SQRT_2 * BOLTZMANN * t_s;
             assert!(
                 (mean - expected).abs() < 3.0 * sd / nf.sqrt(),
@@ -554,7 +560,7 @@ mod tests {
 
     #[test]
     fn elastic_limit_keeps_the_speed() {
-        // alpha = 0: E_out = E_in exactly (check-values §7 definition); only the direction
+        // alpha = 0: E_out = E_in exactly (definition of alpha); only the direction
         // is redrawn from the cosine law.
         let mut law = law_with(&[("sticking", num(0.0)), ("accommodation", num(0.0))]);
         let hits = impacts(1000, 400.0, 1700.0);

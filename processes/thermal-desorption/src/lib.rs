@@ -66,7 +66,8 @@ use exobound_sdk::{
     Params, Pool, Process, ProcessError, ReferencePoint, Rng, Role, Source, Value, Velocity, math,
 };
 
-/// Mass of one Na atom, kg (22.98976928 u, IUPAC; check-values §2), used by
+/// Mass of one Na atom, kg (22.98976928 u, the IUPAC standard atomic weight;
+/// Prohaska et al. 2022, Pure Appl. Chem. 94, 573), used by
 /// the launch-speed reference point.
 const NA_MASS: f64 = 22.989_769_28 * exobound_sdk::constants::ATOMIC_MASS;
 
@@ -307,7 +308,9 @@ impl Process for ThermalDesorption {
                 input: &[("temperature", 600.0), ("adsorbed", 1.0e10)],
                 expected: 2.889e7,
                 tolerance: 1.0e-3,
-                source: "check-values §7, thermal desorption (M: Hunten & Sprague 2002; C)",
+                source: "nu exp(-U/kT) with nu = 1e13 s^-1 and U for Na (Hunten & Sprague 2002, \
+                         Meteoritics & Planet. Sci. 37, 1191, from memory), evaluated in \
+                         tests/python/module_reference_values.py",
             },
             ReferencePoint {
                 description: "U = 1.85 eV, T = 400 K, N_s = 1e10 cm^-2: 4.91e-11 s^-1 per atom",
@@ -316,7 +319,9 @@ impl Process for ThermalDesorption {
                 input: &[("temperature", 400.0), ("adsorbed", 1.0e10)],
                 expected: 4.91e-1,
                 tolerance: 1.0e-3,
-                source: "check-values §7, thermal desorption (M: Hunten & Sprague 2002; C)",
+                source: "nu exp(-U/kT) with nu = 1e13 s^-1 and U for Na (Hunten & Sprague 2002, \
+                         Meteoritics & Planet. Sci. 37, 1191, from memory), evaluated in \
+                         tests/python/module_reference_values.py",
             },
             ReferencePoint {
                 description: "U = 1.4 eV, T = 400 K, N_s = 1e10 cm^-2: 2.295e-5 s^-1 per atom",
@@ -325,7 +330,9 @@ impl Process for ThermalDesorption {
                 input: &[("temperature", 400.0), ("adsorbed", 1.0e10)],
                 expected: 2.295e5,
                 tolerance: 1.0e-3,
-                source: "check-values §7, thermal desorption (M: Hunten & Sprague 2002; C)",
+                source: "nu exp(-U/kT) with nu = 1e13 s^-1 and U for Na (Hunten & Sprague 2002, \
+                         Meteoritics & Planet. Sci. 37, 1191, from memory), evaluated in \
+                         tests/python/module_reference_values.py",
             },
             ReferencePoint {
                 description: "U = 2.0 eV, T = 700 K, N_s = 1e10 cm^-2: 3.987e-2 s^-1 per atom",
@@ -334,7 +341,9 @@ impl Process for ThermalDesorption {
                 input: &[("temperature", 700.0), ("adsorbed", 1.0e10)],
                 expected: 3.987e8,
                 tolerance: 1.0e-3,
-                source: "check-values §7, thermal desorption (M: Hunten & Sprague 2002; C)",
+                source: "nu exp(-U/kT) with nu = 1e13 s^-1 and U for Na (Hunten & Sprague 2002, \
+                         Meteoritics & Planet. Sci. 37, 1191, from memory), evaluated in \
+                         tests/python/module_reference_values.py",
             },
             ReferencePoint {
                 description: "Uniform spread 1.85 +- 0.2 eV, T = 600 K, N_s = 1e10 cm^-2: \
@@ -345,11 +354,13 @@ impl Process for ThermalDesorption {
                     ("binding_half_width", Value::Number(0.2)),
                 ],
                 input: &[("temperature", 600.0), ("adsorbed", 1.0e10)],
-                // Closed form, CODATA 2022 constants, mpmath at 30 digits.
+                // Closed form, SI-exact k_B and e, mpmath at 40 digits
+                // (tests/python/module_reference_values.py).
                 expected: 178_601_234.296_213_6,
                 tolerance: 1.0e-9,
-                source: "closed form of the uniform average of exp(-U/kT) (C), on the law of \
-                         check-values §7 (M: Hunten & Sprague 2002)",
+                source: "closed form of the uniform average of exp(-U/kT) \
+                         (tests/python/module_reference_values.py), on the law of Hunten & \
+                         Sprague 2002, Meteoritics & Planet. Sci. 37, 1191 (from memory)",
             },
             ReferencePoint {
                 description: "Gaussian spread about 1.85 eV, sigma 0.1 eV cut at 3 sigma, \
@@ -361,11 +372,13 @@ impl Process for ThermalDesorption {
                 ],
                 input: &[("temperature", 600.0), ("adsorbed", 1.0e10)],
                 // nu exp(-U0/kT + r^2/2) [Phi(3 - r) - Phi(-3 - r)] / [Phi(3) - Phi(-3)] N_s,
-                // r = sigma/kT, mpmath at 30 digits (and its quad agrees to 1e-20).
+                // r = sigma/kT, mpmath at 40 digits, and its quadrature agrees to 1e-20
+                // (tests/python/module_reference_values.py).
                 expected: 161_065_270.543_741_06,
                 tolerance: 1.0e-9,
-                source: "closed form of the truncated-Gaussian average of exp(-U/kT) (C), on \
-                         the law of check-values §7 (M: Hunten & Sprague 2002)",
+                source: "closed form of the truncated-Gaussian average of exp(-U/kT) \
+                         (tests/python/module_reference_values.py), on the law of Hunten & \
+                         Sprague 2002, Meteoritics & Planet. Sci. 37, 1191 (from memory)",
             },
             ReferencePoint {
                 description: "Na launched from a 1200 K surface: mean Maxwellian-flux speed \
@@ -375,7 +388,8 @@ impl Process for ThermalDesorption {
                 input: &[("temperature", 1200.0), ("mass", NA_MASS)],
                 expected: 1238.49,
                 tolerance: 0.01,
-                source: "check-values §6, Maxwellian flux, Na 1200 K (C)",
+                source: "mean of the Maxwellian flux (3 sqrt(pi)/4) sqrt(2kT/m), Na at 1200 K \
+                         (closed form; tests/python/sampler_reference_values.py)",
             },
         ],
     };
@@ -557,7 +571,7 @@ mod tests {
     }
 
     /// |got - stated| within half a unit of the stated value's last digit,
-    /// i.e. `got` rounds to the value as printed in check-values.
+    /// i.e. `got` rounds to the value as printed in its source.
     fn assert_rounds_to(got: f64, stated: f64, last_digit: f64) {
         assert!((got - stated).abs() <= 0.5 * last_digit, "got {got:e}, stated {stated:e}");
     }
@@ -566,9 +580,10 @@ mod tests {
     fn defaults_come_from_the_manifest() {
         let params = Params::decode(&[], &schema()).expect("defaults validate");
         let law = ThermalDesorption::new(&params).unwrap();
-        // nu = 1e13 s^-1: common practice (check-values §7).
+        // nu = 1e13 s^-1: common practice.
         assert_eq!(law.vibrational_frequency, 1.0e13);
-        // U = 1.85 eV for Na: from memory, Hunten & Sprague 2002 (check-values §7).
+        // U = 1.85 eV for Na: from memory, Hunten & Sprague 2002 (Meteoritics & Planet. Sci.
+        // 37, 1191).
         assert_eq!(law.binding_energy, 1.85);
         let info = ThermalDesorption::MANIFEST.to_info();
         assert_eq!(info.draws_on.as_deref(), Some("adsorbed"));
@@ -576,18 +591,18 @@ mod tests {
     }
 
     #[test]
-    fn per_atom_rates_match_check_values() {
+    fn per_atom_rates_match_the_arrhenius_values() {
         let law = law_with(&[]);
-        // check-values §7, thermal desorption, U = 1.85 eV, T = 600 K: 2.889e-3 s^-1
-        // (M: Hunten & Sprague 2002; C).
+        // nu exp(-U/kT), U = 1.85 eV (Hunten & Sprague 2002, Meteoritics & Planet. Sci. 37,
+        // 1191, from memory), T = 600 K: 2.889e-3 s^-1 (tests/python/module_reference_values.py).
         assert_rounds_to(law.rate_per_atom(600.0), 2.889e-3, 1e-6);
-        // check-values §7, U = 1.85 eV, T = 400 K: 4.91e-11 s^-1 (M: Hunten & Sprague 2002; C).
+        // U = 1.85 eV, T = 400 K: 4.91e-11 s^-1 (same law and script).
         assert_rounds_to(law.rate_per_atom(400.0), 4.91e-11, 1e-13);
         let law = law_with(&[("binding_energy", ParamValue::Number(1.4))]);
-        // check-values §7, U = 1.4 eV, T = 400 K: 2.295e-5 s^-1 (M: Hunten & Sprague 2002; C).
+        // U = 1.4 eV, T = 400 K: 2.295e-5 s^-1 (same law and script).
         assert_rounds_to(law.rate_per_atom(400.0), 2.295e-5, 1e-8);
         let law = law_with(&[("binding_energy", ParamValue::Number(2.0))]);
-        // check-values §7, U = 2.0 eV, T = 700 K: 3.987e-2 s^-1 (M: Hunten & Sprague 2002; C).
+        // U = 2.0 eV, T = 700 K: 3.987e-2 s^-1 (same law and script).
         assert_rounds_to(law.rate_per_atom(700.0), 3.987e-2, 1e-5);
     }
 
@@ -597,8 +612,8 @@ mod tests {
         let cells = [cell(600.0, 1.0e10), cell(600.0, 3.0e10), cell(600.0, 0.0)];
         let mut rates = [f64::NAN; 3];
         law.release_rate(&cells, &mut rates).unwrap();
-        // check-values §7: 2.889e-3 s^-1 per atom at 600 K, times N_s = 1e10 cm^-2
-        // (M: Hunten & Sprague 2002; C).
+        // 2.889e-3 s^-1 per atom at 600 K (Hunten & Sprague 2002 law, from memory;
+        // tests/python/module_reference_values.py), times N_s = 1e10 cm^-2.
         assert_rounds_to(rates[0], 2.889e7, 1e4);
         // First-order kinetics (Polanyi-Wigner, order 1, common practice): Phi ~ N_s.
         assert!((rates[1] / rates[0] - 3.0).abs() < 1e-15);
@@ -608,7 +623,7 @@ mod tests {
     #[test]
     fn residence_time_at_mercury_subsolar_is_short() {
         let law = law_with(&[]);
-        // 1/(2.889e-3 s^-1) = 346 s at 600 K (check-values §7, C): adsorbed Na
+        // 1/(2.889e-3 s^-1) = 346 s at 600 K (the value above): adsorbed Na
         // cannot survive a Mercury dayside at perihelion.
         let tau = law.residence_time(600.0);
         assert!((tau - 1.0 / 2.889e-3).abs() < 0.1, "tau {tau}");
@@ -663,7 +678,7 @@ mod tests {
                 }
                 other => panic!("unexpected check {other:?}"),
             };
-            // Expected values and sources are stated in each point (check-values §6, §7).
+            // Expected values and sources are stated in each point.
             assert!(
                 (got - point.expected).abs() <= point.tolerance * point.expected.abs(),
                 "{}: got {got}, expected {}",
@@ -685,16 +700,19 @@ mod tests {
         let nf = n as f64;
         let speeds: Vec<f64> = vs.iter().map(Velocity::speed).collect();
         let mean = speeds.iter().sum::<f64>() / nf;
-        // check-values §6: Maxwellian flux, Na 1200 K, a = 931.66 m/s,
-        // <v> = 1238.49 m/s (C); the standard deviation of the flux speed is
-        // a sqrt(2 - 9 pi/16) (moments of chi with 4 degrees of freedom, C).
+        // Maxwellian flux, Na 1200 K, a = 931.66 m/s, <v> = 1238.49 m/s
+        // (tests/python/sampler_reference_values.py, scipy.stats.chi(df=4)); the standard
+        // deviation of the flux speed is a sqrt(2 - 9 pi/16) (moments of chi with 4 degrees
+        // of freedom).
         let a = 931.66;
         let sd = a * (2.0 - 9.0 * core::f64::consts::PI / 16.0).sqrt();
         assert!((mean - 1238.49).abs() < 3.0 * sd / nf.sqrt(), "mean speed {mean}");
-        // check-values §6: <E> = 2kT = 0.20682 eV for Na at 1200 K (C).
+        // <E> = 2kT = 0.20682 eV at 1200 K (mean of the flux energy distribution, a
+        // Gamma(2, kT); tests/python/module_reference_values.py).
         let mean_e = speeds.iter().map(|v| 0.5 * m * v * v).sum::<f64>() / nf / ELECTRON_VOLT;
-        // Var(E) = 2 (kT)^2 for a Gamma(2) energy, so sd(E) = sqrt(2) kT = 0.0731 eV (C).
-        assert!((mean_e - 0.20682).abs() < 3.0 * 0.0731 / nf.sqrt(), "mean energy {mean_e}");
+        // Var(E) = 2 (kT)^2 for a Gamma(2) energy, so sd(E) = sqrt(2) kT = 0.1462 eV
+        // (tests/python/module_reference_values.py).
+        assert!((mean_e - 0.20682).abs() < 3.0 * 0.1462 / nf.sqrt(), "mean energy {mean_e}");
         // Cosine law: <cos theta> = 2/3, Var = 1/2 - 4/9 = 1/18 (common practice derivation
         // from f(theta) ~ cos theta sin theta).
         let mean_cos = vs.iter().map(|v| v.up / v.speed()).sum::<f64>() / nf;
@@ -707,7 +725,8 @@ mod tests {
     #[test]
     fn launch_depends_only_on_the_key() {
         let mut law = law_with(&[]);
-        // K, 39.0983 u (check-values §2, F: IUPAC).
+        // K, 39.0983 u (IUPAC standard atomic weight; Prohaska et al. 2022, Pure Appl. Chem.
+        // 94, 573).
         let m = 39.0983 * ATOMIC_MASS;
         let a = request(5, 500.0, m);
         let b = request(6, 500.0, m);
@@ -750,7 +769,8 @@ mod tests {
     }
 
     /// Closed form of the uniform average of exp(-U/kT) over [lo, hi] eV at
-    /// `t` K, dimensionless: (kT / (hi - lo)) (e^(-lo/kT) - e^(-hi/kT)) (C).
+    /// `t` K, dimensionless: (kT / (hi - lo)) (e^(-lo/kT) - e^(-hi/kT)) (integral of
+    /// an exponential).
     fn uniform_closed_form(lo: f64, hi: f64, t: f64) -> f64 {
         let kt = BOLTZMANN * t / ELECTRON_VOLT;
         kt / (hi - lo) * (-lo / kt).exp() * -(-(hi - lo) / kt).exp_m1()
@@ -773,7 +793,7 @@ mod tests {
 
     /// Closed form of the average of exp(-U/kT) over a normal spread about
     /// `u0` eV with standard deviation `s` eV truncated at +-3 s, at `t` K,
-    /// dimensionless (C): e^(-u0/kT + r^2/2) [Phi(3 - r) - Phi(-3 - r)] /
+    /// dimensionless (completing the square): e^(-u0/kT + r^2/2) [Phi(3 - r) - Phi(-3 - r)] /
     /// [Phi(3) - Phi(-3)], r = s/kT. With Phi(a) - Phi(b) =
     /// (erfc(x1) - erfc(x2)) / 2, x1 = (r - 3)/sqrt 2, x2 = (r + 3)/sqrt 2, and
     /// r^2/2 - x1^2 = 3r - 9/2, x1^2 - x2^2 = -6r, it is written through erfcx
@@ -842,9 +862,10 @@ mod tests {
 
     #[test]
     fn spread_rate_worked_points() {
-        // Closed forms evaluated with mpmath at 30 digits (C): uniform 1.85 +- 0.2 eV at
-        // 600 K gives 1.786012343e-2 s^-1, 400 K gives 1.4005025747e-9 s^-1; the Gaussian
-        // (sigma 0.1 eV) gives 1.6106527054e-2 and 1.7853589223e-9 s^-1.
+        // Closed forms evaluated with mpmath at 40 digits
+        // (tests/python/module_reference_values.py): uniform 1.85 +- 0.2 eV at 600 K gives
+        // 1.786012343e-2 s^-1, 400 K gives 1.4005025747e-9 s^-1; the Gaussian (sigma 0.1 eV)
+        // gives 1.6106527054e-2 and 1.7853589223e-9 s^-1.
         let uni = law_with(&[
             ("binding_spread", ParamValue::Text("uniform".into())),
             ("binding_half_width", ParamValue::Number(0.2)),
@@ -855,7 +876,7 @@ mod tests {
         assert!((gau.rate_per_atom(600.0) / 1.610_652_705_437_411e-2 - 1.0).abs() < 1e-9);
         assert!((gau.rate_per_atom(400.0) / 1.785_358_922_265_082e-9 - 1.0).abs() < 1e-9);
         // A spread raises the rate above the single-U value at the same centre (Jensen's
-        // inequality, exp convex): check-values §7 single value 2.889e-3 s^-1 at 600 K.
+        // inequality, exp convex): single value 2.889e-3 s^-1 at 600 K.
         let single = law_with(&[]).rate_per_atom(600.0);
         assert!(uni.rate_per_atom(600.0) > single && gau.rate_per_atom(600.0) > single);
     }
@@ -899,7 +920,7 @@ mod tests {
     fn cold_night_surface_releases_nothing_measurable() {
         let mut law = law_with(&[]);
         let mut out = [f64::NAN];
-        // At 100 K, U/kT = 214.7, so nu exp(-U/kT) ~ 1e13 * 6e-94 (C): effectively zero,
+        // At 100 K, U/kT = 214.7, so nu exp(-U/kT) ~ 1e13 * 6e-94: effectively zero,
         // and the exponential must not produce NaN or a negative rate.
         law.release_rate(&[cell(100.0, 1.0e14)], &mut out).unwrap();
         assert!(out[0] >= 0.0 && out[0] < 1e-60, "rate {}", out[0]);
