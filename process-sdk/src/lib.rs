@@ -10,14 +10,22 @@
 //! numbers, because both sides use [`math`] and the counter-based [`Rng`].
 //!
 //! The public surface is:
-//! - roles: [`Process`], [`Source`], [`Loss`], [`SurfaceInteraction`], [`ReservoirProcess`];
+//! - roles: [`Process`], [`Source`], [`Loss`], [`SurfaceInteraction`], [`ReservoirProcess`],
+//!   each with one-record methods (`launch_one`, ...) and batch methods whose
+//!   default bodies loop over the records (see [`roles`]);
 //! - records: [`CellState`], [`LaunchRequest`], [`Velocity`], [`InFlight`],
 //!   [`Impact`], [`Outcome`], [`OutcomeKind`], [`RngKey`];
 //! - randomness: [`Rng`] and its samplers ([`sample`]);
 //! - [`math`] and [`constants`];
 //! - manifests: [`Manifest`], [`ParamSpec`], [`ParamKind`], [`Origin`], [`Input`],
 //!   [`ReferencePoint`], [`Check`], [`Value`], [`Role`], [`Pool`];
-//! - parameters: [`Params`], [`ParamValue`]; errors: [`ProcessError`], [`ErrorCode`].
+//! - parameters: [`Params`], [`ParamValue`]; errors: [`ProcessError`], [`ErrorCode`];
+//! - for tests, with the `testing` feature: `testing` (build a law as the
+//!   host does, rerun the reference points, KS tests, the batch check).
+//!
+//! What only the host and the SDK's plumbing use (the decoded manifest,
+//! byte views of records, field access by name, the reference-check
+//! protocol) is in [`wire`], not here.
 //!
 //! Dependencies are serde, rmp-serde and libm only; the host depends on
 //! this crate, never the reverse.
@@ -31,18 +39,26 @@ pub mod rng;
 pub mod roles;
 pub mod sample;
 
+pub mod wire;
+
+#[cfg(feature = "testing")]
+pub mod testing;
+
 #[doc(hidden)]
 pub mod abi;
 
 pub use manifest::{
-    Check, Input, Manifest, ManifestInfo, Origin, ParamInfo, ParamKind, ParamSpec, Pool,
-    ReferenceInfo, ReferencePoint, Role, Value,
+    Check, Input, Manifest, Origin, ParamKind, ParamSpec, Pool, ReferencePoint, Role, Value,
 };
 pub use params::{ParamValue, Params};
 pub use records::{
-    CellState, Impact, InFlight, LaunchRequest, NamedFields, Outcome, OutcomeKind, RngKey,
-    Velocity, flags, stream,
+    CellState, Impact, InFlight, LaunchRequest, Outcome, OutcomeKind, RngKey, Velocity, flags,
+    stream,
 };
+// Wire-only types, kept reachable from the root (hidden from the
+// documentation) for code written before they moved to `wire`.
+#[doc(hidden)]
+pub use wire::{ManifestInfo, NamedFields, ParamInfo, ReferenceInfo};
 pub use rng::Rng;
 pub use roles::{
     ErrorCode, Loss, Process, ProcessError, ReservoirProcess, Source, SurfaceInteraction,
