@@ -476,100 +476,67 @@ impl Process for PhotonDesorption {
 }
 
 impl Source for PhotonDesorption {
-    fn release_rate(&mut self, cells: &[CellState], rates: &mut [f64]) -> Result<(), ProcessError> {
-        if cells.len() != rates.len() {
-            return Err(ProcessError::new(
-                ErrorCode::InvalidInput,
-                format!("{} cells but {} rate slots", cells.len(), rates.len()),
-            ));
-        }
-        for (cell, rate) in cells.iter().zip(rates.iter_mut()) {
-            if !(cell.adsorbed.is_finite() && cell.adsorbed >= 0.0) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: adsorbed surface density {} atoms cm^-2; it must be finite \
-                         and >= 0",
-                        cell.cell, cell.adsorbed
-                    ),
-                ));
-            }
-            if !(cell.cos_sza.is_finite() && cell.cos_sza.abs() <= 1.0) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: cos(SZA) = {}; it must lie in [-1, 1]",
-                        cell.cell, cell.cos_sza
-                    ),
-                ));
-            }
-            // Inputs are judged only where the law reads them: the night
-            // side reads neither the distance nor the temperature.
-            if cell.cos_sza > 0.0 {
-                if !(cell.helio_distance.is_finite() && cell.helio_distance > 0.0) {
-                    return Err(ProcessError::outside_validity(format!(
-                        "cell {}: heliocentric distance {} AU; the r^-2 photon-flux law needs \
-                         a finite distance above 0 AU",
-                        cell.cell, cell.helio_distance
-                    )));
-                }
-                let t = cell.temperature;
-                if self.activation_energy > 0.0 && !(t.is_finite() && t > 0.0) {
-                    return Err(ProcessError::outside_validity(format!(
-                        "cell {}: surface temperature {t} K; the temperature factor of Q needs \
-                         a finite temperature above 0 K (or set activation_energy = 0)",
-                        cell.cell
-                    )));
-                }
-            }
-            // First order in the coverage; the host caps the step's release
-            // by the pool it holds.
-            *rate = cell.adsorbed
-                * self.rate_per_atom(cell.cos_sza, cell.helio_distance, cell.temperature);
-        }
-        Ok(())
-    }
-
-    fn launch(
-        &mut self,
-        requests: &[LaunchRequest],
-        velocities: &mut [Velocity],
-    ) -> Result<(), ProcessError> {
-        if requests.len() != velocities.len() {
+    fn release_rate_one(&self, cell: &CellState) -> Result<f64, ProcessError> {
+        if !(cell.adsorbed.is_finite() && cell.adsorbed >= 0.0) {
             return Err(ProcessError::new(
                 ErrorCode::InvalidInput,
                 format!(
-                    "{} launch requests but {} velocity slots",
-                    requests.len(),
-                    velocities.len()
+                    "cell {}: adsorbed surface density {} atoms cm^-2; it must be finite and >= 0",
+                    cell.cell, cell.adsorbed
                 ),
             ));
         }
-        for (req, v) in requests.iter().zip(velocities.iter_mut()) {
-            if !(req.mass.is_finite() && req.mass > 0.0) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: atomic mass {} kg; it must be finite and > 0",
-                        req.cell, req.mass
-                    ),
-                ));
-            }
-            // One stream per record, speed first, then the direction.
-            let mut rng = Rng::new(req.key);
-            let speed = match self.velocity_law {
-                VelocityLaw::Maxwellian => {
-                    rng.maxwellian_flux_speed(self.launch_temperature, req.mass)
-                }
-                VelocityLaw::PowerLaw => {
-                    // E = m v^2 / 2 with E in J.
-                    let e = self.power_law_launch_energy(rng.uniform()) * ELECTRON_VOLT;
-                    math::sqrt(2.0 * e / req.mass)
-                }
-            };
-            *v = rng.cosine_direction().times(speed);
+        if !(cell.cos_sza.is_finite() && cell.cos_sza.abs() <= 1.0) {
+            return Err(ProcessError::new(
+                ErrorCode::InvalidInput,
+                format!("cell {}: cos(SZA) = {}; it must lie in [-1, 1]", cell.cell, cell.cos_sza),
+            ));
         }
-        Ok(())
+        // Inputs are judged only where the law reads them: the night side
+        // reads neither the distance nor the temperature.
+        if cell.cos_sza > 0.0 {
+            if !(cell.helio_distance.is_finite() && cell.helio_distance > 0.0) {
+                return Err(ProcessError::outside_validity(format!(
+                    "cell {}: heliocentric distance {} AU; the r^-2 photon-flux law needs a \
+                     finite distance above 0 AU",
+                    cell.cell, cell.helio_distance
+                )));
+            }
+            let t = cell.temperature;
+            if self.activation_energy > 0.0 && !(t.is_finite() && t > 0.0) {
+                return Err(ProcessError::outside_validity(format!(
+                    "cell {}: surface temperature {t} K; the temperature factor of Q needs a \
+                     finite temperature above 0 K (or set activation_energy = 0)",
+                    cell.cell
+                )));
+            }
+        }
+        // First order in the coverage; the host caps the step's release by
+        // the pool it holds.
+        Ok(cell.adsorbed * self.rate_per_atom(cell.cos_sza, cell.helio_distance, cell.temperature))
+    }
+
+    fn launch_one(&self, req: &LaunchRequest) -> Result<Velocity, ProcessError> {
+        if !(req.mass.is_finite() && req.mass > 0.0) {
+            return Err(ProcessError::new(
+                ErrorCode::InvalidInput,
+                format!(
+                    "cell {}: atomic mass {} kg; it must be finite and > 0",
+                    req.cell, req.mass
+                ),
+            ));
+        }
+        // One stream per record, speed first, then the direction.
+        let mut rng = Rng::new(req.key);
+        let speed = match self.velocity_law {
+            VelocityLaw::Maxwellian => rng.maxwellian_flux_speed(self.launch_temperature, req.mass),
+            VelocityLaw::PowerLaw => {
+                // E = m v^2 / 2 with E in J.
+                let e = self.power_law_launch_energy(rng.uniform()) * ELECTRON_VOLT;
+                math::sqrt(2.0 * e / req.mass)
+            }
+        };
+        Ok(rng.cosine_direction().times(speed))
     }
 }
 
@@ -577,40 +544,17 @@ exobound_sdk::export_process!(PhotonDesorption: Source);
 
 #[cfg(test)]
 mod tests {
-    use std::collections::BTreeMap;
-
     use exobound_sdk::sample::thermal_speed;
-    use exobound_sdk::{NamedFields, ParamValue, RngKey, stream};
+    use exobound_sdk::testing::{self, Roles};
 
     use super::*;
 
     use core::f64::consts::PI;
 
-    /// Kolmogorov-Smirnov critical value at p = 0.01, times sqrt(N)
-    /// (asymptotic Kolmogorov distribution; Press et al., Numerical Recipes §14.3).
-    const KS_1PC: f64 = 1.628;
-
-    /// The parameter schema exactly as the host decodes it from the manifest.
-    fn schema() -> Vec<exobound_sdk::ParamInfo> {
-        PhotonDesorption::MANIFEST.to_info().parameters
-    }
-
-    /// The law built from `given` through the same decode/validate path as `init`.
-    fn law_with(given: &[(&str, ParamValue)]) -> PhotonDesorption {
-        let map: BTreeMap<String, ParamValue> =
-            given.iter().map(|(k, v)| (k.to_string(), v.clone())).collect();
-        let params = Params::decode(&Params::encode(&map), &schema()).expect("valid parameters");
-        PhotonDesorption::new(&params).expect("law builds")
-    }
-
-    /// A number parameter value.
-    fn num(x: f64) -> ParamValue {
-        ParamValue::Number(x)
-    }
-
-    /// A choice parameter value.
-    fn text(s: &str) -> ParamValue {
-        ParamValue::Text(s.to_string())
+    /// The law with the parameters `given` (others at their defaults), built
+    /// as the module's `init` builds it.
+    fn law_with(given: &[(&str, Value)]) -> PhotonDesorption {
+        testing::law(given)
     }
 
     /// Cell 21 with `cos_sza`, at `helio_distance` AU, holding `adsorbed` atoms cm^-2, at 400 K.
@@ -625,39 +569,14 @@ mod tests {
         }
     }
 
-    /// The release rate of one cell, atoms cm^-2 s^-1, through the batch interface.
-    fn one(law: &mut PhotonDesorption, c: CellState) -> Result<f64, ProcessError> {
-        let mut out = [f64::NAN];
-        law.release_rate(&[c], &mut out).map(|()| out[0])
-    }
-
     /// `n` launches of Na from cell 8, each with its own key.
     fn launches(law: &mut PhotonDesorption, n: u64) -> Vec<Velocity> {
-        let reqs: Vec<LaunchRequest> = (0..n)
-            .map(|i| LaunchRequest {
-                key: RngKey { seed: 99, particle: i, event: 0, stream: stream::LAUNCH },
-                cell: 8,
-                temperature: 350.0,
-                mass: NA_MASS,
-                ..LaunchRequest::default()
-            })
-            .collect();
+        let base =
+            LaunchRequest { cell: 8, temperature: 350.0, mass: NA_MASS, ..Default::default() };
+        let reqs = testing::draws(base, n, 99);
         let mut vs = vec![Velocity::ZERO; reqs.len()];
         law.launch(&reqs, &mut vs).unwrap();
         vs
-    }
-
-    /// Largest distance between the empirical CDF of `xs` and `cdf`.
-    fn ks_distance(xs: &mut [f64], cdf: impl Fn(f64) -> f64) -> f64 {
-        xs.sort_by(f64::total_cmp);
-        let n = xs.len() as f64;
-        xs.iter()
-            .enumerate()
-            .map(|(i, &x)| {
-                let f = cdf(x);
-                (f - i as f64 / n).abs().max((f - (i + 1) as f64 / n).abs())
-            })
-            .fold(0.0, f64::max)
     }
 
     #[test]
@@ -699,24 +618,26 @@ mod tests {
 
     #[test]
     fn release_is_first_order_and_zero_at_night() {
-        let mut law = law_with(&[]);
+        let law = law_with(&[]);
         // 4.5e-6 s^-1 per atom at 1 AU (Yakshinskiy & Madey 1999), times N_s = 1e10.
-        let r = one(&mut law, cell(1.0, 1.0, 1.0e10)).unwrap();
+        let r = law.release_rate_one(&cell(1.0, 1.0, 1.0e10)).unwrap();
         assert!((r - 4.5e4).abs() <= 1e-12 * 4.5e4, "{r}");
         // First order in the coverage (the law): tripling N_s triples Phi.
-        let r3 = one(&mut law, cell(1.0, 1.0, 3.0e10)).unwrap();
+        let r3 = law.release_rate_one(&cell(1.0, 1.0, 3.0e10)).unwrap();
         assert!((r3 / r - 3.0).abs() < 1e-15);
-        assert_eq!(one(&mut law, cell(1.0, 1.0, 0.0)).unwrap(), 0.0);
+        assert_eq!(law.release_rate_one(&cell(1.0, 1.0, 0.0)).unwrap(), 0.0);
         // Night side: no photons (the law). The distance is not read there, so a zero
         // distance is no error at night.
-        assert_eq!(one(&mut law, cell(-0.2, 1.0, 1.0e12)).unwrap(), 0.0);
-        assert_eq!(one(&mut law, cell(-1.0, 0.0, 1.0e12)).unwrap(), 0.0);
+        assert_eq!(law.release_rate_one(&cell(-0.2, 1.0, 1.0e12)).unwrap(), 0.0);
+        assert_eq!(law.release_rate_one(&cell(-1.0, 0.0, 1.0e12)).unwrap(), 0.0);
     }
 
     #[test]
     fn temperature_factor_is_normalised_at_the_reference() {
-        let law =
-            law_with(&[("activation_energy", num(0.1)), ("reference_temperature", num(300.0))]);
+        let law = law_with(&[
+            ("activation_energy", Value::Number(0.1)),
+            ("reference_temperature", Value::Number(300.0)),
+        ]);
         // Q(T_ref) = Q0 (definition of the normalised form).
         assert!((law.cross_section_at(300.0) - 3.0e-20).abs() <= 1e-15 * 3.0e-20);
         // Closed form exp(-(E_a/k)(1/T - 1/T_ref)) with E_a/k = 1160.45 K for 0.1 eV
@@ -738,58 +659,7 @@ mod tests {
     /// The manifest's promises, run the way the host's `module check` does.
     #[test]
     fn manifest_reference_points_hold() {
-        for point in PhotonDesorption::MANIFEST.reference_points {
-            let given: Vec<(&str, ParamValue)> = point
-                .parameters
-                .iter()
-                .map(|(k, v)| match v {
-                    Value::Number(x) => (*k, num(*x)),
-                    Value::Text(s) => (*k, text(s)),
-                })
-                .collect();
-            let mut law = law_with(&given);
-            let got = match point.check {
-                Check::ReleaseRate => {
-                    let mut c = CellState::default();
-                    for (k, v) in point.input {
-                        assert!(c.set_field(k, *v), "unknown field {k}");
-                    }
-                    one(&mut law, c).unwrap()
-                }
-                Check::MeanLaunchSpeed => {
-                    let mut r = LaunchRequest::default();
-                    for (k, v) in point.input {
-                        assert!(r.set_field(k, *v), "unknown field {k}");
-                    }
-                    let n = 100_000;
-                    let reqs: Vec<LaunchRequest> = (0..n)
-                        .map(|i| LaunchRequest {
-                            // The host's reference seed (host/src/runtime/reference.rs), so
-                            // this is the very average `module check` computes.
-                            key: RngKey {
-                                seed: 0x00E0_B0D5,
-                                particle: i,
-                                event: 0,
-                                stream: stream::LAUNCH,
-                            },
-                            ..r
-                        })
-                        .collect();
-                    let mut vs = vec![Velocity::ZERO; reqs.len()];
-                    law.launch(&reqs, &mut vs).unwrap();
-                    vs.iter().map(Velocity::speed).sum::<f64>() / n as f64
-                }
-                other => panic!("unexpected check {other:?}"),
-            };
-            // Expected values and their sources are stated in each point.
-            let scale = if point.expected == 0.0 { 1.0 } else { point.expected.abs() };
-            assert!(
-                (got - point.expected).abs() <= point.tolerance * scale,
-                "{}: got {got}, expected {}",
-                point.description,
-                point.expected
-            );
-        }
+        testing::assert_reference_points(&Roles::<PhotonDesorption>::new().source());
     }
 
     #[test]
@@ -888,7 +758,7 @@ mod tests {
     #[test]
     fn power_law_launch_energies_pass_ks_and_median() {
         let (beta, u) = (0.7, 0.052);
-        let mut law = law_with(&[("velocity_law", text("power-law"))]);
+        let mut law = law_with(&[("velocity_law", Value::Text("power-law"))]);
         let n = 100_000;
         let nf = n as f64;
         let vs = launches(&mut law, n);
@@ -897,8 +767,7 @@ mod tests {
             vs.iter().map(|v| 0.5 * NA_MASS * v.speed().powi(2) / ELECTRON_VOLT).collect();
         // CDF = 1 - U^beta((1+beta)E + U)/(E+U)^(1+beta) (Johnson et al. 2002, Icarus 156,
         // 136, from memory; scipy betaprime(2, beta, scale=U)); KS at p = 0.01 with N = 1e5.
-        let d = ks_distance(&mut e, |x| power_law_cdf(x / u, beta));
-        assert!(d < KS_1PC / nf.sqrt(), "KS distance {d}");
+        testing::assert_ks("power-law energy", &mut e, |x| power_law_cdf(x / u, beta));
         // Median 0.21282 eV (tests/python/module_reference_values.py). Standard error of a
         // sample median
         // 1/(2 f(m) sqrt(N)) (asymptotic order statistics, common practice); 4 sigma.
@@ -928,11 +797,10 @@ mod tests {
         assert!((mean - 1238.49).abs() < 3.0 * sd / nf.sqrt(), "mean {mean}");
         // Maxwellian flux CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2) (integral of v^3
         // exp(-v^2/a^2)); KS at p = 0.01.
-        let d = ks_distance(&mut speeds, |v| {
+        testing::assert_ks("Maxwellian flux speed", &mut speeds, |v| {
             let q = v * v / (a * a);
             1.0 - (1.0 + q) * (-q).exp()
         });
-        assert!(d < KS_1PC / nf.sqrt(), "KS distance {d}");
         // Median 1206.97 m/s (scipy.stats.chi(df=4).median()); sd of a sample median
         // 1/(2 f(m) sqrt(N)) with the chi(4) density f(v) = 2 v^3 / a^4 exp(-v^2/a^2); 4 sigma.
         let m = speeds[n as usize / 2];
@@ -941,8 +809,7 @@ mod tests {
         assert!((m - 1206.97).abs() < 4.0 * 0.5 / (f_m * nf.sqrt()), "median {m}");
         // Cosine law: cos theta has CDF c^2 (from f ~ cos theta sin theta, common practice).
         let mut c: Vec<f64> = vs.iter().map(|v| v.up / v.speed()).collect();
-        let d = ks_distance(&mut c, |x| x * x);
-        assert!(d < KS_1PC / nf.sqrt(), "KS distance of cos theta {d}");
+        testing::assert_ks("cos theta", &mut c, |x| x * x);
         // Isotropic azimuth: <east> = 0 (symmetry).
         let mean_east = vs.iter().map(|v| v.east).sum::<f64>() / nf;
         assert!(mean_east.abs() < 3.0 * mean / nf.sqrt(), "mean east {mean_east}");
@@ -950,70 +817,58 @@ mod tests {
 
     #[test]
     fn launch_depends_only_on_the_key() {
-        let mut law = law_with(&[("velocity_law", text("power-law"))]);
-        let reqs: Vec<LaunchRequest> = (0..2)
-            .map(|i| LaunchRequest {
-                key: RngKey { seed: 5, particle: i, event: 0, stream: stream::LAUNCH },
-                mass: NA_MASS,
-                ..LaunchRequest::default()
-            })
-            .collect();
-        let mut ab = [Velocity::ZERO; 2];
-        let mut ba = [Velocity::ZERO; 2];
-        law.launch(&reqs, &mut ab).unwrap();
-        law.launch(&[reqs[1], reqs[0]], &mut ba).unwrap();
-        // Counter-based streams: the batch order does not matter, the keys do.
-        assert_eq!(ab, [ba[1], ba[0]]);
-        assert_ne!(ab[0], ab[1]);
+        let mut law = law_with(&[("velocity_law", Value::Text("power-law"))]);
+        let reqs = testing::draws(LaunchRequest { mass: NA_MASS, ..Default::default() }, 5, 5);
+        // Counter-based streams: the batch's order and cuts do not matter, the keys do.
+        testing::assert_batch_invariant("launch", &reqs, |r, v| law.launch(r, v));
+        assert_ne!(law.launch_one(&reqs[0]).unwrap(), law.launch_one(&reqs[1]).unwrap());
+        let cells = [cell(1.0, 0.3075, 1.0e10), cell(-0.2, 1.0, 1.0e12), cell(0.5, 1.0, 0.0)];
+        testing::assert_batch_invariant("release_rate", &cells, |c, r| law.release_rate(c, r));
     }
 
     #[test]
     fn refuses_nonsense_inputs() {
-        let mut law = law_with(&[("activation_energy", num(0.05))]);
-        let err = one(&mut law, cell(1.0, 1.0, -1.0)).unwrap_err();
+        let law = law_with(&[("activation_energy", Value::Number(0.05))]);
+        let err = law.release_rate_one(&cell(1.0, 1.0, -1.0)).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
         assert!(err.message.contains("cell 21"), "{err}");
-        assert_eq!(one(&mut law, cell(1.5, 1.0, 1.0)).unwrap_err().code, ErrorCode::InvalidInput);
         assert_eq!(
-            one(&mut law, cell(f64::NAN, 1.0, 1.0)).unwrap_err().code,
+            law.release_rate_one(&cell(1.5, 1.0, 1.0)).unwrap_err().code,
             ErrorCode::InvalidInput
         );
-        let err = one(&mut law, cell(0.5, 0.0, 1.0)).unwrap_err();
+        assert_eq!(
+            law.release_rate_one(&cell(f64::NAN, 1.0, 1.0)).unwrap_err().code,
+            ErrorCode::InvalidInput
+        );
+        let err = law.release_rate_one(&cell(0.5, 0.0, 1.0)).unwrap_err();
         assert_eq!(err.code, ErrorCode::OutsideValidity);
         assert!(err.message.contains("0 AU"), "{err}");
         // With E_a > 0 a sunlit cell must have a usable temperature.
         let frozen = CellState { temperature: 0.0, ..cell(0.5, 1.0, 1.0) };
-        assert_eq!(one(&mut law, frozen).unwrap_err().code, ErrorCode::OutsideValidity);
+        assert_eq!(law.release_rate_one(&frozen).unwrap_err().code, ErrorCode::OutsideValidity);
         // Without it the temperature is not read.
-        let mut flat = law_with(&[]);
-        assert_eq!(one(&mut flat, frozen).unwrap(), 4.5e-6 * 0.5);
-        let mut v = [Velocity::ZERO];
+        let flat = law_with(&[]);
+        assert_eq!(flat.release_rate_one(&frozen).unwrap(), 4.5e-6 * 0.5);
         let bad = LaunchRequest { cell: 4, mass: 0.0, ..LaunchRequest::default() };
-        let err = flat.launch(&[bad], &mut v).unwrap_err();
+        let err = flat.launch_one(&bad).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
         assert!(err.message.contains("cell 4"), "{err}");
-        let mut out = [0.0; 2];
-        assert_eq!(
-            flat.release_rate(&[cell(1.0, 1.0, 1.0)], &mut out).unwrap_err().code,
-            ErrorCode::InvalidInput
-        );
     }
 
     #[test]
     fn out_of_range_parameters_are_refused_by_the_schema() {
         // Each refused value names the parameter and the allowed range or options.
         for (name, value, needle) in [
-            ("cross_section", num(-1e-20), "cm^2"),
-            ("photon_flux_1au", num(1e18), "[0, 100000000000000000]"),
-            ("activation_energy", num(2.0), "[0, 1]"),
-            ("reference_temperature", num(5.0), "K"),
-            ("launch_temperature", num(50.0), "[100, 10000]"),
-            ("power_law_exponent", num(0.0), "[0.1, 10]"),
-            ("power_law_energy", num(10.0), "eV"),
-            ("velocity_law", text("weibull"), "power-law"),
+            ("cross_section", Value::Number(-1e-20), "cm^2"),
+            ("photon_flux_1au", Value::Number(1e18), "[0, 100000000000000000]"),
+            ("activation_energy", Value::Number(2.0), "[0, 1]"),
+            ("reference_temperature", Value::Number(5.0), "K"),
+            ("launch_temperature", Value::Number(50.0), "[100, 10000]"),
+            ("power_law_exponent", Value::Number(0.0), "[0.1, 10]"),
+            ("power_law_energy", Value::Number(10.0), "eV"),
+            ("velocity_law", Value::Text("weibull"), "power-law"),
         ] {
-            let map: BTreeMap<String, ParamValue> = [(name.to_string(), value)].into();
-            let err = Params::validate(&map, &schema()).unwrap_err();
+            let err = testing::validate::<PhotonDesorption>(&[(name, value)]).unwrap_err();
             assert_eq!(err.code, ErrorCode::InvalidParameter);
             assert!(err.message.contains(name) && err.message.contains(needle), "{err}");
         }
