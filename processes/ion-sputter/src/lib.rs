@@ -376,66 +376,40 @@ fn usable_factor(x: f64) -> bool {
 }
 
 impl Source for IonSputter {
-    fn release_rate(&mut self, cells: &[CellState], rates: &mut [f64]) -> Result<(), ProcessError> {
-        if cells.len() != rates.len() {
-            return Err(ProcessError::new(
-                ErrorCode::InvalidInput,
-                format!("{} cells but {} rate slots", cells.len(), rates.len()),
-            ));
-        }
-        for (cell, rate) in cells.iter().zip(rates.iter_mut()) {
-            if !usable_factor(cell.solar_wind_flux) || !usable_factor(cell.bulk_abundance) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: solar-wind flux {} ions cm^-2 s^-1 and bulk abundance {}; both \
-                         must be finite and >= 0",
-                        cell.cell, cell.solar_wind_flux, cell.bulk_abundance
-                    ),
-                ));
-            }
-            // Sputtered atoms come out of the lattice: the rate does not read
-            // the adsorbed pool and the host depletes nothing (draws_on = bulk).
-            *rate = self.rate(cell.solar_wind_flux, cell.bulk_abundance);
-        }
-        Ok(())
-    }
-
-    fn launch(
-        &mut self,
-        requests: &[LaunchRequest],
-        velocities: &mut [Velocity],
-    ) -> Result<(), ProcessError> {
-        if requests.len() != velocities.len() {
+    fn release_rate_one(&self, cell: &CellState) -> Result<f64, ProcessError> {
+        if !usable_factor(cell.solar_wind_flux) || !usable_factor(cell.bulk_abundance) {
             return Err(ProcessError::new(
                 ErrorCode::InvalidInput,
                 format!(
-                    "{} launch requests but {} velocity slots",
-                    requests.len(),
-                    velocities.len()
+                    "cell {}: solar-wind flux {} ions cm^-2 s^-1 and bulk abundance {}; both \
+                     must be finite and >= 0",
+                    cell.cell, cell.solar_wind_flux, cell.bulk_abundance
                 ),
             ));
         }
-        for (req, v) in requests.iter().zip(velocities.iter_mut()) {
-            if !(req.mass.is_finite() && req.mass > 0.0) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: atomic mass {} kg; it must be finite and > 0",
-                        req.cell, req.mass
-                    ),
-                ));
-            }
-            // One stream per record: energy (with any rejections) first,
-            // then the direction.
-            let mut rng = Rng::new(req.key);
-            let energy = self
-                .draw_energy(&mut rng, req.mass)
-                .map_err(|m| ProcessError::outside_validity(format!("cell {}: {m}", req.cell)))?;
-            let speed = math::sqrt(2.0 * energy * ELECTRON_VOLT / req.mass);
-            *v = rng.cosine_direction().times(speed);
+        // Sputtered atoms come out of the lattice: the rate does not read the
+        // adsorbed pool and the host depletes nothing (draws_on = bulk).
+        Ok(self.rate(cell.solar_wind_flux, cell.bulk_abundance))
+    }
+
+    fn launch_one(&self, req: &LaunchRequest) -> Result<Velocity, ProcessError> {
+        if !(req.mass.is_finite() && req.mass > 0.0) {
+            return Err(ProcessError::new(
+                ErrorCode::InvalidInput,
+                format!(
+                    "cell {}: atomic mass {} kg; it must be finite and > 0",
+                    req.cell, req.mass
+                ),
+            ));
         }
-        Ok(())
+        // One stream per record: energy (with any rejections) first, then
+        // the direction.
+        let mut rng = Rng::new(req.key);
+        let energy = self
+            .draw_energy(&mut rng, req.mass)
+            .map_err(|m| ProcessError::outside_validity(format!("cell {}: {m}", req.cell)))?;
+        let speed = math::sqrt(2.0 * energy * ELECTRON_VOLT / req.mass);
+        Ok(rng.cosine_direction().times(speed))
     }
 }
 
@@ -443,37 +417,14 @@ exobound_sdk::export_process!(IonSputter: Source);
 
 #[cfg(test)]
 mod tests {
-    use std::collections::BTreeMap;
-
-    use exobound_sdk::{NamedFields, ParamValue, RngKey, stream};
+    use exobound_sdk::testing::{self, Roles};
 
     use super::*;
 
-    /// Kolmogorov-Smirnov critical value at p = 0.01, times sqrt(N)
-    /// (asymptotic Kolmogorov distribution; Press et al., Numerical Recipes §14.3).
-    const KS_1PC: f64 = 1.628;
-
-    /// The parameter schema exactly as the host decodes it from the manifest.
-    fn schema() -> Vec<exobound_sdk::ParamInfo> {
-        IonSputter::MANIFEST.to_info().parameters
-    }
-
-    /// The law built from `given` through the same decode/validate path as `init`.
-    fn law_with(given: &[(&str, ParamValue)]) -> IonSputter {
-        let map: BTreeMap<String, ParamValue> =
-            given.iter().map(|(k, v)| (k.to_string(), v.clone())).collect();
-        let params = Params::decode(&Params::encode(&map), &schema()).expect("valid parameters");
-        IonSputter::new(&params).expect("law builds")
-    }
-
-    /// A number parameter value.
-    fn num(x: f64) -> ParamValue {
-        ParamValue::Number(x)
-    }
-
-    /// A choice parameter value.
-    fn text(s: &str) -> ParamValue {
-        ParamValue::Text(s.to_string())
+    /// The law with the parameters `given` (others at their defaults), built
+    /// as the module's `init` builds it.
+    fn law_with(given: &[(&str, Value)]) -> IonSputter {
+        testing::law(given)
     }
 
     /// Cell 12 with ion flux `flux` (ions cm^-2 s^-1) and bulk abundance `bulk`.
@@ -481,43 +432,18 @@ mod tests {
         CellState { cell: 12, solar_wind_flux: flux, bulk_abundance: bulk, ..CellState::default() }
     }
 
-    /// The release rate of one cell, atoms cm^-2 s^-1, through the batch interface.
-    fn one(law: &mut IonSputter, c: CellState) -> Result<f64, ProcessError> {
-        let mut out = [f64::NAN];
-        law.release_rate(&[c], &mut out).map(|()| out[0])
-    }
-
     /// Launch energies in eV of `n` Na atoms, each with its own key, and the
     /// velocities they came from.
     fn energies(law: &mut IonSputter, n: u64) -> (Vec<f64>, Vec<Velocity>) {
-        let reqs: Vec<LaunchRequest> = (0..n)
-            .map(|i| LaunchRequest {
-                // A correct sampler fails a p = 0.01 KS test for 1% of seeds; seed 31,
-                // tried first, was one of them for the Thompson cutoff (D sqrt(N) = 1.635;
-                // 20 other seeds gave 0.62-1.47, as the Kolmogorov law expects).
-                key: RngKey { seed: 41, particle: i, event: 0, stream: stream::LAUNCH },
-                cell: 6,
-                mass: NA_MASS,
-                ..LaunchRequest::default()
-            })
-            .collect();
+        // A correct sampler fails a p = 0.01 KS test for 1% of seeds; seed 31, tried
+        // first, was one of them for the Thompson cutoff (D sqrt(N) = 1.635; 20 other
+        // seeds gave 0.62-1.47, as the Kolmogorov law expects).
+        let base = LaunchRequest { cell: 6, mass: NA_MASS, ..LaunchRequest::default() };
+        let reqs = testing::draws(base, n, 41);
         let mut vs = vec![Velocity::ZERO; reqs.len()];
         law.launch(&reqs, &mut vs).unwrap();
         let e = vs.iter().map(|v| 0.5 * NA_MASS * v.speed().powi(2) / ELECTRON_VOLT).collect();
         (e, vs)
-    }
-
-    /// Largest distance between the empirical CDF of `xs` and `cdf`.
-    fn ks_distance(xs: &mut [f64], cdf: impl Fn(f64) -> f64) -> f64 {
-        xs.sort_by(f64::total_cmp);
-        let n = xs.len() as f64;
-        xs.iter()
-            .enumerate()
-            .map(|(i, &x)| {
-                let f = cdf(x);
-                (f - i as f64 / n).abs().max((f - (i + 1) as f64 / n).abs())
-            })
-            .fold(0.0, f64::max)
     }
 
     /// Unnormalised CDF of the Sigmund-Thompson law times Thompson's factor,
@@ -551,17 +477,20 @@ mod tests {
 
     #[test]
     fn release_rate_follows_the_law() {
-        let mut law = law_with(&[("sputter_yield", num(0.1)), ("surface_fraction", num(0.01))]);
+        let law = law_with(&[
+            ("sputter_yield", Value::Number(0.1)),
+            ("surface_fraction", Value::Number(0.01)),
+        ]);
         // The law: Phi = Y F_sw c_s b.
-        let r = one(&mut law, cell(1.0e8, 1.0)).unwrap();
+        let r = law.release_rate_one(&cell(1.0e8, 1.0)).unwrap();
         assert!((r - 1.0e5).abs() <= 1e-12 * 1.0e5, "{r}");
-        let r2 = one(&mut law, cell(1.0e8, 2.0)).unwrap();
+        let r2 = law.release_rate_one(&cell(1.0e8, 2.0)).unwrap();
         assert!((r2 / r - 2.0).abs() < 1e-15);
         // Shielded (the host sets F_sw = 0): nothing is sputtered.
-        assert_eq!(one(&mut law, cell(0.0, 1.0)).unwrap(), 0.0);
+        assert_eq!(law.release_rate_one(&cell(0.0, 1.0)).unwrap(), 0.0);
         // The adsorbed pool is not read (bulk source).
         let rich = CellState { adsorbed: 1.0e15, ..cell(1.0e8, 1.0) };
-        assert_eq!(one(&mut law, rich).unwrap(), r);
+        assert_eq!(law.release_rate_one(&rich).unwrap(), r);
     }
 
     #[test]
@@ -580,15 +509,14 @@ mod tests {
     #[test]
     fn uncut_energies_pass_ks_median_and_mode() {
         let u = 0.27;
-        let mut law = law_with(&[("energy_cutoff", text("none"))]);
+        let mut law = law_with(&[("energy_cutoff", Value::Text("none"))]);
         let n = 100_000;
         let nf = n as f64;
         let (mut e, vs) = energies(&mut law, n);
         assert!(vs.iter().all(|v| v.up > 0.0), "every launch leaves the surface");
         // CDF = E^2/(E+U)^2 (Thompson 1968, Phil. Mag. 18, 377; scipy betaprime(2, 1, scale=U));
         // KS at p = 0.01.
-        let d = ks_distance(&mut e, |x| (x / (x + u)).powi(2));
-        assert!(d < KS_1PC / nf.sqrt(), "KS distance {d}");
+        testing::assert_ks("Sigmund-Thompson energy", &mut e, |x| (x / (x + u)).powi(2));
         // Median (1 + sqrt 2) U = 0.65184 eV (tests/python/sampler_reference_values.py,
         // scipy betaprime(2, 1).median()). Standard error of a sample
         // median 1/(2 f(m) sqrt(N)) (asymptotic order statistics, common practice); 4 sigma.
@@ -602,14 +530,14 @@ mod tests {
         assert!(frac(u / 2.0) > frac(0.3 * u) && frac(u / 2.0) > frac(0.7 * u));
         // Cosine law: cos theta has CDF c^2 (from f ~ cos theta sin theta, common practice).
         let mut c: Vec<f64> = vs.iter().map(|v| v.up / v.speed()).collect();
-        let d = ks_distance(&mut c, |x| x * x);
-        assert!(d < KS_1PC / nf.sqrt(), "KS distance of cos theta {d}");
+        testing::assert_ks("cos theta", &mut c, |x| x * x);
     }
 
     #[test]
     fn hard_cutoff_mean_matches_the_quadrature() {
         let u = 0.27;
-        let mut law = law_with(&[("energy_cutoff", text("hard")), ("max_energy", num(2.7))]);
+        let mut law =
+            law_with(&[("energy_cutoff", Value::Text("hard")), ("max_energy", Value::Number(2.7))]);
         let n = 100_000;
         let nf = n as f64;
         let (mut e, _) = energies(&mut law, n);
@@ -622,8 +550,7 @@ mod tests {
         assert!((mean - 0.70278).abs() < 3.0 * sd / nf.sqrt(), "mean {mean}");
         // Truncated CDF (E^2/(E+U)^2) / CDF(2.7) (Thompson 1968); KS at p = 0.01.
         let top = (2.7f64 / (2.7 + u)).powi(2);
-        let d = ks_distance(&mut e, |x| (x / (x + u)).powi(2) / top);
-        assert!(d < KS_1PC / nf.sqrt(), "KS distance {d}");
+        testing::assert_ks("hard-cutoff energy", &mut e, |x| (x / (x + u)).powi(2) / top);
     }
 
     #[test]
@@ -667,8 +594,9 @@ mod tests {
         // Closed-form CDF of the cut distribution (derived in `thompson_cdf_unnormalised`,
         // checked by quadrature above); KS at p = 0.01.
         let z = thompson_cdf_unnormalised(l - u, u, l);
-        let d = ks_distance(&mut e, |x| thompson_cdf_unnormalised(x, u, l) / z);
-        assert!(d < KS_1PC / nf.sqrt(), "KS distance {d}");
+        testing::assert_ks("Thompson-cutoff energy", &mut e, |x| {
+            thompson_cdf_unnormalised(x, u, l) / z
+        });
         // Median of the cut distribution 0.597438 eV (mpmath findroot on the quadrature,
         // tests/python/module_reference_values.py); the cutoff pulls it below the uncut
         // (1 + sqrt 2) U = 0.65184 eV. 4 sigma.
@@ -687,95 +615,41 @@ mod tests {
     /// The manifest's promises, run the way the host's `module check` does.
     #[test]
     fn manifest_reference_points_hold() {
-        for point in IonSputter::MANIFEST.reference_points {
-            let given: Vec<(&str, ParamValue)> = point
-                .parameters
-                .iter()
-                .map(|(k, v)| match v {
-                    Value::Number(x) => (*k, num(*x)),
-                    Value::Text(s) => (*k, text(s)),
-                })
-                .collect();
-            let mut law = law_with(&given);
-            let got = match point.check {
-                Check::ReleaseRate => {
-                    let mut c = CellState::default();
-                    for (k, v) in point.input {
-                        assert!(c.set_field(k, *v), "unknown field {k}");
-                    }
-                    one(&mut law, c).unwrap()
-                }
-                Check::MeanLaunchSpeed => {
-                    let mut r = LaunchRequest::default();
-                    for (k, v) in point.input {
-                        assert!(r.set_field(k, *v), "unknown field {k}");
-                    }
-                    let n = 100_000;
-                    let reqs: Vec<LaunchRequest> = (0..n)
-                        .map(|i| LaunchRequest {
-                            // The host's reference seed (host/src/runtime/reference.rs), so
-                            // this is the very average `module check` computes.
-                            key: RngKey {
-                                seed: 0x00E0_B0D5,
-                                particle: i,
-                                event: 0,
-                                stream: stream::LAUNCH,
-                            },
-                            ..r
-                        })
-                        .collect();
-                    let mut vs = vec![Velocity::ZERO; reqs.len()];
-                    law.launch(&reqs, &mut vs).unwrap();
-                    vs.iter().map(Velocity::speed).sum::<f64>() / n as f64
-                }
-                other => panic!("unexpected check {other:?}"),
-            };
-            // Expected values and their sources are stated in each point.
-            let scale = if point.expected == 0.0 { 1.0 } else { point.expected.abs() };
-            assert!(
-                (got - point.expected).abs() <= point.tolerance * scale,
-                "{}: got {got}, expected {}",
-                point.description,
-                point.expected
-            );
-        }
+        testing::assert_reference_points(&Roles::<IonSputter>::new().source());
     }
 
     #[test]
     fn launch_depends_only_on_the_key() {
         let mut law = law_with(&[]);
-        let reqs: Vec<LaunchRequest> = (0..2)
-            .map(|i| LaunchRequest {
-                key: RngKey { seed: 8, particle: i, event: 0, stream: stream::LAUNCH },
-                mass: NA_MASS,
-                ..LaunchRequest::default()
-            })
-            .collect();
-        let mut ab = [Velocity::ZERO; 2];
-        let mut ba = [Velocity::ZERO; 2];
-        law.launch(&reqs, &mut ab).unwrap();
-        law.launch(&[reqs[1], reqs[0]], &mut ba).unwrap();
-        // Counter-based streams, rejection included: batch order does not matter.
-        assert_eq!(ab, [ba[1], ba[0]]);
-        assert_ne!(ab[0], ab[1]);
+        let reqs = testing::draws(LaunchRequest { mass: NA_MASS, ..Default::default() }, 6, 8);
+        // Counter-based streams, rejection included: the batch's order and cuts do not matter.
+        testing::assert_batch_invariant("launch", &reqs, |r, v| law.launch(r, v));
+        assert_ne!(law.launch_one(&reqs[0]).unwrap(), law.launch_one(&reqs[1]).unwrap());
+        let cells = [cell(1.0e8, 1.0), cell(0.0, 1.0), cell(3.0e8, 0.5)];
+        testing::assert_batch_invariant("release_rate", &cells, |c, r| law.release_rate(c, r));
     }
 
     #[test]
     fn refuses_nonsense_inputs() {
-        let mut law = law_with(&[]);
-        let err = one(&mut law, cell(-1.0, 1.0)).unwrap_err();
+        let law = law_with(&[]);
+        let err = law.release_rate_one(&cell(-1.0, 1.0)).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
         assert!(err.message.contains("cell 12"), "{err}");
-        assert_eq!(one(&mut law, cell(1e8, f64::NAN)).unwrap_err().code, ErrorCode::InvalidInput);
-        let mut v = [Velocity::ZERO];
+        assert_eq!(
+            law.release_rate_one(&cell(1e8, f64::NAN)).unwrap_err().code,
+            ErrorCode::InvalidInput
+        );
         let bad = LaunchRequest { cell: 2, mass: -1.0, ..LaunchRequest::default() };
-        assert_eq!(law.launch(&[bad], &mut v).unwrap_err().code, ErrorCode::InvalidInput);
+        assert_eq!(law.launch_one(&bad).unwrap_err().code, ErrorCode::InvalidInput);
         // 10 eV protons on a heavy atom with U = 5 eV: Lambda E_i = 0.4 eV < U, so the
         // Thompson cutoff refuses (elementary kinematics).
-        let mut weak = law_with(&[("ion_energy", num(10.0)), ("binding_energy", num(5.0))]);
+        let weak = law_with(&[
+            ("ion_energy", Value::Number(10.0)),
+            ("binding_energy", Value::Number(5.0)),
+        ]);
         let heavy =
             LaunchRequest { cell: 2, mass: 100.0 * ATOMIC_MASS, ..LaunchRequest::default() };
-        let err = weak.launch(&[heavy], &mut v).unwrap_err();
+        let err = weak.launch_one(&heavy).unwrap_err();
         assert_eq!(err.code, ErrorCode::OutsideValidity);
         assert!(err.message.contains("cell 2") && err.message.contains("binding energy"), "{err}");
     }
@@ -783,16 +657,15 @@ mod tests {
     #[test]
     fn out_of_range_parameters_are_refused_by_the_schema() {
         for (name, value, needle) in [
-            ("sputter_yield", num(-0.1), "atoms/ion"),
-            ("surface_fraction", num(1.5), "[0, 1]"),
-            ("binding_energy", num(0.0), "eV"),
-            ("max_energy", num(0.0), "[0.01, 100000]"),
-            ("ion_energy", num(1.0), "eV"),
-            ("ion_mass", num(0.5), "u"),
-            ("energy_cutoff", text("soft"), "thompson"),
+            ("sputter_yield", Value::Number(-0.1), "atoms/ion"),
+            ("surface_fraction", Value::Number(1.5), "[0, 1]"),
+            ("binding_energy", Value::Number(0.0), "eV"),
+            ("max_energy", Value::Number(0.0), "[0.01, 100000]"),
+            ("ion_energy", Value::Number(1.0), "eV"),
+            ("ion_mass", Value::Number(0.5), "u"),
+            ("energy_cutoff", Value::Text("soft"), "thompson"),
         ] {
-            let map: BTreeMap<String, ParamValue> = [(name.to_string(), value)].into();
-            let err = Params::validate(&map, &schema()).unwrap_err();
+            let err = testing::validate::<IonSputter>(&[(name, value)]).unwrap_err();
             assert_eq!(err.code, ErrorCode::InvalidParameter);
             assert!(err.message.contains(name) && err.message.contains(needle), "{err}");
         }
