@@ -11,7 +11,8 @@ use std::path::Path;
 use std::process::{Command, Output};
 
 use exobound::text::printable;
-use exobound_sdk::{ManifestInfo, ParamInfo, ParamValue, ReferenceInfo};
+use exobound_sdk::ParamValue;
+use exobound_sdk::wire::{ManifestInfo, ParamInfo, ReferenceInfo};
 
 use crate::support::{TempDir, exobound_binary, particles, runtime, wat_text_with_message};
 

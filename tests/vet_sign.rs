@@ -14,7 +14,7 @@ use exobound::share::lock::{self, LockAction};
 use exobound::share::policy::Policy;
 use exobound::share::{keys, signature, trace};
 use exobound::vet::{self, Status, VetOptions, VetReport};
-use exobound_sdk::{ManifestInfo, ReferenceInfo};
+use exobound_sdk::wire::{ManifestInfo, ReferenceInfo};
 
 use crate::support::*;
 
@@ -160,7 +160,7 @@ fn vet_names_the_check_each_bad_fixture_fails() {
           (br $l)))";
     let mut bad_units = manifest("bad-units", &["loss"], vec![point("loss-rate", &[], 1e-6)]);
     bad_units.law_source = String::new();
-    bad_units.parameters.push(exobound_sdk::ParamInfo {
+    bad_units.parameters.push(exobound_sdk::wire::ParamInfo {
         name: "scale".into(),
         unit: "bananas".into(),
         description: "a parameter with a unit nobody can read".into(),

@@ -57,13 +57,13 @@ pub use records::{
 };
 // Wire-only types, kept reachable from the root (hidden from the
 // documentation) for code written before they moved to `wire`.
-#[doc(hidden)]
-pub use wire::{ManifestInfo, NamedFields, ParamInfo, ReferenceInfo};
 pub use rng::Rng;
 pub use roles::{
     ErrorCode, Loss, Process, ProcessError, ReservoirProcess, Source, SurfaceInteraction,
 };
 pub use sample::Direction;
+#[doc(hidden)]
+pub use wire::{ManifestInfo, NamedFields, ParamInfo, ReferenceInfo};
 
 /// ABI version implemented by this SDK, as stored in the `exobound:abi`
 /// custom section: `major.minor.patch` in ASCII.

@@ -246,7 +246,9 @@ fn call_one<P, I, O: Copy>(
 pub fn run_reference_points<P: Process>(roles: &Roles<P>) -> Result<Vec<ReferenceOutcome>, String> {
     let mut results = Vec::new();
     for point in P::MANIFEST.reference_points {
-        let fail = |e: String| format!("{}: reference point `{}`: {e}", P::MANIFEST.name, point.description);
+        let fail = |e: String| {
+            format!("{}: reference point `{}`: {e}", P::MANIFEST.name, point.description)
+        };
         let mut law = try_law::<P>(point.parameters).map_err(|e| fail(e.to_string()))?;
         let got = match point.check {
             Check::ReleaseRate => {
@@ -263,20 +265,24 @@ pub fn run_reference_points<P: Process>(roles: &Roles<P>) -> Result<Vec<Referenc
             }
             Check::MeanLaunchSpeed => {
                 let base: LaunchRequest = record(point.input, point.description).map_err(fail)?;
-                let launch = roles.launch.ok_or_else(|| fail("this check needs `Roles::source()`".into()))?;
+                let launch = roles
+                    .launch
+                    .ok_or_else(|| fail("this check needs `Roles::source()`".into()))?;
                 let reqs = draws(base, REFERENCE_DRAWS, REFERENCE_SEED);
                 let mut v = vec![Velocity::ZERO; reqs.len()];
-                launch(&mut law, &reqs, &mut v).map_err(|e| fail(format!("the law refused: {e}")))?;
+                launch(&mut law, &reqs, &mut v)
+                    .map_err(|e| fail(format!("the law refused: {e}")))?;
                 v.iter().map(Velocity::speed).sum::<f64>() / v.len() as f64
             }
             Check::StickFraction => {
                 let base: Impact = record(point.input, point.description).map_err(fail)?;
-                let land = roles
-                    .land
-                    .ok_or_else(|| fail("this check needs `Roles::surface_interaction()`".into()))?;
+                let land = roles.land.ok_or_else(|| {
+                    fail("this check needs `Roles::surface_interaction()`".into())
+                })?;
                 let hits = draws(base, REFERENCE_DRAWS, REFERENCE_SEED);
                 let mut out = vec![Outcome::default(); hits.len()];
-                land(&mut law, &hits, &mut out).map_err(|e| fail(format!("the law refused: {e}")))?;
+                land(&mut law, &hits, &mut out)
+                    .map_err(|e| fail(format!("the law refused: {e}")))?;
                 let stuck = out.iter().filter(|o| o.kind == OutcomeKind::Stick as u32).count();
                 stuck as f64 / out.len() as f64
             }
@@ -358,7 +364,11 @@ pub fn assert_ks(what: &str, xs: &mut [f64], cdf: impl Fn(f64) -> f64) {
     assert!(xs.len() >= 100, "{what}: {} draws are too few for a KS test", xs.len());
     let d = ks_distance(xs, cdf);
     let critical = KS_CRITICAL_1PC / (xs.len() as f64).sqrt();
-    assert!(d < critical, "{what}: KS distance {d:.5} >= {critical:.5} (p < 0.01, N = {})", xs.len());
+    assert!(
+        d < critical,
+        "{what}: KS distance {d:.5} >= {critical:.5} (p < 0.01, N = {})",
+        xs.len()
+    );
 }
 
 // ---------------------------------------------------------------------------
@@ -390,7 +400,8 @@ pub fn assert_batch_invariant<I: Copy, O: Record + Debug>(
     let reversed_input: Vec<I> = records.iter().rev().copied().collect();
     let mut reversed = run(&reversed_input);
     reversed.reverse();
-    for (how, other) in [("split in two", &halves), ("one at a time", &singles), ("reversed", &reversed)]
+    for (how, other) in
+        [("split in two", &halves), ("one at a time", &singles), ("reversed", &reversed)]
     {
         for (i, (a, b)) in whole.iter().zip(other.iter()).enumerate() {
             assert!(
@@ -421,6 +432,104 @@ mod tests {
     fn ks_test_rejects_a_shifted_sample() {
         let mut xs: Vec<f64> = (0..1000).map(|i| (i as f64 + 0.5) / 1000.0 * 0.9).collect();
         assert_ks("shifted", &mut xs, |x| x);
+    }
+
+    use crate::manifest::{Input, Manifest, ReferencePoint, Role};
+    use crate::roles::ErrorCode;
+
+    /// A launch law that is wrong on purpose: its speed is the record's
+    /// place in the batch, which the host's batching would change.
+    struct PositionDependent;
+
+    /// A loss that implements neither `loss_rate` nor `loss_rate_one`.
+    struct Unimplemented;
+
+    const POINT: ReferencePoint = ReferencePoint {
+        description: "one record",
+        check: Check::LossRate,
+        parameters: &[],
+        input: &[("helio_distance", 1.0)],
+        expected: 1.0,
+        tolerance: 0.0,
+        source: "the test",
+    };
+
+    const MANIFEST: Manifest = Manifest {
+        name: "sdk-test",
+        version: "0.0.0",
+        description: "a law for the SDK's own tests",
+        roles: &[Role::Source],
+        authors: &[],
+        institution: "",
+        licence: "Apache-2.0",
+        law_source: "none",
+        draws_on: None,
+        ledger_label: "",
+        inputs: &[Input::Mass],
+        parameters: &[],
+        reference_points: &[POINT],
+    };
+
+    impl Process for PositionDependent {
+        const MANIFEST: Manifest = MANIFEST;
+        fn new(_: &Params) -> Result<Self, ProcessError> {
+            Ok(PositionDependent)
+        }
+    }
+
+    impl Source for PositionDependent {
+        fn launch(
+            &mut self,
+            requests: &[LaunchRequest],
+            velocities: &mut [Velocity],
+        ) -> Result<(), ProcessError> {
+            for (i, (_, v)) in requests.iter().zip(velocities.iter_mut()).enumerate() {
+                *v = Velocity { east: 0.0, north: 0.0, up: 1.0 + i as f64 };
+            }
+            Ok(())
+        }
+    }
+
+    impl Process for Unimplemented {
+        const MANIFEST: Manifest = Manifest { roles: &[Role::Loss], ..MANIFEST };
+        fn new(_: &Params) -> Result<Self, ProcessError> {
+            Ok(Unimplemented)
+        }
+    }
+
+    impl Loss for Unimplemented {}
+
+    #[test]
+    #[should_panic(expected = "record 2 gives")]
+    fn batch_check_catches_a_position_dependent_law() {
+        let mut law = law::<PositionDependent>(&[]);
+        let reqs = draws(LaunchRequest::default(), 4, 1);
+        assert_batch_invariant("launch", &reqs, |r, v| law.launch(r, v));
+    }
+
+    #[test]
+    fn a_role_implemented_in_neither_form_is_refused_by_name() {
+        let mut law = law::<Unimplemented>(&[]);
+        let mut out = [0.0];
+        let err = law.loss_rate(&[InFlight::default()], &mut out).unwrap_err();
+        assert_eq!(err.code, ErrorCode::Unsupported);
+        assert!(err.message.contains("loss_rate_one") && err.message.contains("`Loss::loss_rate`"));
+        // The reference runner reports the refusal with the point's name.
+        let err = run_reference_points(&Roles::<Unimplemented>::new().loss()).unwrap_err();
+        assert!(err.contains("one record") && err.contains("refused"), "{err}");
+        // ... and a role the test forgot to list, with the builder call that adds it.
+        let err = run_reference_points(&Roles::<Unimplemented>::new()).unwrap_err();
+        assert!(err.contains("Roles::loss()"), "{err}");
+    }
+
+    #[test]
+    fn the_default_batch_loop_refuses_mismatched_slices() {
+        let err = crate::roles::each_record(&[1.0, 2.0], &mut [0.0], |x| Ok(*x)).unwrap_err();
+        assert_eq!(err.code, ErrorCode::InvalidInput);
+        assert!(err.message.contains("2 input records but 1 output slots"), "{err}");
+        let mut out = [0.0; 2];
+        crate::roles::each_record(&[1.0, 2.0], &mut out, |x| Ok(2.0 * x)).unwrap();
+        assert_eq!(out, [2.0, 4.0]);
     }
 
     #[test]

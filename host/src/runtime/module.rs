@@ -10,7 +10,8 @@
 
 use std::path::Path;
 
-use exobound_sdk::{ABI_SECTION, MANIFEST_SECTION, ManifestInfo, Role};
+use exobound_sdk::wire::ManifestInfo;
+use exobound_sdk::{ABI_SECTION, MANIFEST_SECTION, Role};
 use sha2::{Digest, Sha256};
 use wasmparser::{ExternalKind, Parser, Payload, TypeRef};
 

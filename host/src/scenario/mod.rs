@@ -22,7 +22,7 @@ use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
-use exobound_sdk::manifest::ParamKindInfo;
+use exobound_sdk::wire::ParamKindInfo;
 use exobound_sdk::{ParamValue, Role};
 
 pub use file::ScenarioFile;
@@ -616,7 +616,7 @@ impl Validator<'_> {
         &self,
         label: &str,
         given: &toml::Table,
-        schema: &[exobound_sdk::ParamInfo],
+        schema: &[exobound_sdk::wire::ParamInfo],
     ) -> Result<BTreeMap<String, ParamValue>, ScenarioError> {
         let mut out = BTreeMap::new();
         for (name, value) in given {

@@ -9,7 +9,8 @@
 //! role the module declares, each with its own source, and text that prints
 //! as it reads (no terminal control or invisible formatting characters).
 
-use exobound_sdk::{ManifestInfo, ParamValue, Role};
+use exobound_sdk::wire::ManifestInfo;
+use exobound_sdk::{ParamValue, Role};
 
 use super::{Check, Status};
 use crate::runtime::HostError;
@@ -245,7 +246,8 @@ mod tests {
     #[test]
     fn hidden_characters_anywhere_in_the_manifest_fail_the_check_naming_the_field() {
         use super::{Status, completeness};
-        use exobound_sdk::{ManifestInfo, ParamInfo, ParamValue, ReferenceInfo};
+        use exobound_sdk::ParamValue;
+        use exobound_sdk::wire::{ManifestInfo, ParamInfo, ReferenceInfo};
         let clean = ManifestInfo {
             name: "clean".into(),
             version: "1.0.0".into(),

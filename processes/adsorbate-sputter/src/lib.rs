@@ -230,10 +230,14 @@ mod tests {
         let err = law.exchange_one(&cell(-1.0, 1.0e10)).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
         assert!(err.message.contains("cell 30"), "{err}");
-        assert_eq!(law.exchange_one(&cell(1e8, f64::NAN)).unwrap_err().code, ErrorCode::InvalidInput);
+        assert_eq!(
+            law.exchange_one(&cell(1e8, f64::NAN)).unwrap_err().code,
+            ErrorCode::InvalidInput
+        );
         assert_eq!(law.exchange_one(&cell(1e8, -5.0)).unwrap_err().code, ErrorCode::InvalidInput);
-        let err = testing::validate::<AdsorbateSputter>(&[("cross_section", Value::Number(1.0e-12))])
-            .unwrap_err();
+        let err =
+            testing::validate::<AdsorbateSputter>(&[("cross_section", Value::Number(1.0e-12))])
+                .unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidParameter);
         assert!(err.message.contains("cross_section") && err.message.contains("cm^2"), "{err}");
     }
