@@ -55,13 +55,13 @@ pub use records::{
     CellState, Impact, InFlight, LaunchRequest, Outcome, OutcomeKind, RngKey, Velocity, flags,
     stream,
 };
-// Wire-only types, kept reachable from the root (hidden from the
-// documentation) for code written before they moved to `wire`.
 pub use rng::Rng;
 pub use roles::{
     ErrorCode, Loss, Process, ProcessError, ReservoirProcess, Source, SurfaceInteraction,
 };
 pub use sample::Direction;
+// Wire-only types, kept reachable from the root (hidden from the
+// documentation) for code written before they moved to `wire`.
 #[doc(hidden)]
 pub use wire::{ManifestInfo, NamedFields, ParamInfo, ReferenceInfo};
 
