@@ -31,6 +31,7 @@
 //! this crate, never the reverse.
 
 pub mod constants;
+pub mod launch_law;
 pub mod manifest;
 pub mod math;
 pub mod params;
@@ -47,6 +48,7 @@ pub mod testing;
 #[doc(hidden)]
 pub mod abi;
 
+pub use launch_law::{DirectionLaw, EnergyCutoff, LaunchLaw, Quantity, SpeedLaw};
 pub use manifest::{
     Check, Input, Manifest, Origin, ParamKind, ParamSpec, Pool, ReferencePoint, Role, Value,
 };
@@ -103,12 +105,18 @@ macro_rules! export_process {
         #[cfg(target_arch = "wasm32")]
         const _: () = {
             static EXOBOUND_STATE: $crate::abi::Slot<$law> = $crate::abi::Slot::new();
-            const MANIFEST_LEN: usize =
-                $crate::manifest::encoded_len(&<$law as $crate::Process>::MANIFEST);
+            const LAUNCH_LAWS: &[$crate::LaunchLaw] = $crate::__launch_laws!($law; $($role),+);
+            const MANIFEST_LEN: usize = $crate::manifest::encoded_len_with(
+                &<$law as $crate::Process>::MANIFEST,
+                LAUNCH_LAWS,
+            );
             #[unsafe(link_section = "exobound:manifest")]
             #[used]
-            static EXOBOUND_MANIFEST: [u8; MANIFEST_LEN] =
-                $crate::manifest::encode::<MANIFEST_LEN>(&<$law as $crate::Process>::MANIFEST);
+            static EXOBOUND_MANIFEST: [u8; MANIFEST_LEN] = $crate::manifest::encode_with::<
+                MANIFEST_LEN,
+            >(
+                &<$law as $crate::Process>::MANIFEST, LAUNCH_LAWS
+            );
             #[unsafe(link_section = "exobound:abi")]
             #[used]
             static EXOBOUND_ABI: [u8; 5] = $crate::ABI_VERSION_BYTES;
@@ -137,6 +145,21 @@ macro_rules! export_process {
             "export_process! takes a type and its roles, e.g. `export_process!(MyLaw: Source)` \
              or `export_process!(MyLaw: Loss, SurfaceInteraction)`"
         );
+    };
+}
+
+/// The `LAUNCH_LAWS` of a law whose roles include `Source`, else none.
+#[doc(hidden)]
+#[macro_export]
+macro_rules! __launch_laws {
+    ($law:ty; Source $(, $rest:ident)*) => {
+        <$law as $crate::Source>::LAUNCH_LAWS
+    };
+    ($law:ty; $other:ident $(, $rest:ident)*) => {
+        $crate::__launch_laws!($law; $($rest),*)
+    };
+    ($law:ty;) => {
+        &[]
     };
 }
 

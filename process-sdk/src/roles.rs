@@ -23,6 +23,7 @@
 //! Traps, exhausted budgets and broken pointers are the host's business and
 //! never appear here.
 
+use crate::launch_law::LaunchLaw;
 use crate::manifest::Manifest;
 use crate::params::Params;
 use crate::records::{CellState, Impact, InFlight, LaunchRequest, Outcome, Velocity};
@@ -157,6 +158,12 @@ pub trait Process: Sized + 'static {
 /// adsorbed pool (the host caps the release by the pool and subtracts it)
 /// or out of the bulk regolith (the host does not deplete anything).
 pub trait Source: Process {
+    /// The laws the launches follow, declared for `exobound module vet` to
+    /// test with a Kolmogorov-Smirnov test (see [`crate::launch_law`]); one
+    /// per option of a choice parameter that selects the law. Empty (the
+    /// default): nothing declared, and vet says so.
+    const LAUNCH_LAWS: &'static [LaunchLaw] = &[];
+
     /// Release rate of one cell, atoms cm^-2 s^-1.
     fn release_rate_one(&self, cell: &CellState) -> Result<f64, ProcessError> {
         let _ = cell;

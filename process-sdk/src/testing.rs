@@ -371,6 +371,44 @@ pub fn assert_ks(what: &str, xs: &mut [f64], cdf: impl Fn(f64) -> f64) {
     );
 }
 
+/// Fails unless the launches of `P` follow every law it declares in
+/// `Source::LAUNCH_LAWS`, as `exobound module vet` tests them: for each law,
+/// the law's `when` choices (other parameters at their defaults), `n` draws
+/// from the launch request `base` keyed from `seed`, and one-sample KS tests
+/// at p = 0.01 of the speeds (energies, for the energy laws) and of the
+/// cosines of the angle from the vertical against the declared distribution
+/// functions (see [`crate::launch_law`]). Fails too when nothing is declared.
+pub fn assert_launch_laws<P: Source>(base: LaunchRequest, n: u64, seed: u64) {
+    let name = P::MANIFEST.name;
+    assert!(!P::LAUNCH_LAWS.is_empty(), "{name} declares no launch law");
+    for declared in P::LAUNCH_LAWS {
+        let info = declared.to_info();
+        let given: Vec<(&str, Value)> =
+            declared.when.iter().map(|(k, v)| (*k, Value::Text(v))).collect();
+        let params: BTreeMap<String, ParamValue> = validate::<P>(&given)
+            .unwrap_or_else(|e| panic!("{name}: `when` of {}: {e}", info.label()))
+            .iter()
+            .map(|(k, v)| (k.to_string(), v.clone()))
+            .collect();
+        let resolved = info
+            .resolve(&params, &base)
+            .unwrap_or_else(|e| panic!("{name}: {}: {e}", info.label()));
+        let mut law = law::<P>(&given);
+        let reqs = draws(base, n, seed);
+        let mut v = vec![Velocity::ZERO; reqs.len()];
+        law.launch(&reqs, &mut v)
+            .unwrap_or_else(|e| panic!("{name}: {}: the law refused: {e}", info.label()));
+        let mut speeds: Vec<f64> = v.iter().map(Velocity::speed).collect();
+        let mut cosines: Vec<f64> = v.iter().map(|u| u.up / u.speed()).collect();
+        assert_ks(&format!("{name}: {}: speed", info.label()), &mut speeds, |x| {
+            resolved.speed_cdf(x)
+        });
+        assert_ks(&format!("{name}: {}: direction", info.label()), &mut cosines, |c| {
+            resolved.direction.cdf(c)
+        });
+    }
+}
+
 // ---------------------------------------------------------------------------
 // Batching
 // ---------------------------------------------------------------------------

@@ -9,8 +9,12 @@
 //! only what a law needs (see the crate documentation). The host imports
 //! them from here.
 
+pub use crate::launch_law::{
+    LaunchLawInfo, QuantityInfo, Resolved, Speed, SpeedLawInfo, request_field,
+};
 pub use crate::manifest::{
-    ManifestInfo, ParamInfo, ParamKindInfo, ReferenceInfo, encode, encoded_len,
+    ManifestInfo, ParamInfo, ParamKindInfo, ReferenceInfo, encode, encode_with, encoded_len,
+    encoded_len_with,
 };
 pub use crate::records::{NamedFields, Record, as_bytes, as_bytes_mut};
 

@@ -60,8 +60,9 @@
 //! showers, which the host can carry through `meteoroid_factor`.
 
 use exobound_sdk::{
-    CellState, Check, ErrorCode, Input, LaunchRequest, Manifest, Origin, ParamKind, ParamSpec,
-    Params, Pool, Process, ProcessError, ReferencePoint, Rng, Role, Source, Value, Velocity, math,
+    CellState, Check, DirectionLaw, ErrorCode, Input, LaunchLaw, LaunchRequest, Manifest, Origin,
+    ParamKind, ParamSpec, Params, Pool, Process, ProcessError, Quantity, ReferencePoint, Rng, Role,
+    Source, SpeedLaw, Value, Velocity, math,
 };
 
 /// Mass of one Na atom, kg (22.98976928 u, the IUPAC standard atomic weight;
@@ -435,6 +436,14 @@ fn usable_factor(x: f64) -> bool {
 }
 
 impl Source for ImpactVapor {
+    /// Maxwellian-flux speeds at the vapour temperature, cosine-law
+    /// directions (see `launch_one`).
+    const LAUNCH_LAWS: &'static [LaunchLaw] = &[LaunchLaw {
+        when: &[],
+        speed: SpeedLaw::MaxwellianFlux { temperature: Quantity::Param("vapor_temperature") },
+        direction: DirectionLaw::Cosine,
+    }];
+
     fn release_rate_one(&self, cell: &CellState) -> Result<f64, ProcessError> {
         if !usable_factor(cell.bulk_abundance) || !usable_factor(cell.meteoroid_factor) {
             return Err(ProcessError::new(
@@ -686,6 +695,16 @@ mod tests {
     #[test]
     fn manifest_reference_points_hold() {
         testing::assert_reference_points(&Roles::<ImpactVapor>::new().source());
+    }
+
+    /// The launches against the laws declared in `LAUNCH_LAWS`, as `vet`
+    /// tests them (one-sample KS tests at p = 0.01 of speeds or energies and
+    /// of directions; the distribution functions and their sources are in
+    /// `exobound_sdk::launch_law`).
+    #[test]
+    fn launches_follow_the_declared_laws() {
+        let base = LaunchRequest { mass: NA_MASS, ..LaunchRequest::default() };
+        testing::assert_launch_laws::<ImpactVapor>(base, 20_000, 3);
     }
 
     #[test]

@@ -61,8 +61,9 @@
 
 use exobound_sdk::constants::{ATOMIC_MASS, ELECTRON_VOLT};
 use exobound_sdk::{
-    CellState, Check, ErrorCode, Input, LaunchRequest, Manifest, Origin, ParamKind, ParamSpec,
-    Params, Pool, Process, ProcessError, ReferencePoint, Rng, Role, Source, Value, Velocity, math,
+    CellState, Check, DirectionLaw, EnergyCutoff, ErrorCode, Input, LaunchLaw, LaunchRequest,
+    Manifest, Origin, ParamKind, ParamSpec, Params, Pool, Process, ProcessError, Quantity,
+    ReferencePoint, Rng, Role, Source, SpeedLaw, Value, Velocity, math,
 };
 
 /// Mass of one Na atom, kg (22.98976928 u, the IUPAC standard atomic weight;
@@ -376,6 +377,38 @@ fn usable_factor(x: f64) -> bool {
 }
 
 impl Source for IonSputter {
+    /// One Sigmund-Thompson law per `energy_cutoff` option, all with
+    /// cosine-law directions (see `launch_one`).
+    const LAUNCH_LAWS: &'static [LaunchLaw] = &[
+        LaunchLaw {
+            when: &[("energy_cutoff", "none")],
+            speed: SpeedLaw::SigmundThompson {
+                binding_energy: Quantity::Param("binding_energy"),
+                cutoff: EnergyCutoff::None,
+            },
+            direction: DirectionLaw::Cosine,
+        },
+        LaunchLaw {
+            when: &[("energy_cutoff", "hard")],
+            speed: SpeedLaw::SigmundThompson {
+                binding_energy: Quantity::Param("binding_energy"),
+                cutoff: EnergyCutoff::Hard { max_energy: Quantity::Param("max_energy") },
+            },
+            direction: DirectionLaw::Cosine,
+        },
+        LaunchLaw {
+            when: &[("energy_cutoff", "thompson")],
+            speed: SpeedLaw::SigmundThompson {
+                binding_energy: Quantity::Param("binding_energy"),
+                cutoff: EnergyCutoff::Thompson {
+                    ion_energy: Quantity::Param("ion_energy"),
+                    ion_mass: Quantity::Param("ion_mass"),
+                },
+            },
+            direction: DirectionLaw::Cosine,
+        },
+    ];
+
     fn release_rate_one(&self, cell: &CellState) -> Result<f64, ProcessError> {
         if !usable_factor(cell.solar_wind_flux) || !usable_factor(cell.bulk_abundance) {
             return Err(ProcessError::new(
@@ -616,6 +649,16 @@ mod tests {
     #[test]
     fn manifest_reference_points_hold() {
         testing::assert_reference_points(&Roles::<IonSputter>::new().source());
+    }
+
+    /// The launches against the laws declared in `LAUNCH_LAWS`, as `vet`
+    /// tests them (one-sample KS tests at p = 0.01 of speeds or energies and
+    /// of directions; the distribution functions and their sources are in
+    /// `exobound_sdk::launch_law`).
+    #[test]
+    fn launches_follow_the_declared_laws() {
+        let base = LaunchRequest { mass: NA_MASS, ..LaunchRequest::default() };
+        testing::assert_launch_laws::<IonSputter>(base, 20_000, 3);
     }
 
     #[test]

@@ -62,8 +62,9 @@
 
 use exobound_sdk::constants::{BOLTZMANN, ELECTRON_VOLT};
 use exobound_sdk::{
-    CellState, Check, ErrorCode, Input, LaunchRequest, Manifest, Origin, ParamKind, ParamSpec,
-    Params, Pool, Process, ProcessError, ReferencePoint, Rng, Role, Source, Value, Velocity, math,
+    CellState, Check, DirectionLaw, ErrorCode, Input, LaunchLaw, LaunchRequest, Manifest, Origin,
+    ParamKind, ParamSpec, Params, Pool, Process, ProcessError, Quantity, ReferencePoint, Rng, Role,
+    Source, SpeedLaw, Value, Velocity, math,
 };
 
 /// Mass of one Na atom, kg (22.98976928 u, the IUPAC standard atomic weight;
@@ -476,6 +477,24 @@ impl Process for PhotonDesorption {
 }
 
 impl Source for PhotonDesorption {
+    /// One law per `velocity_law` option, both with cosine-law directions
+    /// (see `launch_one`).
+    const LAUNCH_LAWS: &'static [LaunchLaw] = &[
+        LaunchLaw {
+            when: &[("velocity_law", "maxwellian")],
+            speed: SpeedLaw::MaxwellianFlux { temperature: Quantity::Param("launch_temperature") },
+            direction: DirectionLaw::Cosine,
+        },
+        LaunchLaw {
+            when: &[("velocity_law", "power-law")],
+            speed: SpeedLaw::PowerLaw {
+                exponent: Quantity::Param("power_law_exponent"),
+                energy: Quantity::Param("power_law_energy"),
+            },
+            direction: DirectionLaw::Cosine,
+        },
+    ];
+
     fn release_rate_one(&self, cell: &CellState) -> Result<f64, ProcessError> {
         if !(cell.adsorbed.is_finite() && cell.adsorbed >= 0.0) {
             return Err(ProcessError::new(
@@ -660,6 +679,16 @@ mod tests {
     #[test]
     fn manifest_reference_points_hold() {
         testing::assert_reference_points(&Roles::<PhotonDesorption>::new().source());
+    }
+
+    /// The launches against the laws declared in `LAUNCH_LAWS`, as `vet`
+    /// tests them (one-sample KS tests at p = 0.01 of speeds or energies and
+    /// of directions; the distribution functions and their sources are in
+    /// `exobound_sdk::launch_law`).
+    #[test]
+    fn launches_follow_the_declared_laws() {
+        let base = LaunchRequest { mass: NA_MASS, ..LaunchRequest::default() };
+        testing::assert_launch_laws::<PhotonDesorption>(base, 20_000, 3);
     }
 
     #[test]

@@ -62,8 +62,9 @@
 
 use exobound_sdk::constants::{BOLTZMANN, ELECTRON_VOLT};
 use exobound_sdk::{
-    CellState, Check, ErrorCode, Input, LaunchRequest, Manifest, Origin, ParamKind, ParamSpec,
-    Params, Pool, Process, ProcessError, ReferencePoint, Rng, Role, Source, Value, Velocity, math,
+    CellState, Check, DirectionLaw, ErrorCode, Input, LaunchLaw, LaunchRequest, Manifest, Origin,
+    ParamKind, ParamSpec, Params, Pool, Process, ProcessError, Quantity, ReferencePoint, Rng, Role,
+    Source, SpeedLaw, Value, Velocity, math,
 };
 
 /// Mass of one Na atom, kg (22.98976928 u, the IUPAC standard atomic weight;
@@ -446,6 +447,14 @@ impl Process for ThermalDesorption {
 }
 
 impl Source for ThermalDesorption {
+    /// Maxwellian-flux speeds at the surface temperature of the launch,
+    /// cosine-law directions (see `launch_one`).
+    const LAUNCH_LAWS: &'static [LaunchLaw] = &[LaunchLaw {
+        when: &[],
+        speed: SpeedLaw::MaxwellianFlux { temperature: Quantity::Input("temperature") },
+        direction: DirectionLaw::Cosine,
+    }];
+
     fn release_rate_one(&self, cell: &CellState) -> Result<f64, ProcessError> {
         if !usable_temperature(cell.temperature) {
             return Err(ProcessError::outside_validity(format!(
@@ -600,6 +609,16 @@ mod tests {
     #[test]
     fn manifest_reference_points_hold() {
         testing::assert_reference_points(&Roles::<ThermalDesorption>::new().source());
+    }
+
+    /// The launches against the laws declared in `LAUNCH_LAWS`, as `vet`
+    /// tests them (one-sample KS tests at p = 0.01 of speeds or energies and
+    /// of directions; the distribution functions and their sources are in
+    /// `exobound_sdk::launch_law`).
+    #[test]
+    fn launches_follow_the_declared_laws() {
+        let base = LaunchRequest { temperature: 600.0, mass: NA_MASS, ..LaunchRequest::default() };
+        testing::assert_launch_laws::<ThermalDesorption>(base, 20_000, 3);
     }
 
     #[test]
