@@ -1,4 +1,5 @@
-//! Builds the hostile test fixtures in `tests/fixtures/` to `.wasm`.
+//! Builds the test fixtures in `tests/fixtures/` (a hostile law, a
+//! mislabelled source) to `.wasm`.
 //!
 //! Why this exists: fixture modules are built from source, never committed
 //! as binaries. This drives the same nested wasm32 build as the host's
@@ -20,7 +21,7 @@ fn main() {
     let wasm_dir = target.join("wasm");
     println!("cargo:rerun-if-changed={}", here.join("fixtures").display());
     println!("cargo:rerun-if-changed={}", root.join("process-sdk").display());
-    let fixtures = ["hostile-law"];
+    let fixtures = ["hostile-law", "mislabelled-source"];
     let packages: Vec<String> = fixtures.iter().map(|s| s.to_string()).collect();
     if let Err(e) = modbuild::build(&root.join("Cargo.toml"), &packages, &wasm_dir) {
         panic!("building the test fixtures to wasm failed: {e}");

@@ -61,6 +61,7 @@ fn hostile_manifest() -> Vec<u8> {
             tolerance: 1e-9,
             source: format!("nowhere\r{RLO}"),
         }],
+        launch_laws: Vec::new(),
     };
     rmp_serde::to_vec_named(&info).expect("encode manifest")
 }

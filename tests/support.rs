@@ -115,6 +115,7 @@ pub fn manifest_bytes(name: &str, roles: &[&str]) -> Vec<u8> {
         inputs: vec![],
         parameters: vec![],
         reference_points: vec![],
+        launch_laws: Vec::new(),
     };
     rmp_serde::to_vec_named(&info).expect("encode manifest")
 }

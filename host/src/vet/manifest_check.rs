@@ -279,6 +279,7 @@ mod tests {
                 tolerance: 1e-9,
                 source: "a table".into(),
             }],
+            launch_laws: Vec::new(),
         };
         assert_eq!(completeness(&clean).status, Status::Pass, "{:?}", completeness(&clean));
         type Edit = fn(&mut ManifestInfo);
