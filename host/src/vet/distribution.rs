@@ -194,14 +194,23 @@ fn test_law(ctx: &Context, m: &ManifestInfo, law: &LaunchLawInfo) -> Verdict {
     let d_speed = ks_one_sample(&mut speeds, |v| resolved.speed_cdf(v));
     let d_dir = ks_one_sample(&mut cosines, |c| resolved.direction.cdf(c));
     let critical = ks_critical_one_sample(n, ALPHA);
-    let ok = d_speed <= critical && d_dir <= critical;
     let what = if resolved.speed.in_energy() { "energy" } else { "speed" };
+    let failed: Vec<&str> = [(d_speed, what), (d_dir, "direction")]
+        .into_iter()
+        .filter(|(d, _)| *d > critical)
+        .map(|(_, w)| w)
+        .collect();
+    let ok = failed.is_empty();
+    let verdict = if ok {
+        "follows the declaration".to_string()
+    } else {
+        format!("DISAGREES with the declaration ({} test)", failed.join(" and "))
+    };
     Verdict {
         ok,
         line: format!(
             "{label}: {what} D = {d_speed:.5}, direction D = {d_dir:.5}, critical {critical:.5} \
-             ({n} draws, alpha = {ALPHA}): {}",
-            if ok { "follows the declaration" } else { "DISAGREES with the declaration" }
+             ({n} draws, alpha = {ALPHA}): {verdict}"
         ),
         worst: d_speed.max(d_dir),
     }
