@@ -312,7 +312,7 @@ impl Speed {
     /// The CDF at energy `e` eV (energy laws) or at speed `v` m s^-1 of an
     /// atom of `mass` kg (the Maxwellian flux), dimensionless.
     pub fn cdf(&self, x: f64, mass: f64) -> f64 {
-        if !(x > 0.0) {
+        if x.is_nan() || x <= 0.0 {
             return 0.0;
         }
         match *self {
@@ -430,7 +430,7 @@ impl LaunchLawInfo {
                         let m1 = num("ion_mass", &s.ion_mass)?;
                         let m2 = r.mass / ATOMIC_MASS;
                         let l = 4.0 * m1 * m2 / ((m1 + m2) * (m1 + m2)) * e_i;
-                        if !(l > u) {
+                        if l.is_nan() || l <= u {
                             return Err(format!(
                                 "Lambda E_i = {l} eV is not above the binding energy {u} eV"
                             ));
