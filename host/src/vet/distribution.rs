@@ -45,8 +45,9 @@ pub const ALPHA: f64 = 1.0e-3;
 
 /// Particle id of the first draw, dimensionless: a block of keys disjoint
 /// from the `sampler` check's two half-samples (ids from 0 and from
-/// [`SECOND_HALF`](super::sampler::SECOND_HALF) = 2^38), so the two checks judge independent draws, and
-/// below 2^40, the bits of the id the generator keys on (`Rng::new`).
+/// [`SECOND_HALF`](super::sampler::SECOND_HALF) = 2^38), so the two checks
+/// judge independent draws, and below 2^40, the bits of the id the
+/// generator keys on (`Rng::new`).
 pub const FIRST_PARTICLE: u64 = 1 << 39;
 
 /// The largest one-sample KS distance D, dimensionless, that passes at
