@@ -1,5 +1,5 @@
-//! Builds the test fixtures in `tests/fixtures/` (the hostile law, the
-//! table-parameter law) to `.wasm`.
+//! Builds the test fixtures in `tests/fixtures/` (a hostile law, a
+//! table-parameter law, a mislabelled source) to `.wasm`.
 //!
 //! Why this exists: fixture modules are built from source, never committed
 //! as binaries. This drives the same nested wasm32 build as the host's
@@ -21,7 +21,7 @@ fn main() {
     let wasm_dir = target.join("wasm");
     println!("cargo:rerun-if-changed={}", here.join("fixtures").display());
     println!("cargo:rerun-if-changed={}", root.join("process-sdk").display());
-    let fixtures = ["hostile-law", "table-law"];
+    let fixtures = ["hostile-law", "table-law", "mislabelled-source"];
     let packages: Vec<String> = fixtures.iter().map(|s| s.to_string()).collect();
     if let Err(e) = modbuild::build(&root.join("Cargo.toml"), &packages, &wasm_dir) {
         panic!("building the test fixtures to wasm failed: {e}");

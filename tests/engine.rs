@@ -77,7 +77,8 @@ fn full_reemission(rt: &Arc<Runtime>, t: f64) -> ModuleHandle {
 }
 
 /// Jeans flux fraction above escape speed, (1 + lambda) exp(-lambda)
-/// (Jeans' escape law; Chamberlain & Hunten 1987; check-values §3).
+/// (Jeans' escape law; Chamberlain & Hunten 1987, Theory of Planetary
+/// Atmospheres, 2nd ed., ch. 7).
 fn jeans_flux_fraction(lambda: f64) -> f64 {
     (1.0 + lambda) * math::exp(-lambda)
 }
@@ -86,7 +87,8 @@ fn jeans_case(t: f64, expected_table: f64) {
     let rt = runtime();
     let body = still_moon();
     let lambda = body.jeans_parameter(Species::sodium().mass, t, body.radius);
-    // check-values §3: the closed form reproduces the tabulated flux fraction.
+    // The closed form reproduces the stated flux fraction
+    // (tests/python/jeans_chamberlain_reference_values.py: gammaincc(2, lambda) and quadrature).
     assert!((jeans_flux_fraction(lambda) / expected_table - 1.0).abs() < 1e-6);
     let mut config = RunConfig::for_body(&body);
     config.dt = 3000.0;
@@ -135,13 +137,15 @@ fn jeans_case(t: f64, expected_table: f64) {
 
 #[test]
 fn jeans_escape_na_moon_1200k() {
-    // check-values §3: Na, Moon, 1200 K, flux fraction 1.125384e-2 (C).
+    // Na, Moon, 1200 K: flux fraction (1 + lambda) exp(-lambda) = 1.125384e-2 (Jeans' law;
+    // tests/python/jeans_chamberlain_reference_values.py).
     jeans_case(1200.0, 1.125384e-2);
 }
 
 #[test]
 fn jeans_escape_na_moon_3000k() {
-    // check-values §3: Na, Moon, 3000 K, flux fraction 2.672113e-1 (C).
+    // Na, Moon, 3000 K: flux fraction 2.672113e-1 (Jeans' law;
+    // tests/python/jeans_chamberlain_reference_values.py).
     jeans_case(3000.0, 2.672113e-1);
 }
 
@@ -155,7 +159,7 @@ fn p32(x: f64) -> f64 {
 }
 
 /// n(r)/n(R) of a ballistic + escaping Chamberlain exosphere with the
-/// exobase at the surface (Chamberlain 1963; check-values §4).
+/// exobase at the surface (Chamberlain 1963, Planet. Space Sci. 11, 901).
 fn chamberlain(lambda_c: f64, r_over_rc: f64) -> f64 {
     let lambda = lambda_c / r_over_rc;
     let psi = lambda * lambda / (lambda + lambda_c);
@@ -198,8 +202,10 @@ fn mean_and_error(xs: &[f64]) -> (f64, f64) {
 
 #[test]
 fn chamberlain_closed_form_matches_the_table() {
-    // check-values §4, Na Moon 1200 K (lambda_c 6.502248): 100 km 0.690347,
-    // 500 km 0.217101, 1000 km 0.0779993, 2000 km 0.0200217 (M, verified C).
+    // Chamberlain (1963, Planet. Space Sci. 11, 901), Na Moon 1200 K (lambda_c 6.502248):
+    // 100 km 0.690347, 500 km 0.217101, 1000 km 0.0779993, 2000 km 0.0200217
+    // (tests/python/jeans_chamberlain_reference_values.py; the velocity-space integration of
+    // tests/python/chamberlain_reference_values.py confirms the closed form).
     let r = 1737.4;
     for (h, want) in
         [(100.0, 0.690347), (500.0, 0.217101), (1000.0, 0.0779993), (2000.0, 0.0200217)]
@@ -274,7 +280,7 @@ pub fn density_profile_follows_chamberlain() {
         let mean = xs.iter().sum::<f64>() / xs.len() as f64;
         let var = xs.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (xs.len() - 1) as f64;
         let sigma = (var / xs.len() as f64).sqrt();
-        // Chamberlain (1963): within 3 sigma and at most 3% (check-values §4).
+        // Chamberlain (1963, Planet. Space Sci. 11, 901): within 3 sigma and at most 3%.
         assert!(
             (mean - want).abs() < 3.0 * sigma.max(1e-4 * want) && (mean / want - 1.0).abs() < 0.03,
             "{h} km: n/n0 = {mean} +- {sigma}, Chamberlain {want}"

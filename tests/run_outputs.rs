@@ -121,8 +121,9 @@ fn quick_demo_writes_every_product() {
     assert!(s["performance"]["hops_per_second"]["value"].as_f64().unwrap() > 0.0);
 
     // Order of magnitude: lunar Na near the surface on the dayside is tens
-    // of atoms cm^-3 (check-values §8: 29-67 cm^-3 in ground-based fits,
-    // Potter & Morgan 1988; Tyler et al. 1988). The demo's invented
+    // of atoms cm^-3 (29-67 cm^-3 in ground-based fits: Potter & Morgan 1988,
+    // Science 241, 675; Tyler et al. 1988, Geophys. Res. Lett. 15, 1141; from
+    // memory). The demo's invented
     // parameters must land within a factor of ~10 of that.
     let n = s["dayside_near_surface_density"]["value"].as_f64().unwrap();
     assert!((5.0..500.0).contains(&n), "dayside near-surface density {n} cm^-3");

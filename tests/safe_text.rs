@@ -11,7 +11,8 @@ use std::path::Path;
 use std::process::{Command, Output};
 
 use exobound::text::printable;
-use exobound_sdk::{ManifestInfo, ParamInfo, ParamValue, ReferenceInfo};
+use exobound_sdk::ParamValue;
+use exobound_sdk::wire::{ManifestInfo, ParamInfo, ReferenceInfo};
 
 use crate::support::{TempDir, exobound_binary, particles, runtime, wat_text_with_message};
 
@@ -61,6 +62,7 @@ fn hostile_manifest() -> Vec<u8> {
             tolerance: 1e-9,
             source: format!("nowhere\r{RLO}"),
         }],
+        launch_laws: Vec::new(),
     };
     rmp_serde::to_vec_named(&info).expect("encode manifest")
 }

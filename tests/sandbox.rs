@@ -292,7 +292,7 @@ fn malformed_manifest_is_refused() {
 
 #[test]
 fn huge_manifest_is_refused() {
-    let mut info: exobound_sdk::ManifestInfo =
+    let mut info: exobound_sdk::wire::ManifestInfo =
         rmp_serde::from_slice(&loss_manifest()).expect("decodes");
     info.description = "x".repeat(200_000);
     let m = rmp_serde::to_vec_named(&info).unwrap();

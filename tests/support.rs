@@ -7,7 +7,8 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use std::time::Duration;
 
 use exobound::runtime::{LoadedModule, Runtime, RuntimeConfig, SandboxLimits};
-use exobound_sdk::{InFlight, ManifestInfo, ParamValue};
+use exobound_sdk::wire::ManifestInfo;
+use exobound_sdk::{InFlight, ParamValue};
 
 /// A directory under the system temp dir, removed when dropped.
 pub struct TempDir(PathBuf);
@@ -114,6 +115,7 @@ pub fn manifest_bytes(name: &str, roles: &[&str]) -> Vec<u8> {
         inputs: vec![],
         parameters: vec![],
         reference_points: vec![],
+        launch_laws: Vec::new(),
     };
     rmp_serde::to_vec_named(&info).expect("encode manifest")
 }

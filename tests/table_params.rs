@@ -413,6 +413,12 @@ struct V10Manifest {
     inputs: Vec<String>,
     parameters: Vec<V10Param>,
     reference_points: Vec<V10Reference>,
+    /// A source's declared launch laws (for vet), written only when it
+    /// declares some: the one optional key. The 1.0 host's decoder (serde's
+    /// default) skips keys it does not know, so it does not stop a 1.0
+    /// host loading the module; everything else must keep the 1.0 layout.
+    #[serde(default, skip_serializing)]
+    launch_laws: Option<serde::de::IgnoredAny>,
 }
 
 /// A loss module as an ABI 1.0 host knows it: stamped 1.0.0, a manifest of
@@ -461,6 +467,7 @@ fn abi_1_0_module() -> Vec<u8> {
             tolerance: 1e-12,
             source: "the fixture's constant".into(),
         }],
+        launch_laws: None,
     };
     let bytes = rmp_serde::to_vec_named(&m).unwrap();
     wat(Some("1.0.0"), Some(&bytes), "", &loss_export("(local.get $n)"))
@@ -498,7 +505,8 @@ fn an_abi_1_0_module_still_loads_and_runs() {
 fn modules_without_tables_are_stamped_1_0_and_keep_the_1_0_manifest_layout() {
     // A module built with this SDK that declares no table parameter is
     // stamped 1.0.0 and its manifest decodes in the ABI 1.0 layout (no
-    // unknown key anywhere), so a host that knows only ABI 1.0 loads it.
+    // unknown key but the optional `launch_laws` of a source, which a 1.0
+    // host skips), so a host that knows only ABI 1.0 loads it.
     for name in crate::support::STANDARD {
         let path = exobound::standard_module(name);
         let bytes = std::fs::read(&path).unwrap();

@@ -15,6 +15,7 @@ mod observe_compare;
 mod orbit;
 mod output_lock;
 mod parameters;
+mod reference_scripts;
 mod replica;
 mod resolved_fields;
 mod run_outputs;

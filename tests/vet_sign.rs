@@ -14,7 +14,7 @@ use exobound::share::lock::{self, LockAction};
 use exobound::share::policy::Policy;
 use exobound::share::{keys, signature, trace};
 use exobound::vet::{self, Status, VetOptions, VetReport};
-use exobound_sdk::{ManifestInfo, ReferenceInfo};
+use exobound_sdk::wire::{ManifestInfo, ReferenceInfo};
 
 use crate::support::*;
 
@@ -45,11 +45,16 @@ fn every_standard_module_passes_vet() {
             let c = r.check(check).unwrap_or_else(|| panic!("{name}: no `{check}` check"));
             assert_eq!(c.status, Status::Pass, "{name}: {check}: {}", c.summary);
         }
-        // No ABI v1 manifest can declare a distribution: reported, not faked.
+        // Every standard source declares its launch laws and its launches pass the KS
+        // tests against them (one per declared law); the other roles declare none.
         let d = r.check("distribution").unwrap();
-        let has_sampler = r.check("sampler").unwrap().status != Status::NotApplicable;
-        let want = if has_sampler { Status::NotDeclared } else { Status::NotApplicable };
-        assert_eq!(d.status, want, "{name}");
+        let source = r.check("sampler").unwrap().measured.contains_key("launch_mean_speed_m_s-1");
+        if source {
+            assert_eq!(d.status, Status::Pass, "{name}: {}\n{:#?}", d.summary, d.details);
+            assert!(d.details.iter().all(|l| l.contains("follows the declaration")), "{name}");
+        } else {
+            assert_eq!(d.status, Status::NotApplicable, "{name}");
+        }
         let json = serde_json::to_value(&r).unwrap();
         assert_eq!(json["checks"].as_array().unwrap().len(), 8);
         assert!(vet::render_text(&r).contains("result: PASS"));
@@ -72,6 +77,7 @@ fn manifest(name: &str, roles: &[&str], points: Vec<ReferenceInfo>) -> ManifestI
         inputs: vec![],
         parameters: vec![],
         reference_points: points,
+        launch_laws: Vec::new(),
     }
 }
 
@@ -160,7 +166,7 @@ fn vet_names_the_check_each_bad_fixture_fails() {
           (br $l)))";
     let mut bad_units = manifest("bad-units", &["loss"], vec![point("loss-rate", &[], 1e-6)]);
     bad_units.law_source = String::new();
-    bad_units.parameters.push(exobound_sdk::ParamInfo {
+    bad_units.parameters.push(exobound_sdk::wire::ParamInfo {
         name: "scale".into(),
         unit: "bananas".into(),
         description: "a parameter with a unit nobody can read".into(),
@@ -250,6 +256,55 @@ fn vet_names_the_check_each_bad_fixture_fails() {
     }
     // No published source and no reference points: the manifest fails too.
     assert!(r.failed().contains(&"manifest") && r.failed().contains(&"reference-points"));
+}
+
+#[test]
+fn vet_fails_a_source_whose_launches_disagree_with_its_declaration() {
+    // The fixture declares the Maxwellian flux with cosine-law directions and draws the
+    // Maxwellian gas (mode gas-speeds) or isotropic directions (mode isotropic-directions).
+    let path = exobound_tests::fixture_dir().join("mislabelled_source.wasm");
+    let r = vet::vet_file_with(&path, &options()).unwrap();
+    assert_eq!(r.failed(), vec!["distribution"], "{}", vet::render_text(&r));
+    let d = r.check("distribution").unwrap();
+    assert!(d.summary.contains("disagree with 2 of the 2 declared launch laws"), "{}", d.summary);
+    let line = |mode: &str| d.details.iter().find(|l| l.contains(mode)).unwrap().clone();
+    let critical = |l: &str| -> f64 {
+        l.split("critical ").nth(1).unwrap().split(' ').next().unwrap().parse().unwrap()
+    };
+    let distance = |l: &str, what: &str| -> f64 {
+        let tail = l.split(&format!("{what} D = ")).nth(1).unwrap();
+        tail.split(',').next().unwrap().parse().unwrap()
+    };
+    // D_crit = c(0.001)/(sqrt(n) + 0.12 + 0.11/sqrt(n)) with c = sqrt(ln(2000)/2) = 1.9495,
+    // n = 20 000 (Kolmogorov 1933, Giorn. Ist. Ital. Attuari 4, 83; finite-n form of
+    // Stephens 1974, J. Am. Stat. Assoc. 69, 730, Table 1A).
+    let d_crit = d.measured["ks_critical_distance"];
+    assert!((d_crit - 0.013_773).abs() < 5e-7, "{d_crit}");
+    // Gas speeds: the speed test fails, the directions (cosine law) pass. The line names
+    // the declared law that fails. The largest gap between the CDFs of the Maxwellian gas,
+    // erf(x) - 2x exp(-x^2)/sqrt(pi), and of the flux, 1 - (1 + x^2) exp(-x^2), x = v/a,
+    // is 0.1694 (closed forms of kinetic theory, e.g. Chamberlain & Hunten 1987, Theory
+    // of Planetary Atmospheres, 2nd ed.; from memory), twelve times D_crit.
+    let gas = line("mode = gas-speeds");
+    assert!(gas.starts_with("maxwellian-flux speeds, cosine directions"), "{gas}");
+    assert!(gas.ends_with("DISAGREES with the declaration (speed test)"), "{gas}");
+    assert!(
+        distance(&gas, "speed") > critical(&gas) && distance(&gas, "direction") < critical(&gas)
+    );
+    assert!((distance(&gas, "speed") - 0.1694).abs() < d_crit, "{gas}");
+    // Isotropic directions: the speed test passes, the direction test fails; the CDFs c
+    // and c^2 are at most 1/4 apart (at c = 1/2).
+    let iso = line("mode = isotropic-directions");
+    assert!(iso.ends_with("DISAGREES with the declaration (direction test)"), "{iso}");
+    assert!(
+        distance(&iso, "speed") < critical(&iso) && distance(&iso, "direction") > critical(&iso)
+    );
+    assert!((distance(&iso, "direction") - 0.25).abs() < d_crit, "{iso}");
+    // A source that declares nothing is reported as such, and passes.
+    let r = vet_bytes("keyed-wrongly", &keyed_wrongly());
+    let d = r.check("distribution").unwrap();
+    assert_eq!(d.status, Status::NotDeclared, "{}", d.summary);
+    assert!(d.summary.starts_with("not declared"));
 }
 
 /// Keys for `signer` under `dir`.

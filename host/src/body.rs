@@ -335,7 +335,7 @@ mod tests {
     }
 
     #[test]
-    fn derived_quantities_match_check_values() {
+    fn derived_quantities_match_the_closed_forms() {
         let moon = Body::moon();
         let mercury = Body::mercury();
         // Closed form v_esc = sqrt(2GM/R) with the JPL DE440 GM and mean radius, to 0.01 m/s.
@@ -351,7 +351,7 @@ mod tests {
     }
 
     #[test]
-    fn jeans_parameters_match_check_values() {
+    fn jeans_parameters_match_the_closed_form() {
         let na = 22.989_769_28 * ATOMIC_MASS;
         let k = 39.0983 * ATOMIC_MASS;
         let moon = Body::moon();

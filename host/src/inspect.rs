@@ -9,7 +9,8 @@
 
 use std::path::Path;
 
-use exobound_sdk::{ManifestInfo, ParamValue};
+use exobound_sdk::ParamValue;
+use exobound_sdk::wire::ManifestInfo;
 use serde::Serialize;
 
 use crate::runtime::HostError;
@@ -41,7 +42,7 @@ pub struct Inspection {
     /// The full manifest.
     pub manifest: ManifestInfo,
     /// Parameters (repeated at top level for scripts): name, unit, default, min, max.
-    pub parameters: Vec<exobound_sdk::ParamInfo>,
+    pub parameters: Vec<exobound_sdk::wire::ParamInfo>,
     /// The `exobound:build` record (toolchain and SDK version) that
     /// `exobound module build` appends, if the file has one.
     pub build: Option<String>,

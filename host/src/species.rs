@@ -124,7 +124,7 @@ mod tests {
     }
 
     #[test]
-    fn masses_and_lines_match_check_values() {
+    fn masses_and_lines_match_published_values() {
         let na = Species::sodium();
         let k = Species::potassium();
         // IUPAC standard atomic weights (CIAAW).

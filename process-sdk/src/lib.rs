@@ -10,7 +10,9 @@
 //! numbers, because both sides use [`math`] and the counter-based [`Rng`].
 //!
 //! The public surface is:
-//! - roles: [`Process`], [`Source`], [`Loss`], [`SurfaceInteraction`], [`ReservoirProcess`];
+//! - roles: [`Process`], [`Source`], [`Loss`], [`SurfaceInteraction`], [`ReservoirProcess`],
+//!   each with one-record methods (`launch_one`, ...) and batch methods whose
+//!   default bodies loop over the records (see [`roles`]);
 //! - records: [`CellState`], [`LaunchRequest`], [`Velocity`], [`InFlight`],
 //!   [`Impact`], [`Outcome`], [`OutcomeKind`], [`RngKey`];
 //! - randomness: [`Rng`] and its samplers ([`sample`]);
@@ -18,12 +20,19 @@
 //! - manifests: [`Manifest`], [`ParamSpec`], [`ParamKind`], [`TableColumn`], [`Origin`],
 //!   [`Input`], [`ReferencePoint`], [`Check`], [`Value`], [`Role`], [`Pool`];
 //! - parameters: [`Params`], [`ParamValue`]; table parameters: [`TableRef`] and the
-//!   interpolating [`Curve`] ([`table`]); errors: [`ProcessError`], [`ErrorCode`].
+//!   interpolating [`Curve`] ([`table`]); errors: [`ProcessError`], [`ErrorCode`];
+//! - for tests, with the `testing` feature: `testing` (build a law as the
+//!   host does, rerun the reference points, KS tests, the batch check).
+//!
+//! What only the host and the SDK's plumbing use (the decoded manifest,
+//! byte views of records, field access by name, the reference-check
+//! protocol) is in [`wire`], not here.
 //!
 //! Dependencies are serde, rmp-serde and libm only; the host depends on
 //! this crate, never the reverse.
 
 pub mod constants;
+pub mod launch_law;
 pub mod manifest;
 pub mod math;
 pub mod params;
@@ -33,17 +42,23 @@ pub mod roles;
 pub mod sample;
 pub mod table;
 
+pub mod wire;
+
+#[cfg(feature = "testing")]
+pub mod testing;
+
 #[doc(hidden)]
 pub mod abi;
 
+pub use launch_law::{DirectionLaw, EnergyCutoff, LaunchLaw, Quantity, SpeedLaw};
 pub use manifest::{
-    Check, Input, Manifest, ManifestInfo, Origin, ParamInfo, ParamKind, ParamSpec, Pool,
-    ReferenceInfo, ReferencePoint, Role, TableColumn, Value,
+    Check, Input, Manifest, Origin, ParamKind, ParamSpec, Pool, ReferencePoint, Role, TableColumn,
+    Value,
 };
 pub use params::{ParamValue, Params};
 pub use records::{
-    CellState, Impact, InFlight, LaunchRequest, NamedFields, Outcome, OutcomeKind, RngKey,
-    Velocity, flags, stream,
+    CellState, Impact, InFlight, LaunchRequest, Outcome, OutcomeKind, RngKey, Velocity, flags,
+    stream,
 };
 pub use rng::Rng;
 pub use roles::{
@@ -51,6 +66,10 @@ pub use roles::{
 };
 pub use sample::Direction;
 pub use table::{Curve, TableRef};
+// Wire-only types, kept reachable from the root (hidden from the
+// documentation) for code written before they moved to `wire`.
+#[doc(hidden)]
+pub use wire::{ManifestInfo, NamedFields, ParamInfo, ReferenceInfo};
 
 /// ABI version implemented by this SDK: `major.minor.patch` in ASCII.
 /// 1.1 adds table parameters. A module is stamped in its `exobound:abi`
@@ -100,12 +119,18 @@ macro_rules! export_process {
         #[cfg(target_arch = "wasm32")]
         const _: () = {
             static EXOBOUND_STATE: $crate::abi::Slot<$law> = $crate::abi::Slot::new();
-            const MANIFEST_LEN: usize =
-                $crate::manifest::encoded_len(&<$law as $crate::Process>::MANIFEST);
+            const LAUNCH_LAWS: &[$crate::LaunchLaw] = $crate::__launch_laws!($law; $($role),+);
+            const MANIFEST_LEN: usize = $crate::manifest::encoded_len_with(
+                &<$law as $crate::Process>::MANIFEST,
+                LAUNCH_LAWS,
+            );
             #[unsafe(link_section = "exobound:manifest")]
             #[used]
-            static EXOBOUND_MANIFEST: [u8; MANIFEST_LEN] =
-                $crate::manifest::encode::<MANIFEST_LEN>(&<$law as $crate::Process>::MANIFEST);
+            static EXOBOUND_MANIFEST: [u8; MANIFEST_LEN] = $crate::manifest::encode_with::<
+                MANIFEST_LEN,
+            >(
+                &<$law as $crate::Process>::MANIFEST, LAUNCH_LAWS
+            );
             #[unsafe(link_section = "exobound:abi")]
             #[used]
             static EXOBOUND_ABI: [u8; 5] =
@@ -135,6 +160,21 @@ macro_rules! export_process {
             "export_process! takes a type and its roles, e.g. `export_process!(MyLaw: Source)` \
              or `export_process!(MyLaw: Loss, SurfaceInteraction)`"
         );
+    };
+}
+
+/// The `LAUNCH_LAWS` of a law whose roles include `Source`, else none.
+#[doc(hidden)]
+#[macro_export]
+macro_rules! __launch_laws {
+    ($law:ty; Source $(, $rest:ident)*) => {
+        <$law as $crate::Source>::LAUNCH_LAWS
+    };
+    ($law:ty; $other:ident $(, $rest:ident)*) => {
+        $crate::__launch_laws!($law; $($rest),*)
+    };
+    ($law:ty;) => {
+        &[]
     };
 }
 

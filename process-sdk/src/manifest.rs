@@ -23,6 +23,7 @@
 
 use serde::{Deserialize, Serialize};
 
+use crate::launch_law::{EnergyCutoff, LaunchLaw, LaunchLawInfo, Quantity, SpeedLaw};
 use crate::params::ParamValue;
 use crate::table::{ColumnInfo, TableInfo};
 
@@ -457,6 +458,11 @@ pub struct ManifestInfo {
     pub parameters: Vec<ParamInfo>,
     /// Reference points.
     pub reference_points: Vec<ReferenceInfo>,
+    /// The launch laws a source declares (`Source::LAUNCH_LAWS`), for `vet`
+    /// to test its launches against; absent from the section (and empty
+    /// here) when nothing is declared, as in every ABI 1.0 module.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub launch_laws: Vec<LaunchLawInfo>,
 }
 
 impl ManifestInfo {
@@ -546,7 +552,18 @@ impl ParamSpec {
 }
 
 impl Manifest {
-    /// The owned form, as the host would decode it from the custom section.
+    /// The owned form with the launch laws `launch` (a source's
+    /// `LAUNCH_LAWS`), as the host decodes it from the custom section that
+    /// `export_process!` writes.
+    pub fn to_info_with(&self, launch: &[LaunchLaw]) -> ManifestInfo {
+        ManifestInfo {
+            launch_laws: launch.iter().map(LaunchLaw::to_info).collect(),
+            ..self.to_info()
+        }
+    }
+
+    /// The owned form without launch laws, as the host would decode it from
+    /// the custom section of a module that declares none.
     pub fn to_info(&self) -> ManifestInfo {
         let strs = |v: &[&str]| v.iter().map(|s| s.to_string()).collect::<Vec<_>>();
         ManifestInfo {
@@ -579,6 +596,7 @@ impl Manifest {
                     source: r.source.to_string(),
                 })
                 .collect(),
+            launch_laws: Vec::new(),
         }
     }
 }
@@ -858,8 +876,78 @@ impl<const N: usize> Writer<N> {
         self.key("source");
         self.str(r.source);
     }
-    const fn manifest(&mut self, m: &Manifest) {
-        self.map(13);
+    const fn quantity(&mut self, q: Quantity) {
+        match q {
+            Quantity::Param(n) => self.prefixed("param:", n),
+            Quantity::Input(n) => self.prefixed("input:", n),
+            Quantity::Fixed(x) => self.f64(x),
+        }
+    }
+    const fn launch_law(&mut self, l: &LaunchLaw) {
+        self.map(3);
+        self.key("when");
+        self.array(l.when.len());
+        let mut i = 0;
+        while i < l.when.len() {
+            self.array(2);
+            self.str(l.when[i].0);
+            self.str(l.when[i].1);
+            i += 1;
+        }
+        self.key("speed");
+        match l.speed {
+            SpeedLaw::MaxwellianFlux { temperature } => {
+                self.map(2);
+                self.key("law");
+                self.str("maxwellian-flux");
+                self.key("temperature");
+                self.quantity(temperature);
+            }
+            SpeedLaw::SigmundThompson { binding_energy, cutoff } => {
+                let n = match cutoff {
+                    EnergyCutoff::None => 3,
+                    EnergyCutoff::Hard { .. } => 4,
+                    EnergyCutoff::Thompson { .. } => 5,
+                };
+                self.map(n);
+                self.key("law");
+                self.str("sigmund-thompson");
+                self.key("binding_energy");
+                self.quantity(binding_energy);
+                self.key("cutoff");
+                match cutoff {
+                    EnergyCutoff::None => self.str("none"),
+                    EnergyCutoff::Hard { max_energy } => {
+                        self.str("hard");
+                        self.key("max_energy");
+                        self.quantity(max_energy);
+                    }
+                    EnergyCutoff::Thompson { ion_energy, ion_mass } => {
+                        self.str("thompson");
+                        self.key("ion_energy");
+                        self.quantity(ion_energy);
+                        self.key("ion_mass");
+                        self.quantity(ion_mass);
+                    }
+                }
+            }
+            SpeedLaw::PowerLaw { exponent, energy } => {
+                self.map(3);
+                self.key("law");
+                self.str("power-law");
+                self.key("exponent");
+                self.quantity(exponent);
+                self.key("energy");
+                self.quantity(energy);
+            }
+        }
+        self.key("direction");
+        self.str(l.direction.as_str());
+    }
+    const fn manifest(&mut self, m: &Manifest, launch: &[LaunchLaw]) {
+        // The 14th key only when something is declared, so that the section
+        // of a module without a declaration is byte-identical to ABI 1.0's.
+        self.map(if launch.is_empty() { 13 } else { 14 });
         self.key("name");
         self.str(m.name);
         self.key("version");
@@ -909,22 +997,43 @@ impl<const N: usize> Writer<N> {
             self.reference(&m.reference_points[i]);
             i += 1;
         }
+        if !launch.is_empty() {
+            self.key("launch_laws");
+            self.array(launch.len());
+            i = 0;
+            while i < launch.len() {
+                self.launch_law(&launch[i]);
+                i += 1;
+            }
+        }
     }
 }
 
 /// Length in bytes of the MessagePack encoding of `m`.
 pub const fn encoded_len(m: &Manifest) -> usize {
-    let mut w = Writer::<0>::new();
-    w.manifest(m);
-    w.len
+    encoded_len_with(m, &[])
 }
 
 /// The MessagePack encoding of `m` in a buffer of exactly `N` bytes, where
 /// `N` must be [`encoded_len`]`(m)` (checked at compile time when used in a
 /// `const` or `static`).
 pub const fn encode<const N: usize>(m: &Manifest) -> [u8; N] {
+    encode_with::<N>(m, &[])
+}
+
+/// Length in bytes of the MessagePack encoding of `m` with the launch laws
+/// `launch` (empty: the same as [`encoded_len`]).
+pub const fn encoded_len_with(m: &Manifest, launch: &[LaunchLaw]) -> usize {
+    let mut w = Writer::<0>::new();
+    w.manifest(m, launch);
+    w.len
+}
+
+/// The MessagePack encoding of `m` with the launch laws `launch`, in a
+/// buffer of exactly `N` = [`encoded_len_with`]`(m, launch)` bytes.
+pub const fn encode_with<const N: usize>(m: &Manifest, launch: &[LaunchLaw]) -> [u8; N] {
     let mut w = Writer::<N>::new();
-    w.manifest(m);
+    w.manifest(m, launch);
     assert!(w.len == N, "manifest::encode: N must equal encoded_len(m)");
     w.buf
 }
@@ -999,6 +1108,38 @@ mod tests {
             source: "check",
         }],
     };
+
+    const LAUNCH: &[LaunchLaw] = &[
+        LaunchLaw {
+            when: &[("velocity_law", "maxwellian")],
+            speed: SpeedLaw::MaxwellianFlux { temperature: Quantity::Input("temperature") },
+            direction: crate::launch_law::DirectionLaw::Cosine,
+        },
+        LaunchLaw {
+            when: &[("velocity_law", "power-law")],
+            speed: SpeedLaw::SigmundThompson {
+                binding_energy: Quantity::Fixed(0.27),
+                cutoff: EnergyCutoff::Thompson {
+                    ion_energy: Quantity::Param("temperature"),
+                    ion_mass: Quantity::Fixed(1.0),
+                },
+            },
+            direction: crate::launch_law::DirectionLaw::Isotropic,
+        },
+    ];
+
+    #[test]
+    fn launch_laws_encode_and_decode_and_are_absent_when_none() {
+        const LEN: usize = encoded_len_with(&EXAMPLE, LAUNCH);
+        static BYTES: [u8; LEN] = encode_with::<LEN>(&EXAMPLE, LAUNCH);
+        let decoded = ManifestInfo::decode(&BYTES).expect("decodes");
+        assert_eq!(decoded, EXAMPLE.to_info_with(LAUNCH));
+        assert_eq!(decoded.launch_laws.len(), 2);
+        // Without a declaration the section is exactly the 13-key ABI 1.0 manifest.
+        const PLAIN: usize = encoded_len(&EXAMPLE);
+        assert_eq!(encoded_len_with(&EXAMPLE, &[]), PLAIN);
+        const { assert!(LEN > PLAIN) };
+    }
 
     #[test]
     fn const_encoding_decodes_with_rmp_serde() {

@@ -1,5 +1,5 @@
 """Why this exists: the worked ballistic hops in host/src/transport/kepler.rs
-(`worked_hops_match_check_values`) are checked against numbers computed here
+(`worked_hops_match_the_range_equation`) are checked against numbers computed here
 from the two-body range equation (Bate, Mueller & White 1971, Fundamentals
 of Astrodynamics, ch. 6) and, independently, by integrating the two-body
 equations of motion with scipy's solve_ivp until the atom is back at the

@@ -231,7 +231,7 @@ mod tests {
     }
 
     #[test]
-    fn momentum_per_photon_matches_check_values() {
+    fn momentum_per_photon_matches_the_closed_form() {
         // h/(m lambda) with CODATA 2018 h and u (tests/python/gfactor_reference_values.py):
         // 2.94605 cm s^-2 per photon s^-1 for Na D2, 1.32525 for K D1.
         let na = Species::sodium();

@@ -11,9 +11,10 @@
 use std::collections::BTreeMap;
 use std::sync::Arc;
 
+use exobound_sdk::wire::ManifestInfo;
 use exobound_sdk::{
-    CellState, Impact, InFlight, LaunchRequest, Loss, ManifestInfo, Outcome, ParamValue, Params,
-    Process, ProcessError, ReservoirProcess, Role, Source, SurfaceInteraction, Velocity,
+    CellState, Impact, InFlight, LaunchRequest, Loss, Outcome, ParamValue, Params, Process,
+    ProcessError, ReservoirProcess, Role, Source, SurfaceInteraction, Velocity,
 };
 
 use super::error::{DomainError, HostError, ModuleError};

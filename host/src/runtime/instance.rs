@@ -12,7 +12,7 @@
 
 use std::sync::Arc;
 
-use exobound_sdk::records::{Record, as_bytes, as_bytes_mut};
+use exobound_sdk::wire::{Record, as_bytes, as_bytes_mut};
 use exobound_sdk::{
     CellState, ErrorCode, Impact, InFlight, LaunchRequest, Outcome, ProcessError, Role, Velocity,
 };

@@ -43,7 +43,8 @@ use std::path::{Path, PathBuf};
 use std::sync::{Arc, Mutex};
 use std::time::Duration;
 
-use exobound_sdk::{ManifestInfo, ParamValue};
+use exobound_sdk::ParamValue;
+use exobound_sdk::wire::ManifestInfo;
 use wasmtime::{Config, Engine, OptLevel};
 
 pub use error::{CallSite, DomainError, HostError, ModuleError, flatten};

@@ -11,7 +11,8 @@
 use std::path::Path;
 
 use exobound_sdk::table::TableInfo;
-use exobound_sdk::{ABI_SECTION, MANIFEST_SECTION, ManifestInfo, ParamValue, Role};
+use exobound_sdk::wire::ManifestInfo;
+use exobound_sdk::{ABI_SECTION, MANIFEST_SECTION, ParamValue, Role};
 use sha2::{Digest, Sha256};
 use wasmparser::{ExternalKind, Parser, Payload, TypeRef};
 

@@ -11,19 +11,18 @@
 use std::collections::BTreeMap;
 use std::sync::Arc;
 
-use exobound_sdk::{
-    CellState, Impact, InFlight, LaunchRequest, NamedFields, Outcome, ReferenceInfo, RngKey,
-    Velocity, stream,
-};
+use exobound_sdk::wire::{NamedFields, REFERENCE_DRAWS, ReferenceInfo};
+use exobound_sdk::{CellState, Impact, InFlight, LaunchRequest, Outcome, RngKey, Velocity, stream};
 use serde::Serialize;
 
 use super::error::{DomainError, HostError, ModuleError};
 use super::{LoadedModule, Runtime};
 
-/// Records averaged by a stochastic reference check, dimensionless.
-pub const STOCHASTIC_DRAWS: u64 = 100_000;
-/// Run seed of the stochastic reference checks.
-pub const REFERENCE_SEED: u64 = 0x00E0_B0D5;
+/// Records averaged by a stochastic reference check, dimensionless (the
+/// SDK's, so that `exobound_sdk::testing` computes the same average natively).
+pub const STOCHASTIC_DRAWS: u64 = REFERENCE_DRAWS;
+/// Run seed of the stochastic reference checks (the SDK's, as above).
+pub const REFERENCE_SEED: u64 = exobound_sdk::wire::REFERENCE_SEED;
 
 /// The outcome of one reference point.
 #[derive(Clone, Debug, Serialize)]

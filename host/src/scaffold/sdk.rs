@@ -23,6 +23,7 @@ pub const COPY_DIR: &str = "exobound-sdk";
 pub const SOURCES: &[(&str, &str)] = &[
     ("src/abi.rs", include_str!("../../../process-sdk/src/abi.rs")),
     ("src/constants.rs", include_str!("../../../process-sdk/src/constants.rs")),
+    ("src/launch_law.rs", include_str!("../../../process-sdk/src/launch_law.rs")),
     ("src/lib.rs", include_str!("../../../process-sdk/src/lib.rs")),
     ("src/manifest.rs", include_str!("../../../process-sdk/src/manifest.rs")),
     ("src/math.rs", include_str!("../../../process-sdk/src/math.rs")),
@@ -32,6 +33,8 @@ pub const SOURCES: &[(&str, &str)] = &[
     ("src/roles.rs", include_str!("../../../process-sdk/src/roles.rs")),
     ("src/sample.rs", include_str!("../../../process-sdk/src/sample.rs")),
     ("src/table.rs", include_str!("../../../process-sdk/src/table.rs")),
+    ("src/testing.rs", include_str!("../../../process-sdk/src/testing.rs")),
+    ("src/wire.rs", include_str!("../../../process-sdk/src/wire.rs")),
 ];
 
 /// The SDK's own Cargo.toml, which inherits from the workspace's.

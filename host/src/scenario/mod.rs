@@ -23,7 +23,7 @@ use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
-use exobound_sdk::manifest::ParamKindInfo;
+use exobound_sdk::wire::ParamKindInfo;
 use exobound_sdk::{ParamValue, Role};
 
 pub use file::ScenarioFile;
@@ -740,7 +740,7 @@ impl Validator<'_> {
         &self,
         label: &str,
         given: &toml::Table,
-        schema: &[exobound_sdk::ParamInfo],
+        schema: &[exobound_sdk::wire::ParamInfo],
     ) -> Result<(BTreeMap<String, ParamValue>, Vec<table::TableUse>), ScenarioError> {
         let mut out = BTreeMap::new();
         let mut tables = Vec::new();

@@ -587,7 +587,7 @@ mod tests {
     }
 
     #[test]
-    fn worked_hops_match_check_values() {
+    fn worked_hops_match_the_range_equation() {
         let moon = Body::moon();
         let mercury = Body::mercury();
         let cases = [

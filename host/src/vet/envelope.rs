@@ -11,9 +11,10 @@
 
 use std::collections::BTreeMap;
 
+use exobound_sdk::wire::ManifestInfo;
 use exobound_sdk::{
-    CellState, Impact, InFlight, LaunchRequest, ManifestInfo, Outcome, ParamValue, RngKey, Role,
-    Velocity, flags, stream,
+    CellState, Impact, InFlight, LaunchRequest, Outcome, ParamValue, RngKey, Role, Velocity, flags,
+    stream,
 };
 
 use crate::runtime::{DomainError, HostError, ProcessInstance};

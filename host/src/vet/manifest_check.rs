@@ -9,7 +9,8 @@
 //! role the module declares, each with its own source, and text that prints
 //! as it reads (no terminal control or invisible formatting characters).
 
-use exobound_sdk::{ManifestInfo, ParamValue, Role};
+use exobound_sdk::wire::ManifestInfo;
+use exobound_sdk::{ParamValue, Role};
 
 use super::{Check, Status};
 use crate::runtime::HostError;
@@ -264,7 +265,8 @@ mod tests {
     #[test]
     fn hidden_characters_anywhere_in_the_manifest_fail_the_check_naming_the_field() {
         use super::{Status, completeness};
-        use exobound_sdk::{ManifestInfo, ParamInfo, ParamValue, ReferenceInfo};
+        use exobound_sdk::ParamValue;
+        use exobound_sdk::wire::{ManifestInfo, ParamInfo, ReferenceInfo};
         let clean = ManifestInfo {
             name: "clean".into(),
             version: "1.0.0".into(),
@@ -297,6 +299,7 @@ mod tests {
                 tolerance: 1e-9,
                 source: "a table".into(),
             }],
+            launch_laws: Vec::new(),
         };
         assert_eq!(completeness(&clean).status, Status::Pass, "{:?}", completeness(&clean));
         type Edit = fn(&mut ManifestInfo);

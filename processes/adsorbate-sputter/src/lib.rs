@@ -20,7 +20,8 @@
 //! Accounting. The sputtered atoms leave energetic, with a Sigmund-Thompson
 //! spectrum whose median is (1 + sqrt 2) U and whose tail reaches far above
 //! the escape energy of Na from the Moon (0.67 eV) and from Mercury
-//! (2.15 eV; both C from the escape speeds of check-values §1), so most of
+//! (2.15 eV; both (1/2) m v_esc^2 with v_esc = sqrt(2GM/R) from the GM and
+//! mean radius of JPL's planetary physical parameters, DE440), so most of
 //! them escape. The module does not launch them: the host books the removed
 //! atoms in the ledger column `sputtered-escape`, i.e. they are reported as
 //! having escaped rather than followed as particles. Use the `ion-sputter`
@@ -143,31 +144,22 @@ impl Process for AdsorbateSputter {
 }
 
 impl ReservoirProcess for AdsorbateSputter {
-    fn exchange(&mut self, cells: &[CellState], rates: &mut [f64]) -> Result<(), ProcessError> {
-        if cells.len() != rates.len() {
+    fn exchange_one(&self, cell: &CellState) -> Result<f64, ProcessError> {
+        let flux_ok = cell.solar_wind_flux.is_finite() && cell.solar_wind_flux >= 0.0;
+        let pool_ok = cell.adsorbed.is_finite() && cell.adsorbed >= 0.0;
+        if !(flux_ok && pool_ok) {
             return Err(ProcessError::new(
                 ErrorCode::InvalidInput,
-                format!("{} cells but {} rate slots", cells.len(), rates.len()),
+                format!(
+                    "cell {}: solar-wind flux {} ions cm^-2 s^-1 and adsorbed density {} \
+                     atoms cm^-2; both must be finite and >= 0",
+                    cell.cell, cell.solar_wind_flux, cell.adsorbed
+                ),
             ));
         }
-        for (cell, rate) in cells.iter().zip(rates.iter_mut()) {
-            let flux_ok = cell.solar_wind_flux.is_finite() && cell.solar_wind_flux >= 0.0;
-            let pool_ok = cell.adsorbed.is_finite() && cell.adsorbed >= 0.0;
-            if !(flux_ok && pool_ok) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: solar-wind flux {} ions cm^-2 s^-1 and adsorbed density {} \
-                         atoms cm^-2; both must be finite and >= 0",
-                        cell.cell, cell.solar_wind_flux, cell.adsorbed
-                    ),
-                ));
-            }
-            // Out of the pool (< 0); the host caps a step's removal by the
-            // pool and books it under `sputtered-escape`.
-            *rate = self.exchange_rate(cell.solar_wind_flux, cell.adsorbed);
-        }
-        Ok(())
+        // Out of the pool (< 0); the host caps a step's removal by the
+        // pool and books it under `sputtered-escape`.
+        Ok(self.exchange_rate(cell.solar_wind_flux, cell.adsorbed))
     }
 }
 
@@ -175,39 +167,18 @@ exobound_sdk::export_process!(AdsorbateSputter: ReservoirProcess);
 
 #[cfg(test)]
 mod tests {
-    use std::collections::BTreeMap;
-
-    use exobound_sdk::{NamedFields, ParamValue};
+    use exobound_sdk::testing::{self, Roles};
 
     use super::*;
-
-    /// The parameter schema exactly as the host decodes it from the manifest.
-    fn schema() -> Vec<exobound_sdk::ParamInfo> {
-        AdsorbateSputter::MANIFEST.to_info().parameters
-    }
-
-    /// The law built from `given` through the same decode/validate path as `init`.
-    fn law_with(given: &[(&str, ParamValue)]) -> AdsorbateSputter {
-        let map: BTreeMap<String, ParamValue> =
-            given.iter().map(|(k, v)| (k.to_string(), v.clone())).collect();
-        let params = Params::decode(&Params::encode(&map), &schema()).expect("valid parameters");
-        AdsorbateSputter::new(&params).expect("law builds")
-    }
 
     /// Cell 30 with ion flux `flux` (ions cm^-2 s^-1) holding `adsorbed` atoms cm^-2.
     fn cell(flux: f64, adsorbed: f64) -> CellState {
         CellState { cell: 30, solar_wind_flux: flux, adsorbed, ..CellState::default() }
     }
 
-    /// The exchange rate of one cell, atoms cm^-2 s^-1, through the batch interface.
-    fn one(law: &mut AdsorbateSputter, c: CellState) -> Result<f64, ProcessError> {
-        let mut out = [f64::NAN];
-        law.exchange(&[c], &mut out).map(|()| out[0])
-    }
-
     #[test]
     fn defaults_and_ledger_label() {
-        let law = law_with(&[]);
+        let law = testing::law::<AdsorbateSputter>(&[]);
         // Order of magnitude (common practice): Y = 0.01 atom/ion (Brötzner et al. 2024,
         // abstract, H and He weighted 96:4) over a monolayer of 1e15 atoms cm^-2.
         assert!((law.cross_section - 0.01 / 1.0e15).abs() < 1e-30);
@@ -221,19 +192,20 @@ mod tests {
 
     #[test]
     fn removal_is_first_order_in_flux_and_coverage() {
-        let mut law = law_with(&[("cross_section", ParamValue::Number(1.0e-16))]);
+        let law = testing::law::<AdsorbateSputter>(&[("cross_section", Value::Number(1.0e-16))]);
+        let one = |c: CellState| law.exchange_one(&c).unwrap();
         // The law: R = -sigma F N_s = -1e-16 * 1e8 * 1e10 = -100.
-        let r = one(&mut law, cell(1.0e8, 1.0e10)).unwrap();
+        let r = one(cell(1.0e8, 1.0e10));
         assert!((r + 100.0).abs() <= 1e-12 * 100.0, "{r}");
         // Linear in N_s and in F (first order in each, the law).
-        let r2 = one(&mut law, cell(1.0e8, 2.0e10)).unwrap();
-        let r3 = one(&mut law, cell(3.0e8, 1.0e10)).unwrap();
+        let r2 = one(cell(1.0e8, 2.0e10));
+        let r3 = one(cell(3.0e8, 1.0e10));
         assert!((r2 / r - 2.0).abs() < 1e-15 && (r3 / r - 3.0).abs() < 1e-15);
         // The rate only ever removes (sign convention of ReservoirProcess).
         assert!(r < 0.0);
         // Shielded or empty: nothing happens (exactly 0, also not -0 in effect).
-        assert_eq!(one(&mut law, cell(0.0, 1.0e10)).unwrap(), 0.0);
-        assert_eq!(one(&mut law, cell(1.0e8, 0.0)).unwrap(), 0.0);
+        assert_eq!(one(cell(0.0, 1.0e10)), 0.0);
+        assert_eq!(one(cell(1.0e8, 0.0)), 0.0);
         // Lifetime 1/(sigma F) = 1e8 s at 1e8 ions cm^-2 s^-1 (the law).
         assert!((law.lifetime(1.0e8) - 1.0e8).abs() < 1e-4);
         assert!(law.lifetime(0.0).is_infinite());
@@ -242,60 +214,30 @@ mod tests {
     /// The manifest's promises, run the way the host's `module check` does.
     #[test]
     fn manifest_reference_points_hold() {
-        for point in AdsorbateSputter::MANIFEST.reference_points {
-            assert_eq!(point.check, Check::Exchange);
-            let given: Vec<(&str, ParamValue)> = point
-                .parameters
-                .iter()
-                .map(|(k, v)| match v {
-                    Value::Number(x) => (*k, ParamValue::Number(*x)),
-                    Value::Text(s) => (*k, ParamValue::Text(s.to_string())),
-                })
-                .collect();
-            let mut law = law_with(&given);
-            let mut c = CellState::default();
-            for (k, v) in point.input {
-                assert!(c.set_field(k, *v), "unknown field {k}");
-            }
-            let got = one(&mut law, c).unwrap();
-            // Expected values and their sources are stated in each point.
-            let scale = if point.expected == 0.0 { 1.0 } else { point.expected.abs() };
-            assert!(
-                (got - point.expected).abs() <= point.tolerance * scale,
-                "{}: got {got}, expected {}",
-                point.description,
-                point.expected
-            );
-        }
+        testing::assert_reference_points(&Roles::<AdsorbateSputter>::new().reservoir());
     }
 
     #[test]
     fn batch_results_do_not_depend_on_order() {
-        let mut law = law_with(&[]);
-        let (a, b) = (cell(2.0e8, 5.0e11), cell(7.0e7, 3.0e12));
-        let mut ab = [0.0; 2];
-        let mut ba = [0.0; 2];
-        law.exchange(&[a, b], &mut ab).unwrap();
-        law.exchange(&[b, a], &mut ba).unwrap();
-        assert_eq!(ab, [ba[1], ba[0]]);
+        let mut law = testing::law::<AdsorbateSputter>(&[]);
+        let cells = [cell(2.0e8, 5.0e11), cell(7.0e7, 3.0e12), cell(0.0, 1.0e12)];
+        testing::assert_batch_invariant("exchange", &cells, |c, r| law.exchange(c, r));
     }
 
     #[test]
     fn refuses_nonsense_inputs_and_parameters() {
-        let mut law = law_with(&[]);
-        let err = one(&mut law, cell(-1.0, 1.0e10)).unwrap_err();
+        let law = testing::law::<AdsorbateSputter>(&[]);
+        let err = law.exchange_one(&cell(-1.0, 1.0e10)).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
         assert!(err.message.contains("cell 30"), "{err}");
-        assert_eq!(one(&mut law, cell(1e8, f64::NAN)).unwrap_err().code, ErrorCode::InvalidInput);
-        assert_eq!(one(&mut law, cell(1e8, -5.0)).unwrap_err().code, ErrorCode::InvalidInput);
-        let mut out = [0.0; 2];
         assert_eq!(
-            law.exchange(&[cell(1e8, 1e10)], &mut out).unwrap_err().code,
+            law.exchange_one(&cell(1e8, f64::NAN)).unwrap_err().code,
             ErrorCode::InvalidInput
         );
-        let map: BTreeMap<String, ParamValue> =
-            [("cross_section".to_string(), ParamValue::Number(1.0e-12))].into();
-        let err = Params::validate(&map, &schema()).unwrap_err();
+        assert_eq!(law.exchange_one(&cell(1e8, -5.0)).unwrap_err().code, ErrorCode::InvalidInput);
+        let err =
+            testing::validate::<AdsorbateSputter>(&[("cross_section", Value::Number(1.0e-12))])
+                .unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidParameter);
         assert!(err.message.contains("cross_section") && err.message.contains("cm^2"), "{err}");
     }

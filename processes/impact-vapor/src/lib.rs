@@ -60,11 +60,13 @@
 //! showers, which the host can carry through `meteoroid_factor`.
 
 use exobound_sdk::{
-    CellState, Check, ErrorCode, Input, LaunchRequest, Manifest, Origin, ParamKind, ParamSpec,
-    Params, Pool, Process, ProcessError, ReferencePoint, Rng, Role, Source, Value, Velocity, math,
+    CellState, Check, DirectionLaw, ErrorCode, Input, LaunchLaw, LaunchRequest, Manifest, Origin,
+    ParamKind, ParamSpec, Params, Pool, Process, ProcessError, Quantity, ReferencePoint, Rng, Role,
+    Source, SpeedLaw, Value, Velocity, math,
 };
 
-/// Mass of one Na atom, kg (22.98976928 u, IUPAC; check-values §2), used by
+/// Mass of one Na atom, kg (22.98976928 u, the IUPAC standard atomic weight;
+/// Prohaska et al. 2022, Pure Appl. Chem. 94, 573), used by
 /// the launch-speed reference point.
 const NA_MASS: f64 = 22.989_769_28 * exobound_sdk::constants::ATOMIC_MASS;
 
@@ -387,8 +389,8 @@ impl Process for ImpactVapor {
                 // u = 1.66053906660e-27 kg (the SDK's constants).
                 expected: 1_958.220_582_885_396,
                 tolerance: 0.01,
-                source: "check-values §6, Maxwellian flux mean speed (3 sqrt(pi)/4) a (C), \
-                         evaluated for Na at 3000 K",
+                source: "mean of the Maxwellian flux (3 sqrt(pi)/4) sqrt(2kT/m), evaluated for \
+                         Na at 3000 K (closed form; tests/python/module_reference_values.py)",
             },
         ],
     };
@@ -434,87 +436,69 @@ fn usable_factor(x: f64) -> bool {
 }
 
 impl Source for ImpactVapor {
-    fn release_rate(&mut self, cells: &[CellState], rates: &mut [f64]) -> Result<(), ProcessError> {
-        if cells.len() != rates.len() {
-            return Err(ProcessError::new(
-                ErrorCode::InvalidInput,
-                format!("{} cells but {} rate slots", cells.len(), rates.len()),
-            ));
-        }
-        for (cell, rate) in cells.iter().zip(rates.iter_mut()) {
-            if !usable_factor(cell.bulk_abundance) || !usable_factor(cell.meteoroid_factor) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: bulk abundance {} and meteoroid factor {}; both must be \
-                         finite and >= 0",
-                        cell.cell, cell.bulk_abundance, cell.meteoroid_factor
-                    ),
-                ));
-            }
-            // The position is judged only when the pattern reads it: a
-            // uniform source has no use for it, and refusing a record over
-            // a field the law ignores would only break other hosts. The
-            // latitude check also keeps cos(latitude) >= 0, which the
-            // fractional power in the equator factor needs.
-            let position_ok =
-                cell.latitude.abs() <= core::f64::consts::FRAC_PI_2 && cell.local_time.is_finite();
-            if self.reads_position() && !position_ok {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: latitude {} rad and local time {} h; the latitude must lie \
-                         in [-pi/2, pi/2] and the local time must be finite",
-                        cell.cell, cell.latitude, cell.local_time
-                    ),
-                ));
-            }
-            // The vapour comes out of the grains, not the adsorbed pool, so
-            // the rate does not depend on `adsorbed` and the host depletes
-            // nothing (draws_on = bulk).
-            *rate = self.flux
-                * cell.bulk_abundance
-                * cell.meteoroid_factor
-                * self.pattern_factor(cell.latitude, cell.local_time);
-        }
-        Ok(())
-    }
+    /// Maxwellian-flux speeds at the vapour temperature, cosine-law
+    /// directions (see `launch_one`).
+    const LAUNCH_LAWS: &'static [LaunchLaw] = &[LaunchLaw {
+        when: &[],
+        speed: SpeedLaw::MaxwellianFlux { temperature: Quantity::Param("vapor_temperature") },
+        direction: DirectionLaw::Cosine,
+    }];
 
-    fn launch(
-        &mut self,
-        requests: &[LaunchRequest],
-        velocities: &mut [Velocity],
-    ) -> Result<(), ProcessError> {
-        if requests.len() != velocities.len() {
+    fn release_rate_one(&self, cell: &CellState) -> Result<f64, ProcessError> {
+        if !usable_factor(cell.bulk_abundance) || !usable_factor(cell.meteoroid_factor) {
             return Err(ProcessError::new(
                 ErrorCode::InvalidInput,
                 format!(
-                    "{} launch requests but {} velocity slots",
-                    requests.len(),
-                    velocities.len()
+                    "cell {}: bulk abundance {} and meteoroid factor {}; both must be finite \
+                     and >= 0",
+                    cell.cell, cell.bulk_abundance, cell.meteoroid_factor
                 ),
             ));
         }
-        for (req, v) in requests.iter().zip(velocities.iter_mut()) {
-            if !(req.mass.is_finite() && req.mass > 0.0) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: atomic mass {} kg; it must be finite and > 0",
-                        req.cell, req.mass
-                    ),
-                ));
-            }
-            // Atoms crossing the surface of a vapour in equilibrium at T_v:
-            // Maxwellian flux speeds and cosine-law directions. The surface
-            // temperature plays no part. One stream per record, speed first.
-            // The vapour temperature was range-checked by the schema, so
-            // only the mass needs checking per record.
-            let mut rng = Rng::new(req.key);
-            let speed = rng.maxwellian_flux_speed(self.vapor_temperature, req.mass);
-            *v = rng.cosine_direction().times(speed);
+        // The position is judged only when the pattern reads it: a uniform
+        // source has no use for it, and refusing a record over a field the
+        // law ignores would only break other hosts. The latitude check also
+        // keeps cos(latitude) >= 0, which the fractional power in the
+        // equator factor needs.
+        let position_ok =
+            cell.latitude.abs() <= core::f64::consts::FRAC_PI_2 && cell.local_time.is_finite();
+        if self.reads_position() && !position_ok {
+            return Err(ProcessError::new(
+                ErrorCode::InvalidInput,
+                format!(
+                    "cell {}: latitude {} rad and local time {} h; the latitude must lie in \
+                     [-pi/2, pi/2] and the local time must be finite",
+                    cell.cell, cell.latitude, cell.local_time
+                ),
+            ));
         }
-        Ok(())
+        // The vapour comes out of the grains, not the adsorbed pool, so the
+        // rate does not depend on `adsorbed` and the host depletes nothing
+        // (draws_on = bulk).
+        Ok(self.flux
+            * cell.bulk_abundance
+            * cell.meteoroid_factor
+            * self.pattern_factor(cell.latitude, cell.local_time))
+    }
+
+    fn launch_one(&self, req: &LaunchRequest) -> Result<Velocity, ProcessError> {
+        if !(req.mass.is_finite() && req.mass > 0.0) {
+            return Err(ProcessError::new(
+                ErrorCode::InvalidInput,
+                format!(
+                    "cell {}: atomic mass {} kg; it must be finite and > 0",
+                    req.cell, req.mass
+                ),
+            ));
+        }
+        // Atoms crossing the surface of a vapour in equilibrium at T_v:
+        // Maxwellian flux speeds and cosine-law directions. The surface
+        // temperature plays no part. One stream per record, speed first. The
+        // vapour temperature was range-checked by the schema, so only the
+        // mass needs checking per record.
+        let mut rng = Rng::new(req.key);
+        let speed = rng.maxwellian_flux_speed(self.vapor_temperature, req.mass);
+        Ok(rng.cosine_direction().times(speed))
     }
 }
 
@@ -522,41 +506,18 @@ exobound_sdk::export_process!(ImpactVapor: Source);
 
 #[cfg(test)]
 mod tests {
-    use std::collections::BTreeMap;
-
     use exobound_sdk::constants::{ATOMIC_MASS, BOLTZMANN};
     use exobound_sdk::sample::thermal_speed;
-    use exobound_sdk::{NamedFields, ParamValue, RngKey, stream};
+    use exobound_sdk::testing::{self, Roles};
 
     use super::*;
 
     use core::f64::consts::{FRAC_PI_2, PI};
 
-    /// Kolmogorov-Smirnov critical value at p = 0.01, times sqrt(N)
-    /// (asymptotic Kolmogorov distribution; Press et al., Numerical Recipes §14.3).
-    const KS_1PC: f64 = 1.628;
-
-    /// The parameter schema exactly as the host decodes it from the manifest.
-    fn schema() -> Vec<exobound_sdk::ParamInfo> {
-        ImpactVapor::MANIFEST.to_info().parameters
-    }
-
-    /// The law built from `given` through the same decode/validate path as `init`.
-    fn law_with(given: &[(&str, ParamValue)]) -> ImpactVapor {
-        let map: BTreeMap<String, ParamValue> =
-            given.iter().map(|(k, v)| (k.to_string(), v.clone())).collect();
-        let params = Params::decode(&Params::encode(&map), &schema()).expect("valid parameters");
-        ImpactVapor::new(&params).expect("law builds")
-    }
-
-    /// A number parameter value.
-    fn num(x: f64) -> ParamValue {
-        ParamValue::Number(x)
-    }
-
-    /// A choice parameter value.
-    fn text(s: &str) -> ParamValue {
-        ParamValue::Text(s.to_string())
+    /// The law with the parameters `given` (others at their defaults), built
+    /// as the module's `init` builds it.
+    fn law_with(given: &[(&str, Value)]) -> ImpactVapor {
+        testing::law(given)
     }
 
     /// Cell 9 at `latitude` rad and `local_time` h, nominal regolith and dust.
@@ -571,23 +532,11 @@ mod tests {
         }
     }
 
-    /// The release rate of one cell, atoms cm^-2 s^-1, through the batch interface.
-    fn one(law: &mut ImpactVapor, c: CellState) -> Result<f64, ProcessError> {
-        let mut out = [f64::NAN];
-        law.release_rate(&[c], &mut out).map(|()| out[0])
-    }
-
     /// `n` launches of atoms of `mass` kg from cell 4, each with its own key.
     fn requests(n: u64, mass: f64, surface_temperature: f64) -> Vec<LaunchRequest> {
-        (0..n)
-            .map(|i| LaunchRequest {
-                key: RngKey { seed: 77, particle: i, event: 0, stream: stream::LAUNCH },
-                cell: 4,
-                temperature: surface_temperature,
-                mass,
-                ..LaunchRequest::default()
-            })
-            .collect()
+        let base =
+            LaunchRequest { cell: 4, temperature: surface_temperature, mass, ..Default::default() };
+        testing::draws(base, n, 77)
     }
 
     /// Sphere average of the law's pattern, dimensionless, by the midpoint
@@ -667,8 +616,8 @@ mod tests {
             let got = equator_mean(n);
             assert!((got - want).abs() < 1e-14, "C({n}) = {got}, want {want}");
         }
-        // C(50) = 0.17464095287360928, computed independently with Python 3's
-        // math.lgamma (the C library's lgamma) from the same closed form.
+        // C(50) = 0.1746409528736113 (mpmath at 40 digits, from the closed form and by
+        // quadrature of cos^51; tests/python/module_reference_values.py).
         assert!((equator_mean(50.0) - 0.174_640_952_873_609_28).abs() < 1e-13);
     }
 
@@ -678,64 +627,66 @@ mod tests {
         // is exactly 1 and `flux` stays the global mean; a fine quadrature confirms it.
         // The cases span the schema: A at both ends, n from 0 (uniform) through
         // fractional values (non-smooth at the poles) to the largest allowed.
-        let mut cases = vec![(text("uniform"), 0.0, 0.0)];
+        let mut cases = vec![(Value::Text("uniform"), 0.0, 0.0)];
         for a in [0.0, 0.4, 1.0] {
-            cases.push((text("apex"), a, 0.0));
+            cases.push((Value::Text("apex"), a, 0.0));
         }
         for n in [0.0, 0.5, 1.0, 2.0, 3.7, 10.0, 50.0] {
-            cases.push((text("equator"), 0.0, n));
+            cases.push((Value::Text("equator"), 0.0, n));
             for a in [0.5, 1.0] {
-                cases.push((text("apex-equator"), a, n));
+                cases.push((Value::Text("apex-equator"), a, n));
             }
         }
         for (pattern, a, n) in cases {
             let law = law_with(&[
-                ("pattern", pattern.clone()),
-                ("apex_asymmetry", num(a)),
-                ("equator_exponent", num(n)),
+                ("pattern", pattern),
+                ("apex_asymmetry", Value::Number(a)),
+                ("equator_exponent", Value::Number(n)),
             ]);
             let mean = sphere_average(&law, 20_000);
-            assert!((mean - 1.0).abs() < 1e-8, "{pattern} A = {a} n = {n}: average {mean}");
+            assert!((mean - 1.0).abs() < 1e-8, "{pattern:?} A = {a} n = {n}: average {mean}");
         }
     }
 
     #[test]
     fn release_rate_follows_the_law() {
-        let mut law = law_with(&[("flux", num(1.0e6))]);
+        let law = law_with(&[("flux", Value::Number(1.0e6))]);
         // The law, uniform pattern: Phi = flux b m_f.
-        assert_eq!(one(&mut law, cell(0.3, 14.0)).unwrap(), 1.0e6);
+        assert_eq!(law.release_rate_one(&cell(0.3, 14.0)).unwrap(), 1.0e6);
         let rich = CellState { bulk_abundance: 2.0, ..cell(0.0, 0.0) };
-        assert_eq!(one(&mut law, rich).unwrap(), 2.0e6);
+        assert_eq!(law.release_rate_one(&rich).unwrap(), 2.0e6);
         let shower = CellState { meteoroid_factor: 3.5, ..cell(0.0, 0.0) };
-        assert_eq!(one(&mut law, shower).unwrap(), 3.5e6);
+        assert_eq!(law.release_rate_one(&shower).unwrap(), 3.5e6);
         let barren = CellState { bulk_abundance: 0.0, ..cell(0.0, 0.0) };
-        assert_eq!(one(&mut law, barren).unwrap(), 0.0);
+        assert_eq!(law.release_rate_one(&barren).unwrap(), 0.0);
 
-        let mut apex = law_with(&[("flux", num(1.0e6)), ("pattern", text("apex"))]);
+        let apex = law_with(&[("flux", Value::Number(1.0e6)), ("pattern", Value::Text("apex"))]);
         // P = 1 + A cos(psi), A = 0.4 (default): 1.4 at the apex (6 h, equator), 0.6 at the
         // antapex (18 h), 1 on the noon and midnight meridians and at the poles (psi = 90 deg).
-        let p = |law: &mut ImpactVapor, lat: f64, lt: f64| one(law, cell(lat, lt)).unwrap() / 1e6;
-        assert!((p(&mut apex, 0.0, 6.0) - 1.4).abs() < 1e-15);
-        assert!((p(&mut apex, 0.0, 18.0) - 0.6).abs() < 1e-15);
-        assert!((p(&mut apex, 0.0, 12.0) - 1.0).abs() < 1e-15);
-        assert!((p(&mut apex, 0.0, 0.0) - 1.0).abs() < 1e-15);
-        assert!((p(&mut apex, FRAC_PI_2, 6.0) - 1.0).abs() < 1e-15);
+        let p = |law: &ImpactVapor, lat: f64, lt: f64| {
+            law.release_rate_one(&cell(lat, lt)).unwrap() / 1e6
+        };
+        assert!((p(&apex, 0.0, 6.0) - 1.4).abs() < 1e-15);
+        assert!((p(&apex, 0.0, 18.0) - 0.6).abs() < 1e-15);
+        assert!((p(&apex, 0.0, 12.0) - 1.0).abs() < 1e-15);
+        assert!((p(&apex, 0.0, 0.0) - 1.0).abs() < 1e-15);
+        assert!((p(&apex, FRAC_PI_2, 6.0) - 1.0).abs() < 1e-15);
         // Spherical law of cosines: 45 deg north at 9 h is cos(45) cos(45) = 1/2 from the apex.
         let lat45 = PI / 4.0;
-        assert!((p(&mut apex, lat45, 9.0) - 1.2).abs() < 1e-15);
+        assert!((p(&apex, lat45, 9.0) - 1.2).abs() < 1e-15);
         // Local time is periodic: 30 h is 6 h.
-        assert!((p(&mut apex, 0.0, 30.0) - 1.4).abs() < 1e-14);
+        assert!((p(&apex, 0.0, 30.0) - 1.4).abs() < 1e-14);
 
-        let mut eq = law_with(&[
-            ("flux", num(1.0e6)),
-            ("pattern", text("equator")),
-            ("equator_exponent", num(2.0)),
+        let eq = law_with(&[
+            ("flux", Value::Number(1.0e6)),
+            ("pattern", Value::Text("equator")),
+            ("equator_exponent", Value::Number(2.0)),
         ]);
         // cos^2(lat) / (2/3) (derivation): 1.5 on the equator, 0.75 at 45 deg, 0 at the pole.
-        assert!((p(&mut eq, 0.0, 3.0) - 1.5).abs() < 1e-14);
-        assert!((p(&mut eq, -lat45, 3.0) - 0.75).abs() < 1e-14);
-        assert!(p(&mut eq, FRAC_PI_2, 3.0).abs() < 1e-30);
-        assert!(p(&mut eq, -FRAC_PI_2, 3.0) >= 0.0);
+        assert!((p(&eq, 0.0, 3.0) - 1.5).abs() < 1e-14);
+        assert!((p(&eq, -lat45, 3.0) - 0.75).abs() < 1e-14);
+        assert!(p(&eq, FRAC_PI_2, 3.0).abs() < 1e-30);
+        assert!(p(&eq, -FRAC_PI_2, 3.0) >= 0.0);
     }
 
     /// The manifest's promises, run the way the host's `module check` does:
@@ -743,62 +694,28 @@ mod tests {
     /// the stochastic check averaged over 100 000 draws with fixed keys.
     #[test]
     fn manifest_reference_points_hold() {
-        for point in ImpactVapor::MANIFEST.reference_points {
-            let given: Vec<(&str, ParamValue)> = point
-                .parameters
-                .iter()
-                .map(|(k, v)| match v {
-                    Value::Number(x) => (*k, num(*x)),
-                    Value::Text(s) => (*k, text(s)),
-                })
-                .collect();
-            let mut law = law_with(&given);
-            let got = match point.check {
-                Check::ReleaseRate => {
-                    let mut c = CellState::default();
-                    for (k, v) in point.input {
-                        assert!(c.set_field(k, *v), "unknown field {k}");
-                    }
-                    one(&mut law, c).unwrap()
-                }
-                Check::MeanLaunchSpeed => {
-                    let mut r = LaunchRequest::default();
-                    for (k, v) in point.input {
-                        assert!(r.set_field(k, *v), "unknown field {k}");
-                    }
-                    // Standard error of the mean: 0.363 <v> / sqrt(1e5) = 0.11% of <v>,
-                    // a ninth of the 1% tolerance.
-                    let n = 100_000;
-                    let reqs: Vec<LaunchRequest> = (0..n)
-                        .map(|i| LaunchRequest {
-                            key: RngKey { seed: 13, particle: i, event: 0, stream: stream::LAUNCH },
-                            ..r
-                        })
-                        .collect();
-                    let mut vs = vec![Velocity::ZERO; reqs.len()];
-                    law.launch(&reqs, &mut vs).unwrap();
-                    vs.iter().map(Velocity::speed).sum::<f64>() / n as f64
-                }
-                other => panic!("unexpected check {other:?}"),
-            };
-            // Expected values and their sources are stated in each point.
-            assert!(
-                (got - point.expected).abs() <= point.tolerance * point.expected.abs(),
-                "{}: got {got}, expected {}",
-                point.description,
-                point.expected
-            );
-        }
+        testing::assert_reference_points(&Roles::<ImpactVapor>::new().source());
+    }
+
+    /// The launches against the laws declared in `LAUNCH_LAWS`, as `vet`
+    /// tests them (one-sample KS tests at p = 0.01 of speeds or energies and
+    /// of directions; the distribution functions and their sources are in
+    /// `exobound_sdk::launch_law`).
+    #[test]
+    fn launches_follow_the_declared_laws() {
+        let base = LaunchRequest { mass: NA_MASS, ..LaunchRequest::default() };
+        testing::assert_launch_laws::<ImpactVapor>(base, 20_000, 3);
     }
 
     #[test]
     fn mean_speed_reference_value_is_the_closed_form() {
-        // check-values §6: <v> = (3 sqrt(pi)/4) a, a = sqrt(2kT/m); recomputed here from
+        // Maxwellian flux: <v> = (3 sqrt(pi)/4) a, a = sqrt(2kT/m); recomputed here from
         // the SDK constants for Na at 3000 K, so the manifest's number cannot drift.
         let a = thermal_speed(3000.0, NA_MASS);
         let mean = 0.75 * PI.sqrt() * a;
         assert!((mean - 1_958.220_582_885_396).abs() < 1e-9, "{mean}");
-        // check-values §6 at 1200 K (a = 931.66 m/s, C) confirms the formula and constants.
+        // a = 931.66 m/s at 1200 K (tests/python/sampler_reference_values.py) confirms the
+        // formula and constants.
         assert!((thermal_speed(1200.0, NA_MASS) - 931.66).abs() < 0.005);
     }
 
@@ -814,26 +731,21 @@ mod tests {
         assert!(vs.iter().all(|v| v.up > 0.0), "every launch leaves the surface");
         let mut speeds: Vec<f64> = vs.iter().map(Velocity::speed).collect();
         let a = thermal_speed(3000.0, NA_MASS);
-        // check-values §6: <v> = (3 sqrt(pi)/4) a; sd = a sqrt(2 - 9 pi/16) (chi, 4 dof, C).
+        // Maxwellian flux: <v> = (3 sqrt(pi)/4) a; sd = a sqrt(2 - 9 pi/16) (moments of chi
+        // with 4 degrees of freedom, scipy.stats.chi(df=4)).
         let mean = speeds.iter().sum::<f64>() / nf;
         let sd = a * (2.0 - 9.0 * PI / 16.0).sqrt();
         assert!((mean - 0.75 * PI.sqrt() * a).abs() < 3.0 * sd / nf.sqrt(), "mean {mean}");
-        // check-values §6: <E> = 2kT, and Var(E) = 2 (kT)^2 for a Gamma(2) energy (C).
+        // <E> = 2kT, and Var(E) = 2 (kT)^2 for the flux's Gamma(2, kT) energy distribution.
         let kt = BOLTZMANN * 3000.0;
         let mean_e = speeds.iter().map(|v| 0.5 * NA_MASS * v * v).sum::<f64>() / nf;
         assert!((mean_e - 2.0 * kt).abs() < 3.0 * 2f64.sqrt() * kt / nf.sqrt(), "{mean_e}");
-        // check-values §6: CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2); KS at p = 0.01.
-        speeds.sort_by(f64::total_cmp);
-        let d = speeds
-            .iter()
-            .enumerate()
-            .map(|(i, &v)| {
-                let q = v * v / (a * a);
-                let f = 1.0 - (1.0 + q) * (-q).exp();
-                (f - i as f64 / nf).abs().max((f - (i + 1) as f64 / nf).abs())
-            })
-            .fold(0.0, f64::max);
-        assert!(d < KS_1PC / nf.sqrt(), "KS distance {d}");
+        // Maxwellian flux CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2) (integral of v^3
+        // exp(-v^2/a^2)); KS at p = 0.01.
+        testing::assert_ks("Maxwellian flux speed", &mut speeds, |v| {
+            let q = v * v / (a * a);
+            1.0 - (1.0 + q) * (-q).exp()
+        });
         // Cosine law: <cos theta> = 2/3, variance 1/18 (from f ~ cos theta sin theta,
         // common practice); azimuth isotropic, so <east> = 0 (symmetry).
         let mean_cos = vs.iter().map(|v| v.up / v.speed()).sum::<f64>() / nf;
@@ -844,43 +756,44 @@ mod tests {
 
     #[test]
     fn launch_depends_only_on_the_key_and_the_vapour() {
-        let mut law = law_with(&[("vapor_temperature", num(4500.0))]);
-        // K, 39.0983 u (check-values §2, F: IUPAC).
+        let mut law = law_with(&[("vapor_temperature", Value::Number(4500.0))]);
+        // K, 39.0983 u (IUPAC standard atomic weight; Prohaska et al. 2022, Pure Appl. Chem.
+        // 94, 573).
         let m = 39.0983 * ATOMIC_MASS;
-        let reqs = requests(2, m, 300.0);
-        let mut pair = [Velocity::ZERO; 2];
-        law.launch(&reqs, &mut pair).unwrap();
-        let mut swapped = [Velocity::ZERO; 2];
-        law.launch(&[reqs[1], reqs[0]], &mut swapped).unwrap();
-        // Counter-based streams: the batch order does not matter, the keys do.
-        assert_eq!(pair, [swapped[1], swapped[0]]);
-        assert_ne!(pair[0], pair[1]);
+        let reqs = requests(5, m, 300.0);
+        // Counter-based streams: the batch's order and cuts do not matter, the keys do.
+        testing::assert_batch_invariant("launch", &reqs, |r, v| law.launch(r, v));
+        let first = law.launch_one(&reqs[0]).unwrap();
+        assert_ne!(first, law.launch_one(&reqs[1]).unwrap());
         // The surface temperature is not read: a 700 K surface gives the same launch.
         let hot = LaunchRequest { temperature: 700.0, ..reqs[0] };
-        let mut v = [Velocity::ZERO];
-        law.launch(&[hot], &mut v).unwrap();
-        assert_eq!(v[0], pair[0]);
+        assert_eq!(law.launch_one(&hot).unwrap(), first);
+        let mut apex = law_with(&[("pattern", Value::Text("apex-equator"))]);
+        let cells = [cell(0.0, 6.0), cell(0.7, 18.0), cell(-1.2, 0.5)];
+        testing::assert_batch_invariant("release_rate", &cells, |c, r| apex.release_rate(c, r));
     }
 
     #[test]
     fn refuses_nonsense_inputs() {
-        let mut law = law_with(&[("pattern", text("apex"))]);
+        let law = law_with(&[("pattern", Value::Text("apex"))]);
         let bad_bulk = CellState { bulk_abundance: -1.0, ..cell(0.0, 6.0) };
-        let err = one(&mut law, bad_bulk).unwrap_err();
+        let err = law.release_rate_one(&bad_bulk).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
         assert!(err.message.contains("cell 9"), "{err}");
         let bad_dust = CellState { meteoroid_factor: f64::NAN, ..cell(0.0, 6.0) };
-        assert_eq!(one(&mut law, bad_dust).unwrap_err().code, ErrorCode::InvalidInput);
-        assert_eq!(one(&mut law, cell(2.0, 6.0)).unwrap_err().code, ErrorCode::InvalidInput);
-        assert_eq!(one(&mut law, cell(0.0, f64::NAN)).unwrap_err().code, ErrorCode::InvalidInput);
+        assert_eq!(law.release_rate_one(&bad_dust).unwrap_err().code, ErrorCode::InvalidInput);
+        assert_eq!(
+            law.release_rate_one(&cell(2.0, 6.0)).unwrap_err().code,
+            ErrorCode::InvalidInput
+        );
+        assert_eq!(
+            law.release_rate_one(&cell(0.0, f64::NAN)).unwrap_err().code,
+            ErrorCode::InvalidInput
+        );
         // The uniform pattern does not read the position, so it does not judge it.
-        let mut uniform = law_with(&[]);
-        assert_eq!(one(&mut uniform, cell(f64::NAN, 6.0)).unwrap(), 2.0e4);
-        let mut out = [0.0; 2];
-        let err = uniform.release_rate(&[cell(0.0, 0.0)], &mut out).unwrap_err();
-        assert_eq!(err.code, ErrorCode::InvalidInput);
-        let mut v = [Velocity::ZERO];
-        let err = uniform.launch(&requests(1, 0.0, 300.0), &mut v).unwrap_err();
+        let uniform = law_with(&[]);
+        assert_eq!(uniform.release_rate_one(&cell(f64::NAN, 6.0)).unwrap(), 2.0e4);
+        let err = uniform.launch_one(&requests(1, 0.0, 300.0)[0]).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
         assert!(err.message.contains("cell 4"), "{err}");
     }
@@ -889,16 +802,15 @@ mod tests {
     fn out_of_range_parameters_are_refused_by_the_schema() {
         // Each refused value names the parameter and the allowed range or options.
         for (name, value, needle) in [
-            ("apex_asymmetry", num(1.5), "[0, 1]"),
-            ("equator_exponent", num(-1.0), "[0, 50]"),
-            ("flux", num(-5.0), "cm^-2 s^-1"),
-            ("flux", num(2.0e10), "10000000000"),
-            ("vapor_temperature", num(50.0), "K"),
-            ("pattern", text("dawn"), "apex-equator"),
-            ("pattern", num(1.0), "options"),
+            ("apex_asymmetry", Value::Number(1.5), "[0, 1]"),
+            ("equator_exponent", Value::Number(-1.0), "[0, 50]"),
+            ("flux", Value::Number(-5.0), "cm^-2 s^-1"),
+            ("flux", Value::Number(2.0e10), "10000000000"),
+            ("vapor_temperature", Value::Number(50.0), "K"),
+            ("pattern", Value::Text("dawn"), "apex-equator"),
+            ("pattern", Value::Number(1.0), "options"),
         ] {
-            let map: BTreeMap<String, ParamValue> = [(name.to_string(), value)].into();
-            let err = Params::validate(&map, &schema()).unwrap_err();
+            let err = testing::validate::<ImpactVapor>(&[(name, value)]).unwrap_err();
             assert_eq!(err.code, ErrorCode::InvalidParameter);
             assert!(err.message.contains(name) && err.message.contains(needle), "{err}");
         }

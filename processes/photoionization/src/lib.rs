@@ -25,7 +25,7 @@
 //! rates; for Na, ionized from 241 nm down mostly by near-UV photons, the
 //! two differ modestly. `solar_activity` picks `rate_1au` (quiet Sun) or
 //! `rate_1au_active` (active Sun), whose default 7.26e-6 s^-1 for Na is
-//! recalled from the same table with low confidence (not in check-values);
+//! recalled from the same table with low confidence;
 //! give both for another species or epoch.
 //!
 //! What the law leaves out, so that a user can judge it:
@@ -43,10 +43,12 @@ use exobound_sdk::{
     Process, ProcessError, ReferencePoint, Role, Value,
 };
 
-/// Heliocentric distance of Mercury at perihelion, AU (check-values §1, F: fact sheets).
+/// Heliocentric distance of Mercury at perihelion, AU: q = a(1 - e) with
+/// a = 0.387098 AU and e = 0.20563 (NASA NSSDCA Mercury fact sheet).
 const MERCURY_PERIHELION_AU: f64 = 0.307_50;
 
-/// Heliocentric distance of Mercury at aphelion, AU (check-values §1, F: fact sheets).
+/// Heliocentric distance of Mercury at aphelion, AU: Q = a(1 + e) with
+/// a = 0.387098 AU and e = 0.20563 (NASA NSSDCA Mercury fact sheet).
 const MERCURY_APHELION_AU: f64 = 0.466_70;
 
 /// Default Na photoionization rate at 1 AU, quiet Sun, s^-1
@@ -155,41 +157,48 @@ impl Process for Photoionization {
                 input: &[("helio_distance", 1.0), ("sunlit_fraction", 1.0)],
                 expected: NA_RATE_1AU,
                 tolerance: 1.0e-9,
-                source: "check-values §2 (M: Huebner et al. 1992; Huebner & Mukherjee 2015)",
+                source: "Huebner, Keady & Lyon 1992, Astrophys. Space Sci. 195, 1, quiet-Sun Na \
+                         rate at 1 AU (from memory); Huebner & Mukherjee 2015, Planet. Space \
+                         Sci. 106, 11",
             },
             ReferencePoint {
                 description: "Na at Mercury perihelion (0.3075 AU), fully sunlit",
                 check: Check::LossRate,
                 parameters: &[],
                 input: &[("helio_distance", MERCURY_PERIHELION_AU), ("sunlit_fraction", 1.0)],
-                // 5.92e-6 / 0.3075^2 (check-values §2: rate(r) = rate(1 AU)/r^2, exact).
+                // 5.92e-6 / 0.3075^2: rate(r) = rate(1 AU)/r^2, exact
+                // (tests/python/module_reference_values.py).
                 expected: 6.260_823_583_845_6e-5,
                 tolerance: 1.0e-9,
-                source: "check-values §1 (q = 0.30750 AU, F) and §2 (r^-2 law, exact; \
-                         M: Huebner et al. 1992)",
+                source: "Huebner et al. 1992, Astrophys. Space Sci. 195, 1 (from memory), scaled \
+                         as r^-2 to q = 0.3075 AU (NASA NSSDCA Mercury fact sheet: a = \
+                         0.387098 AU, e = 0.20563)",
             },
             ReferencePoint {
                 description: "Na at Mercury aphelion (0.4667 AU), sunlit half the interval",
                 check: Check::LossRate,
                 parameters: &[],
                 input: &[("helio_distance", MERCURY_APHELION_AU), ("sunlit_fraction", 0.5)],
-                // 0.5 * 5.92e-6 / 0.4667^2 (check-values §2, r^-2 law, exact).
+                // 0.5 * 5.92e-6 / 0.4667^2 (r^-2 law, exact;
+                // tests/python/module_reference_values.py).
                 expected: 1.358_989_525_175_03e-5,
                 tolerance: 1.0e-9,
-                source: "check-values §1 (Q = 0.46670 AU, F) and §2 (r^-2 law, exact; \
-                         M: Huebner et al. 1992)",
+                source: "Huebner et al. 1992, Astrophys. Space Sci. 195, 1 (from memory), scaled \
+                         as r^-2 to Q = 0.4667 AU (NASA NSSDCA Mercury fact sheet: a = \
+                         0.387098 AU, e = 0.20563)",
             },
             ReferencePoint {
                 description: "Na at Mercury perihelion (0.3075 AU), fully sunlit, active Sun",
                 check: Check::LossRate,
                 parameters: &[("solar_activity", Value::Text("active"))],
                 input: &[("helio_distance", MERCURY_PERIHELION_AU), ("sunlit_fraction", 1.0)],
-                // 7.26e-6 / 0.3075^2 (r^-2 law, exact; mpmath).
+                // 7.26e-6 / 0.3075^2 (r^-2 law, exact; mpmath,
+                // tests/python/module_reference_values.py).
                 expected: 7.677_969_462_621_456e-5,
                 tolerance: 1.0e-9,
                 source: "from memory, low confidence: Huebner et al. 1992 active-Sun Na rate \
-                         7.26e-6 s^-1 (not in check-values); check-values §1 (q, F) and §2 \
-                         (r^-2 law, exact)",
+                         7.26e-6 s^-1, scaled as r^-2 to q = 0.3075 AU (NASA NSSDCA Mercury \
+                         fact sheet)",
             },
         ],
     };
@@ -211,38 +220,29 @@ impl Process for Photoionization {
 }
 
 impl Loss for Photoionization {
-    fn loss_rate(&mut self, particles: &[InFlight], rates: &mut [f64]) -> Result<(), ProcessError> {
-        if particles.len() != rates.len() {
+    fn loss_rate_one(&self, p: &InFlight) -> Result<f64, ProcessError> {
+        if !(p.helio_distance.is_finite() && p.helio_distance > 0.0) {
+            return Err(ProcessError::outside_validity(format!(
+                "particle {}: heliocentric distance {} AU; the r^-2 photon-flux law needs a \
+                 finite distance above 0 AU",
+                p.key.particle, p.helio_distance
+            )));
+        }
+        // A fraction outside [0, 1] (or NaN) means the host's shadow
+        // geometry is broken; refuse it rather than produce a negative or
+        // inflated loss.
+        if !(0.0..=1.0).contains(&p.sunlit_fraction) {
             return Err(ProcessError::new(
                 ErrorCode::InvalidInput,
-                format!("{} particles but {} rate slots", particles.len(), rates.len()),
+                format!(
+                    "particle {}: sunlit fraction {}; it must lie in [0, 1]",
+                    p.key.particle, p.sunlit_fraction
+                ),
             ));
         }
-        for (p, rate) in particles.iter().zip(rates.iter_mut()) {
-            if !(p.helio_distance.is_finite() && p.helio_distance > 0.0) {
-                return Err(ProcessError::outside_validity(format!(
-                    "particle {}: heliocentric distance {} AU; the r^-2 photon-flux law needs \
-                     a finite distance above 0 AU",
-                    p.key.particle, p.helio_distance
-                )));
-            }
-            // A fraction outside [0, 1] (or NaN) means the host's shadow
-            // geometry is broken; refuse it rather than produce a negative
-            // or inflated loss.
-            if !(0.0..=1.0).contains(&p.sunlit_fraction) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "particle {}: sunlit fraction {}; it must lie in [0, 1]",
-                        p.key.particle, p.sunlit_fraction
-                    ),
-                ));
-            }
-            // A rate, not a decision: the host integrates exp(-beta dt) or
-            // draws the event itself, so this law uses no random numbers.
-            *rate = self.rate(p.helio_distance, p.sunlit_fraction);
-        }
-        Ok(())
+        // A rate, not a decision: the host integrates exp(-beta dt) or draws
+        // the event itself, so this law uses no random numbers.
+        Ok(self.rate(p.helio_distance, p.sunlit_fraction))
     }
 }
 
@@ -250,21 +250,10 @@ exobound_sdk::export_process!(Photoionization: Loss);
 
 #[cfg(test)]
 mod tests {
-    use std::collections::BTreeMap;
-
-    use exobound_sdk::{NamedFields, ParamValue, RngKey};
+    use exobound_sdk::RngKey;
+    use exobound_sdk::testing::{self, Roles};
 
     use super::*;
-
-    /// The law built from `given` through the same decode/validate path as
-    /// the guest's `init`, so that defaults come from the manifest.
-    fn law_with(given: &[(&str, ParamValue)]) -> Photoionization {
-        let map: BTreeMap<String, ParamValue> =
-            given.iter().map(|(k, v)| (k.to_string(), v.clone())).collect();
-        let schema = Photoionization::MANIFEST.to_info().parameters;
-        let params = Params::decode(&Params::encode(&map), &schema).expect("valid parameters");
-        Photoionization::new(&params).expect("law builds")
-    }
 
     /// An atom (particle 99) 100 km up at `helio_distance` AU, sunlit for
     /// `sunlit_fraction` of the interval.
@@ -278,19 +267,14 @@ mod tests {
         }
     }
 
-    /// The loss rate of one atom, s^-1, through the batch interface.
-    fn one(law: &mut Photoionization, p: InFlight) -> Result<f64, ProcessError> {
-        let mut out = [f64::NAN];
-        law.loss_rate(&[p], &mut out).map(|()| out[0])
-    }
-
     #[test]
     fn default_is_the_na_quiet_sun_rate() {
-        let law = law_with(&[]);
-        // check-values §2: Na photoionization 5.92e-6 s^-1 at 1 AU, quiet Sun
-        // (M: Huebner et al. 1992; Huebner & Mukherjee 2015; from memory).
+        let law = testing::law::<Photoionization>(&[]);
+        // Na photoionization 5.92e-6 s^-1 at 1 AU, quiet Sun (Huebner, Keady & Lyon 1992,
+        // Astrophys. Space Sci. 195, 1; Huebner & Mukherjee 2015, Planet. Space Sci. 106, 11;
+        // from memory).
         assert_eq!(law.rate_1au, 5.92e-6);
-        // check-values §2: lifetime 1.69e5 s (same source, from memory).
+        // Lifetime 1.69e5 s (same sources, from memory).
         assert!((law.lifetime(1.0) - 1.69e5).abs() < 0.005e5, "{}", law.lifetime(1.0));
         let info = Photoionization::MANIFEST.to_info();
         assert_eq!(info.ledger_label, "photoionized");
@@ -299,131 +283,107 @@ mod tests {
 
     #[test]
     fn rate_scales_as_inverse_square_of_distance() {
-        let mut law = law_with(&[]);
-        // check-values §2: rate(1 AU), 5.92e-6 s^-1 (M: Huebner et al. 1992).
-        assert_eq!(one(&mut law, atom(1.0, 1.0)).unwrap(), 5.92e-6);
-        // check-values §1: Mercury q = 0.30750 AU (F); §2: rate(r) = rate(1 AU)/r^2 (exact).
-        let q = one(&mut law, atom(0.3075, 1.0)).unwrap();
+        let law = testing::law::<Photoionization>(&[]);
+        // rate(1 AU), 5.92e-6 s^-1 (Huebner et al. 1992, Astrophys. Space Sci. 195, 1; from
+        // memory).
+        assert_eq!(law.loss_rate_one(&atom(1.0, 1.0)).unwrap(), 5.92e-6);
+        // Mercury q = 0.30750 AU (NASA NSSDCA Mercury fact sheet, a(1 - e)); rate(r) =
+        // rate(1 AU)/r^2 (exact: the photon flux of a distant source).
+        let q = law.loss_rate_one(&atom(0.3075, 1.0)).unwrap();
         assert!((q - 5.92e-6 / (0.3075 * 0.3075)).abs() <= 1e-15 * q, "{q}");
-        // r^-2 law (check-values §2, exact): perihelion/aphelion ratio (Q/q)^2 = 2.3035 (C).
-        let big_q = one(&mut law, atom(0.4667, 1.0)).unwrap();
+        // r^-2 law (exact): perihelion/aphelion ratio (Q/q)^2 = 2.3035
+        // (tests/python/module_reference_values.py).
+        let big_q = law.loss_rate_one(&atom(0.4667, 1.0)).unwrap();
         assert!((q / big_q - (0.4667f64 / 0.3075).powi(2)).abs() < 1e-12);
         assert!((q / big_q - 2.3035).abs() < 1e-4, "{}", q / big_q);
     }
 
     #[test]
     fn shadow_switches_the_loss_off() {
-        let mut law = law_with(&[]);
+        let law = testing::law::<Photoionization>(&[]);
         // Photoionization needs solar photons: no loss in the body's shadow
-        // (law, check-values §2) and a linear interval average across the terminator.
-        assert_eq!(one(&mut law, atom(1.0, 0.0)).unwrap(), 0.0);
-        assert_eq!(one(&mut law, atom(0.3075, 0.0)).unwrap(), 0.0);
-        let half = one(&mut law, atom(1.0, 0.5)).unwrap();
+        // (the law) and a linear interval average across the terminator.
+        assert_eq!(law.loss_rate_one(&atom(1.0, 0.0)).unwrap(), 0.0);
+        assert_eq!(law.loss_rate_one(&atom(0.3075, 0.0)).unwrap(), 0.0);
+        let half = law.loss_rate_one(&atom(1.0, 0.5)).unwrap();
         assert_eq!(half, 0.5 * 5.92e-6);
     }
 
     #[test]
     fn active_sun_rate_is_chosen_and_scaled() {
         // Active Sun, Na: 7.26e-6 s^-1 at 1 AU (from memory, low confidence: Huebner et
-        // al. 1992; not in check-values), scaled by the r^-2 law (check-values §2, exact).
-        let mut law = law_with(&[("solar_activity", ParamValue::Text("active".into()))]);
+        // al. 1992, Astrophys. Space Sci. 195, 1), scaled by the r^-2 law (exact).
+        let law = testing::law::<Photoionization>(&[("solar_activity", Value::Text("active"))]);
         assert_eq!(law.activity, SolarActivity::Active);
-        assert_eq!(one(&mut law, atom(1.0, 1.0)).unwrap(), 7.26e-6);
-        let q = one(&mut law, atom(0.3075, 1.0)).unwrap();
+        assert_eq!(law.loss_rate_one(&atom(1.0, 1.0)).unwrap(), 7.26e-6);
+        let q = law.loss_rate_one(&atom(0.3075, 1.0)).unwrap();
         assert!((q - 7.26e-6 / (0.3075 * 0.3075)).abs() <= 1e-15 * q, "{q}");
         // Still zero in shadow (the law).
-        assert_eq!(one(&mut law, atom(0.3075, 0.0)).unwrap(), 0.0);
+        assert_eq!(law.loss_rate_one(&atom(0.3075, 0.0)).unwrap(), 0.0);
         // The quiet rate is ignored when the Sun is active, and the reverse.
-        let mut both = law_with(&[
-            ("solar_activity", ParamValue::Text("active".into())),
-            ("rate_1au", ParamValue::Number(1.0e-5)),
-            ("rate_1au_active", ParamValue::Number(3.0e-5)),
+        let both = testing::law::<Photoionization>(&[
+            ("solar_activity", Value::Text("active")),
+            ("rate_1au", Value::Number(1.0e-5)),
+            ("rate_1au_active", Value::Number(3.0e-5)),
         ]);
-        assert_eq!(one(&mut both, atom(1.0, 1.0)).unwrap(), 3.0e-5);
-        let quiet = law_with(&[("rate_1au_active", ParamValue::Number(3.0e-5))]);
+        assert_eq!(both.loss_rate_one(&atom(1.0, 1.0)).unwrap(), 3.0e-5);
+        let quiet = testing::law::<Photoionization>(&[("rate_1au_active", Value::Number(3.0e-5))]);
         assert_eq!(quiet.activity, SolarActivity::Quiet);
         assert_eq!(quiet.rate_1au, 5.92e-6);
         let info = Photoionization::MANIFEST.to_info();
         assert!(info.parameters[2].default_origin.starts_with("from memory: Huebner"));
         // An unknown state is refused by the schema, naming the options.
-        let map: BTreeMap<String, ParamValue> =
-            [("solar_activity".to_string(), ParamValue::Text("flare".into()))].into();
-        let err = Params::validate(&map, &info.parameters).unwrap_err();
+        let err = testing::validate::<Photoionization>(&[("solar_activity", Value::Text("flare"))])
+            .unwrap_err();
         assert!(err.message.contains("solar_activity") && err.message.contains("active"));
     }
 
     #[test]
     fn potassium_rate_is_a_parameter() {
-        // check-values §2: K about 2-3e-5 s^-1 at 1 AU (M: Huebner et al. 1992, low
-        // confidence); 2.5e-5 at Mercury perihelion gives 2.5e-5/0.3075^2 (r^-2 law).
-        let mut law = law_with(&[("rate_1au", ParamValue::Number(2.5e-5))]);
-        let r = one(&mut law, atom(0.3075, 1.0)).unwrap();
+        // K about 2-3e-5 s^-1 at 1 AU (Huebner et al. 1992, Astrophys. Space Sci. 195, 1;
+        // from memory, low confidence); 2.5e-5 at Mercury perihelion gives 2.5e-5/0.3075^2
+        // (r^-2 law).
+        let law = testing::law::<Photoionization>(&[("rate_1au", Value::Number(2.5e-5))]);
+        let r = law.loss_rate_one(&atom(0.3075, 1.0)).unwrap();
         assert!((r - 2.5e-5 / 0.3075f64.powi(2)).abs() <= 1e-15 * r);
     }
 
     /// Runs every manifest reference point the way the host's `module check`
-    /// would: parameters through the schema, the input record by field name.
+    /// does: parameters through the schema, the input record by field name.
     /// A wrong `expected`, an unknown field or a parameter outside the schema
     /// fails here before the module ships.
     #[test]
     fn manifest_reference_points_hold() {
-        for point in Photoionization::MANIFEST.reference_points {
-            assert_eq!(point.check, Check::LossRate);
-            let given: Vec<(&str, ParamValue)> = point
-                .parameters
-                .iter()
-                .map(|(k, v)| match v {
-                    Value::Number(x) => (*k, ParamValue::Number(*x)),
-                    Value::Text(s) => (*k, ParamValue::Text(s.to_string())),
-                })
-                .collect();
-            let mut law = law_with(&given);
-            let mut p = InFlight::default();
-            for (k, v) in point.input {
-                assert!(p.set_field(k, *v), "unknown field {k}");
-            }
-            let got = one(&mut law, p).unwrap();
-            // Values and sources are stated in each point (check-values §1, §2).
-            assert!(
-                (got - point.expected).abs() <= point.tolerance * point.expected.abs(),
-                "{}: got {got:e}, expected {:e}",
-                point.description,
-                point.expected
-            );
-        }
+        testing::assert_reference_points(&Roles::<Photoionization>::new().loss());
     }
 
     #[test]
     fn refuses_nonsense_inputs_and_parameters() {
-        let mut law = law_with(&[]);
-        let err = one(&mut law, atom(0.0, 1.0)).unwrap_err();
+        let law = testing::law::<Photoionization>(&[]);
+        let err = law.loss_rate_one(&atom(0.0, 1.0)).unwrap_err();
         assert_eq!(err.code, ErrorCode::OutsideValidity);
         assert!(err.message.contains("particle 99") && err.message.contains("0 AU"), "{err}");
         assert_eq!(
-            one(&mut law, atom(f64::INFINITY, 1.0)).unwrap_err().code,
+            law.loss_rate_one(&atom(f64::INFINITY, 1.0)).unwrap_err().code,
             ErrorCode::OutsideValidity
         );
-        assert_eq!(one(&mut law, atom(1.0, 1.5)).unwrap_err().code, ErrorCode::InvalidInput);
-        assert_eq!(one(&mut law, atom(1.0, f64::NAN)).unwrap_err().code, ErrorCode::InvalidInput);
-        let map: BTreeMap<String, ParamValue> =
-            [("rate_1au".to_string(), ParamValue::Number(1.0))].into_iter().collect();
+        assert_eq!(law.loss_rate_one(&atom(1.0, 1.5)).unwrap_err().code, ErrorCode::InvalidInput);
+        assert_eq!(
+            law.loss_rate_one(&atom(1.0, f64::NAN)).unwrap_err().code,
+            ErrorCode::InvalidInput
+        );
         let err =
-            Params::validate(&map, &Photoionization::MANIFEST.to_info().parameters).unwrap_err();
+            testing::validate::<Photoionization>(&[("rate_1au", Value::Number(1.0))]).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidParameter);
         assert!(err.message.contains("rate_1au") && err.message.contains("s^-1"), "{err}");
     }
 
-    /// The law is a pure function of each record, so permuting a batch
-    /// permutes the results and nothing else.
+    /// The law is a pure function of each record, so the batch's order and
+    /// cuts change nothing.
     #[test]
     fn batch_results_do_not_depend_on_order() {
-        let mut law = law_with(&[]);
-        let a = atom(0.39, 0.25);
-        let b = atom(0.31, 1.0);
-        let mut ab = [0.0; 2];
-        let mut ba = [0.0; 2];
-        law.loss_rate(&[a, b], &mut ab).unwrap();
-        law.loss_rate(&[b, a], &mut ba).unwrap();
-        assert_eq!(ab, [ba[1], ba[0]]);
+        let mut law = testing::law::<Photoionization>(&[]);
+        let atoms = [atom(0.39, 0.25), atom(0.31, 1.0), atom(1.0, 0.0)];
+        testing::assert_batch_invariant("loss_rate", &atoms, |p, r| law.loss_rate(p, r));
     }
 }

@@ -19,8 +19,8 @@
 //! density (atoms cm^-2) and SZA the solar zenith angle; cos(SZA) projects
 //! the flux onto the surface. The defaults Q = 3.0e-20 cm^2 (Na on an SiO2
 //! film) and F_UV = 1.5e14 photons cm^-2 s^-1 at 1 AU are those of
-//! Yakshinskiy & Madey (1999) as used by Leblanc & Johnson (2003)
-//! (check-values §7), so the per-atom rate at the subsolar point at 1 AU is
+//! Yakshinskiy & Madey (1999, Nature 400, 642) as used by Leblanc & Johnson
+//! (2003, Icarus 164, 261), so the per-atom rate at the subsolar point at 1 AU is
 //! Q F = 4.5e-6 s^-1.
 //!
 //! Optional temperature dependence. Laboratory PSD yields can grow with the
@@ -37,11 +37,11 @@
 //!
 //! Launch. Two velocity laws, chosen by `velocity_law`:
 //! - `maxwellian`: speeds from the Maxwellian *flux* distribution at a fixed
-//!   `launch_temperature` (1000-1500 K is common practice, check-values §6);
+//!   `launch_temperature` (1000-1500 K is common practice);
 //! - `power-law`: energies from f(E) = beta (beta + 1) U^beta E / (E + U)^(beta + 2),
 //!   the form Johnson et al. (2002) fitted to laboratory PSD of Na (from
-//!   memory; beta = 0.7, U = 0.052 eV). Its CDF is
-//!   1 - U^beta ((1 + beta) E + U) / (E + U)^(1 + beta) (check-values §6);
+//!   memory; beta = 0.7, U = 0.052 eV; Icarus 156, 136). Its CDF is
+//!   1 - U^beta ((1 + beta) E + U) / (E + U)^(1 + beta) (integrated in closed form);
 //!   it is inverted numerically by Newton's method in ln E (see
 //!   [`power_law_inverse_cdf`]). The mode is U / (1 + beta); the mean energy
 //!   is finite only for beta > 1 and the mean speed only for beta > 1/2.
@@ -52,7 +52,7 @@
 //! step by the pool and subtracts it.
 //!
 //! What the law leaves out: the reduction of the yield by regolith porosity
-//! (a factor 4-10, check-values §7; fold it into Q), the spectral shape of
+//! (a factor 4-10, Leblanc & Johnson 2003; fold it into Q), the spectral shape of
 //! the solar flux and its variation with activity (F_UV is one number),
 //! local shadowing by topography (the host gives one cos(SZA) per cell),
 //! coverage-dependent cross-sections, and any energy cutoff of the
@@ -62,21 +62,23 @@
 
 use exobound_sdk::constants::{BOLTZMANN, ELECTRON_VOLT};
 use exobound_sdk::{
-    CellState, Check, ErrorCode, Input, LaunchRequest, Manifest, Origin, ParamKind, ParamSpec,
-    Params, Pool, Process, ProcessError, ReferencePoint, Rng, Role, Source, Value, Velocity, math,
+    CellState, Check, DirectionLaw, ErrorCode, Input, LaunchLaw, LaunchRequest, Manifest, Origin,
+    ParamKind, ParamSpec, Params, Pool, Process, ProcessError, Quantity, ReferencePoint, Rng, Role,
+    Source, SpeedLaw, Value, Velocity, math,
 };
 
-/// Mass of one Na atom, kg (22.98976928 u, IUPAC; check-values §2), used by
+/// Mass of one Na atom, kg (22.98976928 u, the IUPAC standard atomic weight;
+/// Prohaska et al. 2022, Pure Appl. Chem. 94, 573), used by
 /// the launch-speed reference points.
 const NA_MASS: f64 = 22.989_769_28 * exobound_sdk::constants::ATOMIC_MASS;
 
 /// Default PSD cross-section, cm^2: Na on an SiO2 film (Yakshinskiy & Madey
-/// 1999, as used in Leblanc & Johnson 2003; check-values §7).
+/// 1999, Nature 400, 642, as used in Leblanc & Johnson 2003, Icarus 164, 261).
 pub const DEFAULT_CROSS_SECTION: f64 = 3.0e-20;
 
 /// Default solar photon flux above the PSD threshold at 1 AU, photons
-/// cm^-2 s^-1 (Yakshinskiy & Madey 1999, as used in Leblanc & Johnson 2003;
-/// check-values §7).
+/// cm^-2 s^-1 (Yakshinskiy & Madey 1999, Nature 400, 642, as used in Leblanc &
+/// Johnson 2003, Icarus 164, 261).
 pub const DEFAULT_PHOTON_FLUX_1AU: f64 = 1.5e14;
 
 /// Newton iterations allowed when inverting the power-law CDF,
@@ -258,8 +260,8 @@ impl Process for PhotonDesorption {
         licence: "Apache-2.0",
         law_source: "Yakshinskiy, B. V. & Madey, T. E. (1999), Nature 400, 642 (PSD of Na \
                      from SiO2, Q = 3e-20 cm^2, F_UV = 1.5e14 photons cm^-2 s^-1 at 1 AU), as \
-                     used in Leblanc, F. & Johnson, R. E. (2003), Icarus 164, 261 (check-values \
-                     §7); power-law energy form: Johnson, R. E. et al. (2002), Icarus 156, 136 \
+                     used in Leblanc, F. & Johnson, R. E. (2003), Icarus 164, 261; power-law \
+                     energy form: Johnson, R. E. et al. (2002), Icarus 156, 136 \
                      (from memory); Arrhenius temperature factor and Maxwellian-flux launch: \
                      common practice",
         draws_on: Some(Pool::Adsorbed),
@@ -285,7 +287,7 @@ impl Process for PhotonDesorption {
                 },
                 origin: Origin::Source(
                     "Yakshinskiy & Madey 1999 (Nature 400, 642), as used in Leblanc & Johnson \
-                     2003 (check-values §7)",
+                     2003 (Icarus 164, 261)",
                 ),
             },
             ParamSpec {
@@ -299,8 +301,8 @@ impl Process for PhotonDesorption {
                     max: 1.0e17,
                 },
                 origin: Origin::Source(
-                    "Yakshinskiy & Madey 1999, as used in Leblanc & Johnson 2003 \
-                     (check-values §7)",
+                    "Yakshinskiy & Madey 1999 (Nature 400, 642), as used in Leblanc & Johnson \
+                     2003 (Icarus 164, 261)",
                 ),
             },
             ParamSpec {
@@ -344,7 +346,7 @@ impl Process for PhotonDesorption {
                 description: "Exponent beta of the power-law energy form; the mean speed is \
                               finite only for beta > 1/2, the mean energy only for beta > 1",
                 kind: ParamKind::Number { default: Some(0.7), min: 0.1, max: 10.0 },
-                origin: Origin::FromMemory("Johnson et al. 2002, Icarus 156 (check-values §6)"),
+                origin: Origin::FromMemory("Johnson et al. 2002, Icarus 156, 136"),
             },
             ParamSpec {
                 name: "power_law_energy",
@@ -352,7 +354,7 @@ impl Process for PhotonDesorption {
                 description: "Characteristic energy U of the power-law energy form; the mode is \
                               U/(1 + beta)",
                 kind: ParamKind::Number { default: Some(0.052), min: 0.001, max: 5.0 },
-                origin: Origin::FromMemory("Johnson et al. 2002, Icarus 156 (check-values §6)"),
+                origin: Origin::FromMemory("Johnson et al. 2002, Icarus 156, 136"),
             },
         ],
         reference_points: &[
@@ -364,19 +366,23 @@ impl Process for PhotonDesorption {
                 input: &[("cos_sza", 1.0), ("helio_distance", 1.0), ("adsorbed", 1.0e10)],
                 expected: 4.5e4,
                 tolerance: 1.0e-12,
-                source: "check-values §7, PSD flux (F: Yakshinskiy & Madey 1999, as used in \
-                         Leblanc & Johnson 2003)",
+                source: "Yakshinskiy & Madey 1999, Nature 400, 642 (Q = 3e-20 cm^2, F_UV = \
+                         1.5e14 photons cm^-2 s^-1 at 1 AU), as used in Leblanc & Johnson \
+                         2003, Icarus 164, 261",
             },
             ReferencePoint {
                 description: "Mercury perihelion (0.3075 AU), SZA 60 deg, N_s = 1e10 cm^-2",
                 check: Check::ReleaseRate,
                 parameters: &[],
                 input: &[("cos_sza", 0.5), ("helio_distance", 0.3075), ("adsorbed", 1.0e10)],
-                // 4.5e-6 / 0.3075^2 * 0.5 * 1e10 (mpmath, 30 digits).
+                // 4.5e-6 / 0.3075^2 * 0.5 * 1e10 (mpmath,
+                // tests/python/module_reference_values.py).
                 expected: 237_953.599_048_185_6,
                 tolerance: 1.0e-12,
-                source: "check-values §7 (Q F = 4.5e-6 s^-1, F_UV ~ r^-2, F) and §1 (q = \
-                         0.30750 AU, F); the law's cos(SZA) factor",
+                source: "Yakshinskiy & Madey 1999, Nature 400, 642, as used in Leblanc & \
+                         Johnson 2003, Icarus 164, 261 (Q F = 4.5e-6 s^-1 at 1 AU, F_UV ~ \
+                         r^-2); q = 0.3075 AU (NASA NSSDCA Mercury fact sheet); the law's \
+                         cos(SZA) factor",
             },
             ReferencePoint {
                 description: "Night side (cos SZA = -0.3): no photons, no release",
@@ -401,11 +407,13 @@ impl Process for PhotonDesorption {
                     ("adsorbed", 1.0e10),
                     ("temperature", 600.0),
                 ],
-                // 4.5e4 * exp(-(0.1 eV / k)(1/600 - 1/300)), CODATA 2022 constants (mpmath).
+                // 4.5e4 * exp(-(0.1 eV / k)(1/600 - 1/300)), SI-exact k_B and e (mpmath,
+                // tests/python/module_reference_values.py).
                 expected: 311_297.436_739_717_5,
                 tolerance: 1.0e-12,
-                source: "closed form of the module's temperature factor (C), on check-values §7 \
-                         (Q F = 4.5e-6 s^-1)",
+                source: "closed form of the module's temperature factor, on Q F = 4.5e-6 s^-1 \
+                         (Yakshinskiy & Madey 1999, Nature 400, 642, as used in Leblanc & \
+                         Johnson 2003, Icarus 164, 261)",
             },
             ReferencePoint {
                 description: "Maxwellian launch of Na at 1200 K: mean flux speed \
@@ -415,7 +423,8 @@ impl Process for PhotonDesorption {
                 input: &[("mass", NA_MASS)],
                 expected: 1238.49,
                 tolerance: 0.01,
-                source: "check-values §6, Maxwellian flux, Na 1200 K (C)",
+                source: "mean of the Maxwellian flux (3 sqrt(pi)/4) sqrt(2kT/m), Na at 1200 K \
+                         (closed form; tests/python/sampler_reference_values.py)",
             },
             ReferencePoint {
                 description: "Power-law launch of Na, beta = 3, U = 0.052 eV: mean speed \
@@ -430,11 +439,12 @@ impl Process for PhotonDesorption {
                 input: &[("mass", NA_MASS)],
                 // Moments of betaprime(2, beta, scale U): E[(E/U)^(1/2)] =
                 // Gamma(5/2) Gamma(beta - 1/2) / Gamma(beta); beta = 3 keeps the speed
-                // variance finite so that 1e5 draws give 0.2% precision (mpmath).
+                // variance finite so that 1e5 draws give 0.2% precision (mpmath,
+                // tests/python/module_reference_values.py).
                 expected: 583.743_980_484_920_2,
                 tolerance: 0.01,
-                source: "closed form (C): moments of betaprime(2, beta, scale U), the \
-                         distribution of check-values §6 (PSD power-law form)",
+                source: "closed form: moments of betaprime(2, beta, scale U), the power-law \
+                         PSD energy form of Johnson et al. 2002, Icarus 156, 136 (from memory)",
             },
         ],
     };
@@ -467,100 +477,82 @@ impl Process for PhotonDesorption {
 }
 
 impl Source for PhotonDesorption {
-    fn release_rate(&mut self, cells: &[CellState], rates: &mut [f64]) -> Result<(), ProcessError> {
-        if cells.len() != rates.len() {
-            return Err(ProcessError::new(
-                ErrorCode::InvalidInput,
-                format!("{} cells but {} rate slots", cells.len(), rates.len()),
-            ));
-        }
-        for (cell, rate) in cells.iter().zip(rates.iter_mut()) {
-            if !(cell.adsorbed.is_finite() && cell.adsorbed >= 0.0) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: adsorbed surface density {} atoms cm^-2; it must be finite \
-                         and >= 0",
-                        cell.cell, cell.adsorbed
-                    ),
-                ));
-            }
-            if !(cell.cos_sza.is_finite() && cell.cos_sza.abs() <= 1.0) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: cos(SZA) = {}; it must lie in [-1, 1]",
-                        cell.cell, cell.cos_sza
-                    ),
-                ));
-            }
-            // Inputs are judged only where the law reads them: the night
-            // side reads neither the distance nor the temperature.
-            if cell.cos_sza > 0.0 {
-                if !(cell.helio_distance.is_finite() && cell.helio_distance > 0.0) {
-                    return Err(ProcessError::outside_validity(format!(
-                        "cell {}: heliocentric distance {} AU; the r^-2 photon-flux law needs \
-                         a finite distance above 0 AU",
-                        cell.cell, cell.helio_distance
-                    )));
-                }
-                let t = cell.temperature;
-                if self.activation_energy > 0.0 && !(t.is_finite() && t > 0.0) {
-                    return Err(ProcessError::outside_validity(format!(
-                        "cell {}: surface temperature {t} K; the temperature factor of Q needs \
-                         a finite temperature above 0 K (or set activation_energy = 0)",
-                        cell.cell
-                    )));
-                }
-            }
-            // First order in the coverage; the host caps the step's release
-            // by the pool it holds.
-            *rate = cell.adsorbed
-                * self.rate_per_atom(cell.cos_sza, cell.helio_distance, cell.temperature);
-        }
-        Ok(())
-    }
+    /// The Maxwellian flux of the `maxwellian` option, with cosine-law
+    /// directions (see `launch_one`). The `power-law` option is not
+    /// declared: at its default beta = 0.7, U = 0.052 eV its untruncated tail
+    /// passes the host's speed bound of 1e5 m s^-1 (1191 eV for Na) with
+    /// probability 1 - CDF = 1.5e-3 per draw, so `vet`'s 20 000 draws (and
+    /// any run of more than a few hundred launches) are refused by the
+    /// host's output validation before any test of their shape. Its
+    /// energies are tested against the form natively, in the module's tests
+    /// (`power_law_launch_energies_pass_ks_and_median`).
+    const LAUNCH_LAWS: &'static [LaunchLaw] = &[LaunchLaw {
+        when: &[("velocity_law", "maxwellian")],
+        speed: SpeedLaw::MaxwellianFlux { temperature: Quantity::Param("launch_temperature") },
+        direction: DirectionLaw::Cosine,
+    }];
 
-    fn launch(
-        &mut self,
-        requests: &[LaunchRequest],
-        velocities: &mut [Velocity],
-    ) -> Result<(), ProcessError> {
-        if requests.len() != velocities.len() {
+    fn release_rate_one(&self, cell: &CellState) -> Result<f64, ProcessError> {
+        if !(cell.adsorbed.is_finite() && cell.adsorbed >= 0.0) {
             return Err(ProcessError::new(
                 ErrorCode::InvalidInput,
                 format!(
-                    "{} launch requests but {} velocity slots",
-                    requests.len(),
-                    velocities.len()
+                    "cell {}: adsorbed surface density {} atoms cm^-2; it must be finite and >= 0",
+                    cell.cell, cell.adsorbed
                 ),
             ));
         }
-        for (req, v) in requests.iter().zip(velocities.iter_mut()) {
-            if !(req.mass.is_finite() && req.mass > 0.0) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: atomic mass {} kg; it must be finite and > 0",
-                        req.cell, req.mass
-                    ),
-                ));
-            }
-            // One stream per record, speed first, then the direction.
-            let mut rng = Rng::new(req.key);
-            let speed = match self.velocity_law {
-                VelocityLaw::Maxwellian => {
-                    rng.maxwellian_flux_speed(self.launch_temperature, req.mass)
-                }
-                VelocityLaw::PowerLaw => {
-                    // E = m v^2 / 2 with E in J.
-                    let e = self.power_law_launch_energy(rng.uniform()) * ELECTRON_VOLT;
-                    math::sqrt(2.0 * e / req.mass)
-                }
-            };
-            *v = rng.cosine_direction().times(speed);
+        if !(cell.cos_sza.is_finite() && cell.cos_sza.abs() <= 1.0) {
+            return Err(ProcessError::new(
+                ErrorCode::InvalidInput,
+                format!("cell {}: cos(SZA) = {}; it must lie in [-1, 1]", cell.cell, cell.cos_sza),
+            ));
         }
-        Ok(())
+        // Inputs are judged only where the law reads them: the night side
+        // reads neither the distance nor the temperature.
+        if cell.cos_sza > 0.0 {
+            if !(cell.helio_distance.is_finite() && cell.helio_distance > 0.0) {
+                return Err(ProcessError::outside_validity(format!(
+                    "cell {}: heliocentric distance {} AU; the r^-2 photon-flux law needs a \
+                     finite distance above 0 AU",
+                    cell.cell, cell.helio_distance
+                )));
+            }
+            let t = cell.temperature;
+            if self.activation_energy > 0.0 && !(t.is_finite() && t > 0.0) {
+                return Err(ProcessError::outside_validity(format!(
+                    "cell {}: surface temperature {t} K; the temperature factor of Q needs a \
+                     finite temperature above 0 K (or set activation_energy = 0)",
+                    cell.cell
+                )));
+            }
+        }
+        // First order in the coverage; the host caps the step's release by
+        // the pool it holds.
+        Ok(cell.adsorbed * self.rate_per_atom(cell.cos_sza, cell.helio_distance, cell.temperature))
+    }
+
+    fn launch_one(&self, req: &LaunchRequest) -> Result<Velocity, ProcessError> {
+        if !(req.mass.is_finite() && req.mass > 0.0) {
+            return Err(ProcessError::new(
+                ErrorCode::InvalidInput,
+                format!(
+                    "cell {}: atomic mass {} kg; it must be finite and > 0",
+                    req.cell, req.mass
+                ),
+            ));
+        }
+        // One stream per record, speed first, then the direction.
+        let mut rng = Rng::new(req.key);
+        let speed = match self.velocity_law {
+            VelocityLaw::Maxwellian => rng.maxwellian_flux_speed(self.launch_temperature, req.mass),
+            VelocityLaw::PowerLaw => {
+                // E = m v^2 / 2 with E in J.
+                let e = self.power_law_launch_energy(rng.uniform()) * ELECTRON_VOLT;
+                math::sqrt(2.0 * e / req.mass)
+            }
+        };
+        Ok(rng.cosine_direction().times(speed))
     }
 }
 
@@ -568,40 +560,17 @@ exobound_sdk::export_process!(PhotonDesorption: Source);
 
 #[cfg(test)]
 mod tests {
-    use std::collections::BTreeMap;
-
     use exobound_sdk::sample::thermal_speed;
-    use exobound_sdk::{NamedFields, ParamValue, RngKey, stream};
+    use exobound_sdk::testing::{self, Roles};
 
     use super::*;
 
     use core::f64::consts::PI;
 
-    /// Kolmogorov-Smirnov critical value at p = 0.01, times sqrt(N)
-    /// (asymptotic Kolmogorov distribution; Press et al., Numerical Recipes §14.3).
-    const KS_1PC: f64 = 1.628;
-
-    /// The parameter schema exactly as the host decodes it from the manifest.
-    fn schema() -> Vec<exobound_sdk::ParamInfo> {
-        PhotonDesorption::MANIFEST.to_info().parameters
-    }
-
-    /// The law built from `given` through the same decode/validate path as `init`.
-    fn law_with(given: &[(&str, ParamValue)]) -> PhotonDesorption {
-        let map: BTreeMap<String, ParamValue> =
-            given.iter().map(|(k, v)| (k.to_string(), v.clone())).collect();
-        let params = Params::decode(&Params::encode(&map), &schema()).expect("valid parameters");
-        PhotonDesorption::new(&params).expect("law builds")
-    }
-
-    /// A number parameter value.
-    fn num(x: f64) -> ParamValue {
-        ParamValue::Number(x)
-    }
-
-    /// A choice parameter value.
-    fn text(s: &str) -> ParamValue {
-        ParamValue::Text(s.to_string())
+    /// The law with the parameters `given` (others at their defaults), built
+    /// as the module's `init` builds it.
+    fn law_with(given: &[(&str, Value)]) -> PhotonDesorption {
+        testing::law(given)
     }
 
     /// Cell 21 with `cos_sza`, at `helio_distance` AU, holding `adsorbed` atoms cm^-2, at 400 K.
@@ -616,54 +585,29 @@ mod tests {
         }
     }
 
-    /// The release rate of one cell, atoms cm^-2 s^-1, through the batch interface.
-    fn one(law: &mut PhotonDesorption, c: CellState) -> Result<f64, ProcessError> {
-        let mut out = [f64::NAN];
-        law.release_rate(&[c], &mut out).map(|()| out[0])
-    }
-
     /// `n` launches of Na from cell 8, each with its own key.
     fn launches(law: &mut PhotonDesorption, n: u64) -> Vec<Velocity> {
-        let reqs: Vec<LaunchRequest> = (0..n)
-            .map(|i| LaunchRequest {
-                key: RngKey { seed: 99, particle: i, event: 0, stream: stream::LAUNCH },
-                cell: 8,
-                temperature: 350.0,
-                mass: NA_MASS,
-                ..LaunchRequest::default()
-            })
-            .collect();
+        let base =
+            LaunchRequest { cell: 8, temperature: 350.0, mass: NA_MASS, ..Default::default() };
+        let reqs = testing::draws(base, n, 99);
         let mut vs = vec![Velocity::ZERO; reqs.len()];
         law.launch(&reqs, &mut vs).unwrap();
         vs
     }
 
-    /// Largest distance between the empirical CDF of `xs` and `cdf`.
-    fn ks_distance(xs: &mut [f64], cdf: impl Fn(f64) -> f64) -> f64 {
-        xs.sort_by(f64::total_cmp);
-        let n = xs.len() as f64;
-        xs.iter()
-            .enumerate()
-            .map(|(i, &x)| {
-                let f = cdf(x);
-                (f - i as f64 / n).abs().max((f - (i + 1) as f64 / n).abs())
-            })
-            .fold(0.0, f64::max)
-    }
-
     #[test]
     fn defaults_come_from_the_manifest() {
         let law = law_with(&[]);
-        // check-values §7: Q = 3.0e-20 cm^2, F_UV = 1.5e14 photons cm^-2 s^-1 at 1 AU
-        // (F: Yakshinskiy & Madey 1999, as used in Leblanc & Johnson 2003).
+        // Q = 3.0e-20 cm^2, F_UV = 1.5e14 photons cm^-2 s^-1 at 1 AU (Yakshinskiy & Madey
+        // 1999, Nature 400, 642, as used in Leblanc & Johnson 2003, Icarus 164, 261).
         assert_eq!(law.cross_section, 3.0e-20);
         assert_eq!(law.photon_flux_1au, 1.5e14);
         // E_a = 0 (no temperature factor) and a 1200 K Maxwellian launch: common practice
-        // (check-values §6: PSD Maxwellian at 1000-1500 K).
+        // (PSD launched as a Maxwellian at 1000-1500 K).
         assert_eq!(law.activation_energy, 0.0);
         assert_eq!(law.velocity_law, VelocityLaw::Maxwellian);
         assert_eq!(law.launch_temperature, 1200.0);
-        // check-values §6: beta = 0.7, U = 0.052 eV (M: Johnson et al. 2002).
+        // beta = 0.7, U = 0.052 eV (Johnson et al. 2002, Icarus 156, 136; from memory).
         assert_eq!(law.power_law_exponent, 0.7);
         assert_eq!(law.power_law_energy, 0.052);
         let info = PhotonDesorption::MANIFEST.to_info();
@@ -673,12 +617,12 @@ mod tests {
     }
 
     #[test]
-    fn per_atom_rate_matches_check_values() {
+    fn per_atom_rate_matches_the_laboratory_value() {
         let law = law_with(&[]);
-        // check-values §7: Q F_UV = 4.5e-6 s^-1 at 1 AU (F: Yakshinskiy & Madey 1999).
+        // Q F_UV = 4.5e-6 s^-1 at 1 AU (Yakshinskiy & Madey 1999, Nature 400, 642).
         let r = law.rate_per_atom(1.0, 1.0, 300.0);
         assert!((r - 4.5e-6).abs() <= 1e-15 * 4.5e-6, "{r:e}");
-        // check-values §7: F_UV ~ r^-2 (F); §1: Mercury q = 0.30750 AU (F).
+        // F_UV ~ r^-2 (exact); Mercury q = 0.30750 AU (NASA NSSDCA Mercury fact sheet).
         let q = law.rate_per_atom(1.0, 0.3075, 300.0);
         assert!((q - 4.5e-6 / (0.3075 * 0.3075)).abs() <= 1e-15 * q, "{q:e}");
         // The law's cos(SZA) factor: SZA 60 deg halves the rate, SZA 90 deg and beyond is 0.
@@ -690,31 +634,35 @@ mod tests {
 
     #[test]
     fn release_is_first_order_and_zero_at_night() {
-        let mut law = law_with(&[]);
-        // check-values §7: 4.5e-6 s^-1 per atom at 1 AU, times N_s = 1e10 (F).
-        let r = one(&mut law, cell(1.0, 1.0, 1.0e10)).unwrap();
+        let law = law_with(&[]);
+        // 4.5e-6 s^-1 per atom at 1 AU (Yakshinskiy & Madey 1999), times N_s = 1e10.
+        let r = law.release_rate_one(&cell(1.0, 1.0, 1.0e10)).unwrap();
         assert!((r - 4.5e4).abs() <= 1e-12 * 4.5e4, "{r}");
         // First order in the coverage (the law): tripling N_s triples Phi.
-        let r3 = one(&mut law, cell(1.0, 1.0, 3.0e10)).unwrap();
+        let r3 = law.release_rate_one(&cell(1.0, 1.0, 3.0e10)).unwrap();
         assert!((r3 / r - 3.0).abs() < 1e-15);
-        assert_eq!(one(&mut law, cell(1.0, 1.0, 0.0)).unwrap(), 0.0);
+        assert_eq!(law.release_rate_one(&cell(1.0, 1.0, 0.0)).unwrap(), 0.0);
         // Night side: no photons (the law). The distance is not read there, so a zero
         // distance is no error at night.
-        assert_eq!(one(&mut law, cell(-0.2, 1.0, 1.0e12)).unwrap(), 0.0);
-        assert_eq!(one(&mut law, cell(-1.0, 0.0, 1.0e12)).unwrap(), 0.0);
+        assert_eq!(law.release_rate_one(&cell(-0.2, 1.0, 1.0e12)).unwrap(), 0.0);
+        assert_eq!(law.release_rate_one(&cell(-1.0, 0.0, 1.0e12)).unwrap(), 0.0);
     }
 
     #[test]
     fn temperature_factor_is_normalised_at_the_reference() {
-        let law =
-            law_with(&[("activation_energy", num(0.1)), ("reference_temperature", num(300.0))]);
+        let law = law_with(&[
+            ("activation_energy", Value::Number(0.1)),
+            ("reference_temperature", Value::Number(300.0)),
+        ]);
         // Q(T_ref) = Q0 (definition of the normalised form).
         assert!((law.cross_section_at(300.0) - 3.0e-20).abs() <= 1e-15 * 3.0e-20);
-        // Closed form (C): exp(-(E_a/k)(1/T - 1/T_ref)) with E_a/k = 1160.45 K for 0.1 eV
-        // (CODATA 2022); at 600 K the factor is exp(1160.45/600) = 6.917721 (mpmath).
+        // Closed form exp(-(E_a/k)(1/T - 1/T_ref)) with E_a/k = 1160.45 K for 0.1 eV
+        // (SI-exact k_B and e); at 600 K the factor is exp(1160.45/600) = 6.917721 (mpmath,
+        // tests/python/module_reference_values.py).
         let f = law.cross_section_at(600.0) / 3.0e-20;
         assert!((f - 6.917_720_816_438_167).abs() < 1e-12, "{f}");
-        // Colder than T_ref the yield falls: at 150 K, exp(-1160.45/300) = 0.020905 (C).
+        // Colder than T_ref the yield falls: at 150 K, exp(-1160.45/300) = 0.020897
+        // (tests/python/module_reference_values.py).
         let g = law.cross_section_at(150.0) / 3.0e-20;
         let want = (-0.1 * ELECTRON_VOLT / BOLTZMANN / 300.0).exp();
         assert!((g - want).abs() < 1e-12 * want, "{g}");
@@ -727,97 +675,60 @@ mod tests {
     /// The manifest's promises, run the way the host's `module check` does.
     #[test]
     fn manifest_reference_points_hold() {
-        for point in PhotonDesorption::MANIFEST.reference_points {
-            let given: Vec<(&str, ParamValue)> = point
-                .parameters
-                .iter()
-                .map(|(k, v)| match v {
-                    Value::Number(x) => (*k, num(*x)),
-                    Value::Text(s) => (*k, text(s)),
-                })
-                .collect();
-            let mut law = law_with(&given);
-            let got = match point.check {
-                Check::ReleaseRate => {
-                    let mut c = CellState::default();
-                    for (k, v) in point.input {
-                        assert!(c.set_field(k, *v), "unknown field {k}");
-                    }
-                    one(&mut law, c).unwrap()
-                }
-                Check::MeanLaunchSpeed => {
-                    let mut r = LaunchRequest::default();
-                    for (k, v) in point.input {
-                        assert!(r.set_field(k, *v), "unknown field {k}");
-                    }
-                    let n = 100_000;
-                    let reqs: Vec<LaunchRequest> = (0..n)
-                        .map(|i| LaunchRequest {
-                            // The host's reference seed (host/src/runtime/reference.rs), so
-                            // this is the very average `module check` computes.
-                            key: RngKey {
-                                seed: 0x00E0_B0D5,
-                                particle: i,
-                                event: 0,
-                                stream: stream::LAUNCH,
-                            },
-                            ..r
-                        })
-                        .collect();
-                    let mut vs = vec![Velocity::ZERO; reqs.len()];
-                    law.launch(&reqs, &mut vs).unwrap();
-                    vs.iter().map(Velocity::speed).sum::<f64>() / n as f64
-                }
-                other => panic!("unexpected check {other:?}"),
-            };
-            // Expected values and their sources are stated in each point.
-            let scale = if point.expected == 0.0 { 1.0 } else { point.expected.abs() };
-            assert!(
-                (got - point.expected).abs() <= point.tolerance * scale,
-                "{}: got {got}, expected {}",
-                point.description,
-                point.expected
-            );
-        }
+        testing::assert_reference_points(&Roles::<PhotonDesorption>::new().source());
+    }
+
+    /// The launches against the laws declared in `LAUNCH_LAWS`, as `vet`
+    /// tests them (one-sample KS tests at p = 0.01 of speeds or energies and
+    /// of directions; the distribution functions and their sources are in
+    /// `exobound_sdk::launch_law`).
+    #[test]
+    fn launches_follow_the_declared_laws() {
+        let base = LaunchRequest { mass: NA_MASS, ..LaunchRequest::default() };
+        testing::assert_launch_laws::<PhotonDesorption>(base, 20_000, 3);
     }
 
     #[test]
     fn reference_values_are_the_closed_forms() {
         // Recompute the manifest's literals from the SDK's constants so they cannot drift.
-        // Perihelion point: 4.5e-6 / 0.3075^2 * 0.5 * 1e10 (check-values §7, §1).
+        // Perihelion point: 4.5e-6 / 0.3075^2 * 0.5 * 1e10 (Yakshinskiy & Madey 1999; NASA
+        // NSSDCA Mercury fact sheet).
         let p = 4.5e-6 / (0.3075f64 * 0.3075) * 0.5 * 1e10;
         assert!((p - 237_953.599_048_185_6).abs() < 1e-12 * p);
-        // Temperature point: 4.5e4 exp((0.1 eV/k)(1/300 - 1/600)) (C).
+        // Temperature point: 4.5e4 exp((0.1 eV/k)(1/300 - 1/600)) (closed form).
         let ta = 0.1 * ELECTRON_VOLT / BOLTZMANN;
         let t = 4.5e4 * (ta * (1.0 / 300.0 - 1.0 / 600.0)).exp();
         assert!((t - 311_297.436_739_717_5).abs() < 1e-12 * t);
         // Power-law mean speed, beta = 3: sqrt(2U/m) Gamma(5/2) Gamma(5/2) / Gamma(3)
-        // = sqrt(2U/m) 9 pi / 32 (C: Gamma(5/2) = 3 sqrt(pi)/4, Gamma(3) = 2).
+        // = sqrt(2U/m) 9 pi / 32 (Gamma(5/2) = 3 sqrt(pi)/4, Gamma(3) = 2; Abramowitz &
+        // Stegun 6.1.8, 6.1.6).
         let v = (2.0 * 0.052 * ELECTRON_VOLT / NA_MASS).sqrt() * 9.0 * PI / 32.0;
         assert!((v - 583.743_980_484_920_2).abs() < 1e-9 * v, "{v}");
-        // Maxwellian point: check-values §6, <v> = (3 sqrt(pi)/4) a, a = 931.66 m/s (C).
+        // Maxwellian point: <v> = (3 sqrt(pi)/4) a, a = 931.66 m/s for Na at 1200 K
+        // (tests/python/sampler_reference_values.py, scipy.stats.chi(df=4)).
         let m = 0.75 * PI.sqrt() * thermal_speed(1200.0, NA_MASS);
         assert!((m - 1238.49).abs() < 0.005, "{m}");
     }
 
     #[test]
-    fn power_law_cdf_and_pdf_match_check_values() {
+    fn power_law_cdf_and_pdf_match_the_closed_form() {
         let (beta, u) = (0.7, 0.052);
-        // check-values §6, PSD power-law form, beta = 0.7, U = 0.052 eV:
-        // CDF(0.1 eV) = 0.31068 and median 0.21282 eV (M: Johnson et al. 2002; C, scipy
-        // betaprime(2, beta, scale=U)).
+        // PSD power-law form of Johnson et al. 2002 (Icarus 156, 136; from memory), beta =
+        // 0.7, U = 0.052 eV: CDF(0.1 eV) = 0.31068 and median 0.21282 eV (scipy
+        // betaprime(2, beta, scale=U) and mpmath, tests/python/module_reference_values.py).
         assert!((power_law_cdf(0.1 / u, beta) - 0.31068).abs() < 5e-6);
         assert!((power_law_cdf(0.21282 / u, beta) - 0.5).abs() < 1e-5);
         let median = u * power_law_inverse_cdf(0.5, beta);
         assert!((median - 0.21282).abs() < 5e-6, "median {median}");
-        // check-values §6: mode 0.03059 eV = U/(1 + beta): the density rises below it
+        // Mode 0.03059 eV = U/(1 + beta) (maximum of the density): it rises below it
         // and falls above it.
         let mode = 0.03059 / u;
         let d = |e: f64| power_law_density(e, beta);
         assert!(d(mode * 0.999) < d(mode) && d(mode * 1.001) < d(mode));
         assert!((u / (1.0 + beta) - 0.03059).abs() < 5e-6);
         // The density integrates to 1 (composite Simpson in ln eps over 1e-8..1e10; the
-        // tails beyond carry CDF(1e-8) ~ 6e-17 and 1 - CDF(1e10) ~ 1.7e-7, C).
+        // tails beyond carry CDF(1e-8) ~ 6e-17 and 1 - CDF(1e10) ~ 1.7e-7,
+        // tests/python/module_reference_values.py).
         let (a, b, n) = ((1e-8f64).ln(), (1e10f64).ln(), 20_000);
         let h = (b - a) / n as f64;
         let f = |t: f64| t.exp() * d(t.exp());
@@ -832,8 +743,10 @@ mod tests {
 
     #[test]
     fn power_law_cdf_keeps_its_precision_at_low_energy() {
-        // CDF values computed with mpmath 1.3 at 40 digits from the closed form of
-        // check-values §6, on both sides of the switch to the Taylor series in
+        // CDF values computed with mpmath 1.3 at 40 digits from the closed form
+        // 1 - ((1 + beta) eps + 1)/(1 + eps)^(1 + beta) (Johnson et al. 2002, Icarus 156, 136;
+        // tests/python/module_reference_values.py), on both sides of the switch to the Taylor
+        // series in
         // `ln_survival` ((1 + beta) eps = 1e-2).
         for (eps, beta, want) in [
             (1e-5, 0.7, 5.949_892_901_485_994e-11),
@@ -871,23 +784,24 @@ mod tests {
     #[test]
     fn power_law_launch_energies_pass_ks_and_median() {
         let (beta, u) = (0.7, 0.052);
-        let mut law = law_with(&[("velocity_law", text("power-law"))]);
+        let mut law = law_with(&[("velocity_law", Value::Text("power-law"))]);
         let n = 100_000;
         let nf = n as f64;
         let vs = launches(&mut law, n);
         assert!(vs.iter().all(|v| v.up > 0.0), "every launch leaves the surface");
         let mut e: Vec<f64> =
             vs.iter().map(|v| 0.5 * NA_MASS * v.speed().powi(2) / ELECTRON_VOLT).collect();
-        // check-values §6: CDF = 1 - U^beta((1+beta)E + U)/(E+U)^(1+beta) (M: Johnson et al.
-        // 2002; scipy betaprime(2, beta, scale=U)); KS at p = 0.01 with N = 1e5.
-        let d = ks_distance(&mut e, |x| power_law_cdf(x / u, beta));
-        assert!(d < KS_1PC / nf.sqrt(), "KS distance {d}");
-        // check-values §6: median 0.21282 eV. Standard error of a sample median
+        // CDF = 1 - U^beta((1+beta)E + U)/(E+U)^(1+beta) (Johnson et al. 2002, Icarus 156,
+        // 136, from memory; scipy betaprime(2, beta, scale=U)); KS at p = 0.01 with N = 1e5.
+        testing::assert_ks("power-law energy", &mut e, |x| power_law_cdf(x / u, beta));
+        // Median 0.21282 eV (tests/python/module_reference_values.py). Standard error of a
+        // sample median
         // 1/(2 f(m) sqrt(N)) (asymptotic order statistics, common practice); 4 sigma.
         let median = e[n as usize / 2];
         let f_m = power_law_density(0.21282 / u, beta) / u;
         assert!((median - 0.21282).abs() < 4.0 * 0.5 / (f_m * nf.sqrt()), "median {median}");
-        // check-values §6: CDF(0.1 eV) = 0.31068; binomial sd sqrt(p(1-p)/N), 3 sigma.
+        // CDF(0.1 eV) = 0.31068 (tests/python/module_reference_values.py); binomial sd
+        // sqrt(p(1-p)/N), 3 sigma.
         let below = e.iter().filter(|&&x| x < 0.1).count() as f64 / nf;
         assert!((below - 0.31068).abs() < 3.0 * (0.31068f64 * 0.68932 / nf).sqrt(), "{below}");
     }
@@ -900,28 +814,28 @@ mod tests {
         let vs = launches(&mut law, n);
         assert!(vs.iter().all(|v| v.up > 0.0), "every launch leaves the surface");
         let mut speeds: Vec<f64> = vs.iter().map(Velocity::speed).collect();
-        // check-values §6: Na at 1200 K, <v> = 1238.49 m/s, sd a sqrt(2 - 9 pi/16)
-        // (chi with 4 degrees of freedom, C); 3 sigma. The 350 K surface plays no part.
+        // Maxwellian flux, Na at 1200 K: <v> = 1238.49 m/s, sd a sqrt(2 - 9 pi/16) (chi with
+        // 4 degrees of freedom; tests/python/sampler_reference_values.py); 3 sigma. The
+        // 350 K surface plays no part.
         let a = thermal_speed(1200.0, NA_MASS);
         let mean = speeds.iter().sum::<f64>() / nf;
         let sd = a * (2.0 - 9.0 * PI / 16.0).sqrt();
         assert!((mean - 1238.49).abs() < 3.0 * sd / nf.sqrt(), "mean {mean}");
-        // check-values §6: CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2); KS at p = 0.01.
-        let d = ks_distance(&mut speeds, |v| {
+        // Maxwellian flux CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2) (integral of v^3
+        // exp(-v^2/a^2)); KS at p = 0.01.
+        testing::assert_ks("Maxwellian flux speed", &mut speeds, |v| {
             let q = v * v / (a * a);
             1.0 - (1.0 + q) * (-q).exp()
         });
-        assert!(d < KS_1PC / nf.sqrt(), "KS distance {d}");
-        // check-values §6: median 1206.97 m/s; sd of a sample median 1/(2 f(m) sqrt(N)) with
-        // the chi(4) density f(v) = 2 v^3 / a^4 exp(-v^2/a^2) (C); 4 sigma.
+        // Median 1206.97 m/s (scipy.stats.chi(df=4).median()); sd of a sample median
+        // 1/(2 f(m) sqrt(N)) with the chi(4) density f(v) = 2 v^3 / a^4 exp(-v^2/a^2); 4 sigma.
         let m = speeds[n as usize / 2];
         let x = 1206.97 / a;
         let f_m = 2.0 * x.powi(3) * (-x * x).exp() / a;
         assert!((m - 1206.97).abs() < 4.0 * 0.5 / (f_m * nf.sqrt()), "median {m}");
         // Cosine law: cos theta has CDF c^2 (from f ~ cos theta sin theta, common practice).
         let mut c: Vec<f64> = vs.iter().map(|v| v.up / v.speed()).collect();
-        let d = ks_distance(&mut c, |x| x * x);
-        assert!(d < KS_1PC / nf.sqrt(), "KS distance of cos theta {d}");
+        testing::assert_ks("cos theta", &mut c, |x| x * x);
         // Isotropic azimuth: <east> = 0 (symmetry).
         let mean_east = vs.iter().map(|v| v.east).sum::<f64>() / nf;
         assert!(mean_east.abs() < 3.0 * mean / nf.sqrt(), "mean east {mean_east}");
@@ -929,70 +843,58 @@ mod tests {
 
     #[test]
     fn launch_depends_only_on_the_key() {
-        let mut law = law_with(&[("velocity_law", text("power-law"))]);
-        let reqs: Vec<LaunchRequest> = (0..2)
-            .map(|i| LaunchRequest {
-                key: RngKey { seed: 5, particle: i, event: 0, stream: stream::LAUNCH },
-                mass: NA_MASS,
-                ..LaunchRequest::default()
-            })
-            .collect();
-        let mut ab = [Velocity::ZERO; 2];
-        let mut ba = [Velocity::ZERO; 2];
-        law.launch(&reqs, &mut ab).unwrap();
-        law.launch(&[reqs[1], reqs[0]], &mut ba).unwrap();
-        // Counter-based streams: the batch order does not matter, the keys do.
-        assert_eq!(ab, [ba[1], ba[0]]);
-        assert_ne!(ab[0], ab[1]);
+        let mut law = law_with(&[("velocity_law", Value::Text("power-law"))]);
+        let reqs = testing::draws(LaunchRequest { mass: NA_MASS, ..Default::default() }, 5, 5);
+        // Counter-based streams: the batch's order and cuts do not matter, the keys do.
+        testing::assert_batch_invariant("launch", &reqs, |r, v| law.launch(r, v));
+        assert_ne!(law.launch_one(&reqs[0]).unwrap(), law.launch_one(&reqs[1]).unwrap());
+        let cells = [cell(1.0, 0.3075, 1.0e10), cell(-0.2, 1.0, 1.0e12), cell(0.5, 1.0, 0.0)];
+        testing::assert_batch_invariant("release_rate", &cells, |c, r| law.release_rate(c, r));
     }
 
     #[test]
     fn refuses_nonsense_inputs() {
-        let mut law = law_with(&[("activation_energy", num(0.05))]);
-        let err = one(&mut law, cell(1.0, 1.0, -1.0)).unwrap_err();
+        let law = law_with(&[("activation_energy", Value::Number(0.05))]);
+        let err = law.release_rate_one(&cell(1.0, 1.0, -1.0)).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
         assert!(err.message.contains("cell 21"), "{err}");
-        assert_eq!(one(&mut law, cell(1.5, 1.0, 1.0)).unwrap_err().code, ErrorCode::InvalidInput);
         assert_eq!(
-            one(&mut law, cell(f64::NAN, 1.0, 1.0)).unwrap_err().code,
+            law.release_rate_one(&cell(1.5, 1.0, 1.0)).unwrap_err().code,
             ErrorCode::InvalidInput
         );
-        let err = one(&mut law, cell(0.5, 0.0, 1.0)).unwrap_err();
+        assert_eq!(
+            law.release_rate_one(&cell(f64::NAN, 1.0, 1.0)).unwrap_err().code,
+            ErrorCode::InvalidInput
+        );
+        let err = law.release_rate_one(&cell(0.5, 0.0, 1.0)).unwrap_err();
         assert_eq!(err.code, ErrorCode::OutsideValidity);
         assert!(err.message.contains("0 AU"), "{err}");
         // With E_a > 0 a sunlit cell must have a usable temperature.
         let frozen = CellState { temperature: 0.0, ..cell(0.5, 1.0, 1.0) };
-        assert_eq!(one(&mut law, frozen).unwrap_err().code, ErrorCode::OutsideValidity);
+        assert_eq!(law.release_rate_one(&frozen).unwrap_err().code, ErrorCode::OutsideValidity);
         // Without it the temperature is not read.
-        let mut flat = law_with(&[]);
-        assert_eq!(one(&mut flat, frozen).unwrap(), 4.5e-6 * 0.5);
-        let mut v = [Velocity::ZERO];
+        let flat = law_with(&[]);
+        assert_eq!(flat.release_rate_one(&frozen).unwrap(), 4.5e-6 * 0.5);
         let bad = LaunchRequest { cell: 4, mass: 0.0, ..LaunchRequest::default() };
-        let err = flat.launch(&[bad], &mut v).unwrap_err();
+        let err = flat.launch_one(&bad).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
         assert!(err.message.contains("cell 4"), "{err}");
-        let mut out = [0.0; 2];
-        assert_eq!(
-            flat.release_rate(&[cell(1.0, 1.0, 1.0)], &mut out).unwrap_err().code,
-            ErrorCode::InvalidInput
-        );
     }
 
     #[test]
     fn out_of_range_parameters_are_refused_by_the_schema() {
         // Each refused value names the parameter and the allowed range or options.
         for (name, value, needle) in [
-            ("cross_section", num(-1e-20), "cm^2"),
-            ("photon_flux_1au", num(1e18), "[0, 100000000000000000]"),
-            ("activation_energy", num(2.0), "[0, 1]"),
-            ("reference_temperature", num(5.0), "K"),
-            ("launch_temperature", num(50.0), "[100, 10000]"),
-            ("power_law_exponent", num(0.0), "[0.1, 10]"),
-            ("power_law_energy", num(10.0), "eV"),
-            ("velocity_law", text("weibull"), "power-law"),
+            ("cross_section", Value::Number(-1e-20), "cm^2"),
+            ("photon_flux_1au", Value::Number(1e18), "[0, 100000000000000000]"),
+            ("activation_energy", Value::Number(2.0), "[0, 1]"),
+            ("reference_temperature", Value::Number(5.0), "K"),
+            ("launch_temperature", Value::Number(50.0), "[100, 10000]"),
+            ("power_law_exponent", Value::Number(0.0), "[0.1, 10]"),
+            ("power_law_energy", Value::Number(10.0), "eV"),
+            ("velocity_law", Value::Text("weibull"), "power-law"),
         ] {
-            let map: BTreeMap<String, ParamValue> = [(name.to_string(), value)].into();
-            let err = Params::validate(&map, &schema()).unwrap_err();
+            let err = testing::validate::<PhotonDesorption>(&[(name, value)]).unwrap_err();
             assert_eq!(err.code, ErrorCode::InvalidParameter);
             assert!(err.message.contains(name) && err.message.contains(needle), "{err}");
         }

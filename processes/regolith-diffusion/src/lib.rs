@@ -204,6 +204,7 @@ impl Process for RegolithDiffusion {
         // bulk_abundance must be given or every rate would be 0. The
         // expected values come from Python 3's math.exp with CODATA k_B and
         // e; libm and glibc agree to ~1e-16, E_a/k_B T to ~1e-15 relative.
+        // tests/python/module_reference_values.py recomputes them with mpmath.
         reference_points: &[
             ReferencePoint {
                 description: "Defaults, nominal regolith, empty surface at 600 K",
@@ -273,50 +274,40 @@ impl Process for RegolithDiffusion {
 }
 
 impl ReservoirProcess for RegolithDiffusion {
-    fn exchange(&mut self, cells: &[CellState], rates: &mut [f64]) -> Result<(), ProcessError> {
-        if cells.len() != rates.len() {
+    fn exchange_one(&self, cell: &CellState) -> Result<f64, ProcessError> {
+        // A temperature at or below 0 K is outside the Arrhenius law's domain
+        // (exp(-E/kT) would be 1 or +inf); a negative or NaN density or
+        // abundance means the host's state is broken, which is malformed
+        // input rather than a limit of the law.
+        if !(cell.temperature.is_finite() && cell.temperature > 0.0) {
+            return Err(ProcessError::outside_validity(format!(
+                "cell {}: surface temperature {} K; thermally activated diffusion needs a finite \
+                 temperature above 0 K",
+                cell.cell, cell.temperature
+            )));
+        }
+        if !(cell.adsorbed.is_finite() && cell.adsorbed >= 0.0) {
             return Err(ProcessError::new(
                 ErrorCode::InvalidInput,
-                format!("{} cells but {} rate slots", cells.len(), rates.len()),
+                format!(
+                    "cell {}: adsorbed surface density {} atoms cm^-2; it must be finite and >= 0",
+                    cell.cell, cell.adsorbed
+                ),
             ));
         }
-        for (cell, rate) in cells.iter().zip(rates.iter_mut()) {
-            // A temperature at or below 0 K is outside the Arrhenius law's
-            // domain (exp(-E/kT) would be 1 or +inf); a negative or NaN
-            // density or abundance means the host's state is broken, which
-            // is malformed input rather than a limit of the law.
-            if !(cell.temperature.is_finite() && cell.temperature > 0.0) {
-                return Err(ProcessError::outside_validity(format!(
-                    "cell {}: surface temperature {} K; thermally activated diffusion needs a \
-                     finite temperature above 0 K",
-                    cell.cell, cell.temperature
-                )));
-            }
-            if !(cell.adsorbed.is_finite() && cell.adsorbed >= 0.0) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: adsorbed surface density {} atoms cm^-2; it must be finite \
-                         and >= 0",
-                        cell.cell, cell.adsorbed
-                    ),
-                ));
-            }
-            if !(cell.bulk_abundance.is_finite() && cell.bulk_abundance >= 0.0) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: bulk abundance {}; it must be finite and >= 0",
-                        cell.cell, cell.bulk_abundance
-                    ),
-                ));
-            }
-            // A supply only: positive into the pool, never a removal. The
-            // host books it as supplied from the bulk; the ledger column
-            // "diffusion" therefore only sees removals, of which there are none.
-            *rate = self.supply_rate(cell.temperature, cell.bulk_abundance, cell.adsorbed);
+        if !(cell.bulk_abundance.is_finite() && cell.bulk_abundance >= 0.0) {
+            return Err(ProcessError::new(
+                ErrorCode::InvalidInput,
+                format!(
+                    "cell {}: bulk abundance {}; it must be finite and >= 0",
+                    cell.cell, cell.bulk_abundance
+                ),
+            ));
         }
-        Ok(())
+        // A supply only: positive into the pool, never a removal. The host
+        // books it as supplied from the bulk; the ledger column "diffusion"
+        // therefore only sees removals, of which there are none.
+        Ok(self.supply_rate(cell.temperature, cell.bulk_abundance, cell.adsorbed))
     }
 }
 
@@ -324,34 +315,21 @@ exobound_sdk::export_process!(RegolithDiffusion: ReservoirProcess);
 
 #[cfg(test)]
 mod tests {
-    use std::collections::BTreeMap;
-
-    use exobound_sdk::{NamedFields, ParamValue};
+    use exobound_sdk::testing::{self, Roles};
 
     use super::*;
 
-    /// The parameter schema exactly as the host decodes it from the manifest.
-    fn schema() -> Vec<exobound_sdk::ParamInfo> {
-        RegolithDiffusion::MANIFEST.to_info().parameters
-    }
-
-    /// The law built from `given` through the same decode/validate path as `init`.
+    /// The law with the number parameters `given` (others at their
+    /// defaults), built as the module's `init` builds it.
     fn law_with(given: &[(&str, f64)]) -> RegolithDiffusion {
-        let map: BTreeMap<String, ParamValue> =
-            given.iter().map(|(k, v)| (k.to_string(), ParamValue::Number(*v))).collect();
-        let params = Params::decode(&Params::encode(&map), &schema()).expect("valid parameters");
-        RegolithDiffusion::new(&params).expect("law builds")
+        let given: Vec<(&str, Value)> =
+            given.iter().map(|(k, v)| (*k, Value::Number(*v))).collect();
+        testing::law(&given)
     }
 
     /// Cell 23 at `temperature` K with bulk abundance `bulk` holding `adsorbed` atoms cm^-2.
     fn cell(temperature: f64, bulk: f64, adsorbed: f64) -> CellState {
         CellState { cell: 23, temperature, bulk_abundance: bulk, adsorbed, ..CellState::default() }
-    }
-
-    /// The exchange rate of one cell, atoms cm^-2 s^-1, through the batch interface.
-    fn one(law: &mut RegolithDiffusion, c: CellState) -> Result<f64, ProcessError> {
-        let mut out = [f64::NAN];
-        law.exchange(&[c], &mut out).map(|()| out[0])
     }
 
     /// The law written out independently with the standard library's exp,
@@ -395,7 +373,7 @@ mod tests {
         let r = law.supply_rate(600.0, 1.0, 0.0);
         assert!((1.0e6..1.0e7).contains(&r), "{r:e}");
         // ... and, as documented, nothing of consequence on the Moon (390 K dayside, Butler
-        // 1997 via check-values §7, from memory): below 1e-3 cm^-2 s^-1.
+        // 1997, J. Geophys. Res. 102, 19283, from memory): below 1e-3 cm^-2 s^-1.
         assert!(law.supply_rate(390.0, 1.0, 0.0) < 1.0e-3);
     }
 
@@ -408,13 +386,13 @@ mod tests {
             (3.0e15, 1.0e12, 1.2, 40.0, 390.0, 1.7),
             (1.0e17, 1.0e8, 0.8, 1.0, 100.0, 0.25),
         ] {
-            let mut law = law_with(&[
+            let law = law_with(&[
                 ("bulk_density", n_b),
                 ("frequency", nu),
                 ("activation_energy", e_a),
                 ("enhancement", enh),
             ]);
-            let got = one(&mut law, cell(t, b, 1.0e12)).unwrap();
+            let got = law.exchange_one(&cell(t, b, 1.0e12)).unwrap();
             let want = by_hand(n_b, b, nu, e_a, t, enh, 1.0 - 1.0e12 / 1.0e30);
             assert!((got - want).abs() <= 1e-12 * want, "T = {t}: {got:e} vs {want:e}");
         }
@@ -450,14 +428,14 @@ mod tests {
 
     #[test]
     fn saturation_cuts_the_supply_linearly() {
-        let mut law = law_with(&[("saturation", 1.0e13)]);
-        let empty = one(&mut law, cell(650.0, 1.0, 0.0)).unwrap();
+        let law = law_with(&[("saturation", 1.0e13)]);
+        let empty = law.exchange_one(&cell(650.0, 1.0, 0.0)).unwrap();
         // The law: factor 1 - N_s/N_sat, so 3/4 at a quarter, 0 at and beyond saturation
         // (clipped: a supply never becomes a removal).
-        let quarter = one(&mut law, cell(650.0, 1.0, 2.5e12)).unwrap();
+        let quarter = law.exchange_one(&cell(650.0, 1.0, 2.5e12)).unwrap();
         assert!((quarter / empty - 0.75).abs() < 1e-15);
-        assert_eq!(one(&mut law, cell(650.0, 1.0, 1.0e13)).unwrap(), 0.0);
-        assert_eq!(one(&mut law, cell(650.0, 1.0, 4.0e13)).unwrap(), 0.0);
+        assert_eq!(law.exchange_one(&cell(650.0, 1.0, 1.0e13)).unwrap(), 0.0);
+        assert_eq!(law.exchange_one(&cell(650.0, 1.0, 4.0e13)).unwrap(), 0.0);
         // The default N_sat = 1e30 cm^-2 leaves a monolayer-scale coverage (1e15, common
         // practice) untouched to 1e-14.
         let free = law_with(&[]);
@@ -465,35 +443,18 @@ mod tests {
     }
 
     /// Runs every manifest reference point the way the host's `module check`
-    /// would: parameters through the schema, the input record by field name,
+    /// does: parameters through the schema, the input record by field name,
     /// an absolute tolerance when the expected value is 0.
     #[test]
     fn manifest_reference_points_hold() {
-        for point in RegolithDiffusion::MANIFEST.reference_points {
-            assert_eq!(point.check, Check::Exchange);
-            let given: Vec<(&str, f64)> = point
-                .parameters
-                .iter()
-                .map(|(k, v)| match v {
-                    Value::Number(x) => (*k, *x),
-                    Value::Text(s) => panic!("no choice parameters, got {s}"),
-                })
-                .collect();
-            let mut law = law_with(&given);
-            let mut c = CellState::default();
-            for (k, v) in point.input {
-                assert!(c.set_field(k, *v), "unknown field {k}");
-            }
-            let got = one(&mut law, c).unwrap();
-            // Expected values are the law evaluated by hand (sources in each point).
-            let scale = if point.expected == 0.0 { 1.0 } else { point.expected.abs() };
-            assert!(
-                (got - point.expected).abs() <= point.tolerance * scale,
-                "{}: got {got:e}, expected {:e}",
-                point.description,
-                point.expected
-            );
-        }
+        testing::assert_reference_points(&Roles::<RegolithDiffusion>::new().reservoir());
+    }
+
+    #[test]
+    fn batch_results_do_not_depend_on_order() {
+        let mut law = law_with(&[("saturation", 1.0e13)]);
+        let cells = [cell(600.0, 1.0, 0.0), cell(700.0, 0.5, 5.0e12), cell(650.0, 1.0, 2.0e13)];
+        testing::assert_batch_invariant("exchange", &cells, |c, r| law.exchange(c, r));
     }
 
     #[test]
@@ -520,31 +481,28 @@ mod tests {
 
     #[test]
     fn cold_surface_supplies_nothing_but_stays_finite() {
-        let mut law = law_with(&[]);
+        let law = law_with(&[]);
         // E_a/k_B T = 313 at 100 K: exp gives ~1e-136 (the law), and 0 below 42 K
         // (underflow); never NaN or negative.
-        let r = one(&mut law, cell(100.0, 1.0, 0.0)).unwrap();
+        let r = law.exchange_one(&cell(100.0, 1.0, 0.0)).unwrap();
         assert!((0.0..1e-100).contains(&r), "{r:e}");
-        assert_eq!(one(&mut law, cell(20.0, 1.0, 0.0)).unwrap(), 0.0);
+        assert_eq!(law.exchange_one(&cell(20.0, 1.0, 0.0)).unwrap(), 0.0);
     }
 
     #[test]
     fn refuses_nonsense_inputs() {
-        let mut law = law_with(&[]);
+        let law = law_with(&[]);
         for t in [0.0, -5.0, f64::NAN, f64::INFINITY] {
-            let err = one(&mut law, cell(t, 1.0, 0.0)).unwrap_err();
+            let err = law.exchange_one(&cell(t, 1.0, 0.0)).unwrap_err();
             assert_eq!(err.code, ErrorCode::OutsideValidity, "T = {t}");
             assert!(err.message.contains("cell 23") && err.message.contains("K"), "{err}");
         }
         for n_s in [-1.0, f64::NAN, f64::INFINITY] {
-            let err = one(&mut law, cell(500.0, 1.0, n_s)).unwrap_err();
+            let err = law.exchange_one(&cell(500.0, 1.0, n_s)).unwrap_err();
             assert_eq!(err.code, ErrorCode::InvalidInput, "N_s = {n_s}");
             assert!(err.message.contains("adsorbed"), "{err}");
         }
-        let err = one(&mut law, cell(500.0, -0.1, 0.0)).unwrap_err();
-        assert_eq!(err.code, ErrorCode::InvalidInput);
-        let mut out = [0.0; 3];
-        let err = law.exchange(&[cell(500.0, 1.0, 0.0)], &mut out).unwrap_err();
+        let err = law.exchange_one(&cell(500.0, -0.1, 0.0)).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
     }
 
@@ -559,21 +517,16 @@ mod tests {
             ("bulk_density", -1.0, "cm^-2"),
             ("frequency", 1.0e18, "s^-1"),
         ] {
-            let map: BTreeMap<String, ParamValue> =
-                [(name.to_string(), ParamValue::Number(value))].into();
-            let err = Params::validate(&map, &schema()).unwrap_err();
+            let err = testing::validate::<RegolithDiffusion>(&[(name, Value::Number(value))])
+                .unwrap_err();
             assert_eq!(err.code, ErrorCode::InvalidParameter);
             assert!(err.message.contains(name) && err.message.contains(needle), "{err}");
         }
-        let map: BTreeMap<String, ParamValue> =
-            [("enhancement".to_string(), ParamValue::Text("high".into()))].into();
-        assert_eq!(
-            Params::validate(&map, &schema()).unwrap_err().code,
-            ErrorCode::InvalidParameter
-        );
-        let map: BTreeMap<String, ParamValue> =
-            [("diffusivity".to_string(), ParamValue::Number(1.0))].into();
-        let err = Params::validate(&map, &schema()).unwrap_err();
+        let err = testing::validate::<RegolithDiffusion>(&[("enhancement", Value::Text("high"))])
+            .unwrap_err();
+        assert_eq!(err.code, ErrorCode::InvalidParameter);
+        let err = testing::validate::<RegolithDiffusion>(&[("diffusivity", Value::Number(1.0))])
+            .unwrap_err();
         assert!(err.message.contains("unknown parameter `diffusivity`"), "{err}");
     }
 }

@@ -56,7 +56,8 @@ use exobound_sdk::{
     Process, ProcessError, ReferencePoint, Rng, Role, SurfaceInteraction, Value,
 };
 
-/// Mass of one Na atom, kg (22.98976928 u, IUPAC; check-values §2), used by
+/// Mass of one Na atom, kg (22.98976928 u, the IUPAC standard atomic weight;
+/// Prohaska et al. 2022, Pure Appl. Chem. 94, 573), used by
 /// the stick-fraction reference point.
 const NA_MASS: f64 = 22.989_769_28 * exobound_sdk::constants::ATOMIC_MASS;
 
@@ -298,72 +299,59 @@ impl Process for SurfaceAccommodation {
 }
 
 impl SurfaceInteraction for SurfaceAccommodation {
-    fn land(&mut self, impacts: &[Impact], outcomes: &mut [Outcome]) -> Result<(), ProcessError> {
-        if impacts.len() != outcomes.len() {
-            return Err(ProcessError::new(
-                ErrorCode::InvalidInput,
-                format!("{} impacts but {} outcome slots", impacts.len(), outcomes.len()),
-            ));
+    fn land_one(&self, hit: &Impact) -> Result<Outcome, ProcessError> {
+        let surface_ok = usable_temperature(hit.temperature);
+        if self.sticking_needs_temperature() && !surface_ok {
+            return Err(ProcessError::outside_validity(format!(
+                "cell {}: surface temperature {} K; the linear sticking law needs a finite \
+                 temperature above 0 K",
+                hit.cell, hit.temperature
+            )));
         }
-        for (hit, outcome) in impacts.iter().zip(outcomes.iter_mut()) {
-            let surface_ok = usable_temperature(hit.temperature);
-            if self.sticking_needs_temperature() && !surface_ok {
+        // One stream per landing; the first number decides sticking, the
+        // rest (if any) the re-emission speed and direction. The uniform
+        // deviate lies in the open interval (0, 1), so S = 1 always sticks
+        // and S = 0 never does: the limiting cases are exact.
+        let mut rng = Rng::new(hit.key);
+        if rng.uniform() < self.sticking_probability(hit.temperature) {
+            return Ok(Outcome::STICK);
+        }
+        let temperature =
+            if self.reemit_temperature > 0.0 { self.reemit_temperature } else { hit.temperature };
+        let speed_in = hit.velocity.speed();
+        if self.accommodation > 0.0 {
+            if !usable_temperature(temperature) {
                 return Err(ProcessError::outside_validity(format!(
-                    "cell {}: surface temperature {} K; the linear sticking law needs a finite \
-                     temperature above 0 K",
+                    "cell {}: surface temperature {} K; thermal re-emission needs a finite \
+                     temperature above 0 K (or set reemit_temperature)",
                     hit.cell, hit.temperature
                 )));
             }
-            // One stream per landing; the first number decides sticking, the
-            // rest (if any) the re-emission speed and direction.
-            // The uniform deviate lies in the open interval (0, 1), so S = 1
-            // always sticks and S = 0 never does: the limiting cases are exact.
-            let mut rng = Rng::new(hit.key);
-            if rng.uniform() < self.sticking_probability(hit.temperature) {
-                *outcome = Outcome::STICK;
-                continue;
-            }
-            let temperature = if self.reemit_temperature > 0.0 {
-                self.reemit_temperature
-            } else {
-                hit.temperature
-            };
-            let speed_in = hit.velocity.speed();
-            if self.accommodation > 0.0 {
-                if !usable_temperature(temperature) {
-                    return Err(ProcessError::outside_validity(format!(
-                        "cell {}: surface temperature {} K; thermal re-emission needs a finite \
-                         temperature above 0 K (or set reemit_temperature)",
-                        hit.cell, hit.temperature
-                    )));
-                }
-                if !(hit.mass.is_finite() && hit.mass > 0.0) {
-                    return Err(ProcessError::new(
-                        ErrorCode::InvalidInput,
-                        format!(
-                            "cell {}: atomic mass {} kg; it must be finite and > 0",
-                            hit.cell, hit.mass
-                        ),
-                    ));
-                }
-            }
-            if self.accommodation < 1.0 && !(speed_in.is_finite() && speed_in > 0.0) {
+            if !(hit.mass.is_finite() && hit.mass > 0.0) {
                 return Err(ProcessError::new(
                     ErrorCode::InvalidInput,
                     format!(
-                        "cell {}: impact speed {} m s^-1; partial accommodation needs a finite \
-                         impact speed above 0",
-                        hit.cell, speed_in
+                        "cell {}: atomic mass {} kg; it must be finite and > 0",
+                        hit.cell, hit.mass
                     ),
                 ));
             }
-            // The cosine-law direction has up = sqrt(u) > 0 and the speed is
-            // > 0 (the thermal draw is a positive Gamma deviate, the impact
-            // speed was checked), so every bounce leaves the surface.
-            let speed = self.reemission_speed(&mut rng, speed_in, temperature, hit.mass);
-            *outcome = Outcome::bounce(rng.cosine_direction().times(speed));
         }
-        Ok(())
+        if self.accommodation < 1.0 && !(speed_in.is_finite() && speed_in > 0.0) {
+            return Err(ProcessError::new(
+                ErrorCode::InvalidInput,
+                format!(
+                    "cell {}: impact speed {} m s^-1; partial accommodation needs a finite \
+                     impact speed above 0",
+                    hit.cell, speed_in
+                ),
+            ));
+        }
+        // The cosine-law direction has up = sqrt(u) > 0 and the speed is > 0
+        // (the thermal draw is a positive Gamma deviate, the impact speed was
+        // checked), so every bounce leaves the surface.
+        let speed = self.reemission_speed(&mut rng, speed_in, temperature, hit.mass);
+        Ok(Outcome::bounce(rng.cosine_direction().times(speed)))
     }
 }
 
@@ -371,35 +359,16 @@ exobound_sdk::export_process!(SurfaceAccommodation: SurfaceInteraction);
 
 #[cfg(test)]
 mod tests {
-    use std::collections::BTreeMap;
-
     use exobound_sdk::constants::{BOLTZMANN, ELECTRON_VOLT};
-    use exobound_sdk::{NamedFields, OutcomeKind, ParamValue, RngKey, Velocity, math, stream};
+    use exobound_sdk::testing::{self, Roles};
+    use exobound_sdk::{OutcomeKind, RngKey, Velocity, math, stream};
 
     use super::*;
 
-    /// Kolmogorov-Smirnov critical value at p = 0.01, times sqrt(N)
-    /// (asymptotic Kolmogorov distribution; Press et al., Numerical Recipes §14.3).
-    const KS_1PC: f64 = 1.628;
-
-    /// The law built from `given` through the same decode/validate path as
-    /// the guest's `init`, so that defaults come from the manifest.
-    fn law_with(given: &[(&str, ParamValue)]) -> SurfaceAccommodation {
-        let map: BTreeMap<String, ParamValue> =
-            given.iter().map(|(k, v)| (k.to_string(), v.clone())).collect();
-        let schema = SurfaceAccommodation::MANIFEST.to_info().parameters;
-        let params = Params::decode(&Params::encode(&map), &schema).expect("valid parameters");
-        SurfaceAccommodation::new(&params).expect("law builds")
-    }
-
-    /// A number parameter value.
-    fn num(x: f64) -> ParamValue {
-        ParamValue::Number(x)
-    }
-
-    /// A choice parameter value.
-    fn text(s: &str) -> ParamValue {
-        ParamValue::Text(s.to_string())
+    /// The law with the parameters `given` (others at their defaults), built
+    /// as the module's `init` builds it.
+    fn law_with(given: &[(&str, Value)]) -> SurfaceAccommodation {
+        testing::law(given)
     }
 
     /// `n` landings of Na at `speed_in` m/s, straight down, on a surface at
@@ -442,20 +411,20 @@ mod tests {
 
     #[test]
     fn defaults_come_from_the_manifest() {
-        let schema = SurfaceAccommodation::MANIFEST.to_info().parameters;
-        let law = SurfaceAccommodation::new(&Params::decode(&[], &schema).unwrap()).unwrap();
-        // Defaults: constant S = 0.5 and alpha = 0.5, common practice (check-values §7 gives
-        // 0.2-0.6 for alpha, M); re-emission at the local surface temperature.
+        let law = law_with(&[]);
+        // Defaults: constant S = 0.5 and alpha = 0.5, common practice (exosphere models use
+        // 0.2-0.6 for alpha; Hunten, Morgan & Shemansky 1988, from memory); re-emission at the
+        // local surface temperature.
         assert_eq!(law.sticking, StickingLaw::Constant(0.5));
         assert_eq!(law.accommodation, 0.5);
         assert_eq!(law.reemit_temperature, 0.0);
-        let linear = law_with(&[("sticking_model", text("linear"))]);
+        let linear = law_with(&[("sticking_model", Value::Text("linear"))]);
         assert_eq!(linear.sticking, StickingLaw::Linear { a: DEFAULT_STICK_A, b: DEFAULT_STICK_B });
     }
 
     #[test]
     fn linear_sticking_law_and_its_clipping() {
-        let law = law_with(&[("sticking_model", text("linear"))]);
+        let law = law_with(&[("sticking_model", Value::Text("linear"))]);
         // Yakshinskiy & Madey 2005, Na on a lunar sample: S ~ 1 at 100 K and ~0.5 at 250 K
         // (from memory); the default line passes through both.
         assert!((law.sticking_probability(100.0) - 1.0).abs() < 1e-12);
@@ -475,7 +444,7 @@ mod tests {
     #[test]
     fn perfect_sticking_limit() {
         // Limiting case: constant S = 1 keeps every atom (definition of the law).
-        let mut law = law_with(&[("sticking", num(1.0))]);
+        let mut law = law_with(&[("sticking", Value::Number(1.0))]);
         let out = land_all(&mut law, &impacts(50_000, 120.0, 1500.0));
         assert!(out.iter().all(|o| *o == Outcome::STICK));
     }
@@ -484,36 +453,32 @@ mod tests {
     fn full_reemission_at_a_fixed_temperature_is_a_maxwellian_flux() {
         // Limiting case: S = 0, alpha = 1, T_re = 1200 K. Every atom bounces with a
         // Maxwellian-flux speed at 1200 K whatever its impact speed and the surface
-        // temperature (needed for the Chamberlain comparison, check-values §4).
+        // temperature (needed for the comparison with Chamberlain 1963, Planet. Space Sci.
+        // 11, 901).
         let mut law = law_with(&[
-            ("sticking", num(0.0)),
-            ("accommodation", num(1.0)),
-            ("reemit_temperature", num(1200.0)),
+            ("sticking", Value::Number(0.0)),
+            ("accommodation", Value::Number(1.0)),
+            ("reemit_temperature", Value::Number(1200.0)),
         ]);
         let n = 100_000;
         let out = land_all(&mut law, &impacts(n, 95.0, 2300.0));
         let mut v = bounce_speeds(&out);
         assert_eq!(v.len() as u64, n, "no atom sticks");
         let nf = n as f64;
-        // check-values §6: Na at 1200 K, a = 931.66 m/s, <v> = 1238.49 m/s (C); sd of the
-        // flux speed a sqrt(2 - 9 pi/16) (chi with 4 degrees of freedom, C).
+        // Maxwellian flux, Na at 1200 K: a = 931.66 m/s, <v> = 1238.49 m/s
+        // (tests/python/sampler_reference_values.py); sd of the flux speed a sqrt(2 - 9 pi/16)
+        // (moments of chi with 4 degrees of freedom).
         let a = 931.66;
         let mean = v.iter().sum::<f64>() / nf;
         let sd = a * (2.0 - 9.0 * core::f64::consts::PI / 16.0).sqrt();
         assert!((mean - 1238.49).abs() < 3.0 * sd / nf.sqrt(), "mean {mean}");
-        // check-values §6: CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2) (C); KS at p = 0.01.
-        v.sort_by(f64::total_cmp);
-        let d = v
-            .iter()
-            .enumerate()
-            .map(|(i, &x)| {
-                let q = x * x / (a * a);
-                let f = 1.0 - (1.0 + q) * math::exp(-q);
-                (f - i as f64 / nf).abs().max((f - (i + 1) as f64 / nf).abs())
-            })
-            .fold(0.0, f64::max);
+        // Maxwellian flux CDF = 1 - (1 + v^2/a^2) exp(-v^2/a^2) (integral of v^3
+        // exp(-v^2/a^2)); KS at p = 0.01.
         // a is rounded to 0.01 m/s (1e-5 relative), far below the KS resolution here.
-        assert!(d < KS_1PC / nf.sqrt(), "KS distance {d}");
+        testing::assert_ks("re-emission speed", &mut v, |x| {
+            let q = x * x / (a * a);
+            1.0 - (1.0 + q) * math::exp(-q)
+        });
         // Cosine law: <cos theta> = 2/3, variance 1/18 (from f ~ cos theta sin theta,
         // common practice).
         let mean_cos = out.iter().map(|o| o.velocity.up / o.velocity.speed()).sum::<f64>() / nf;
@@ -522,14 +487,18 @@ mod tests {
 
     #[test]
     fn mean_reemitted_energy_obeys_the_accommodation_definition() {
-        // check-values §7: alpha = (E_in - E_out)/(E_in - 2kT_s) (M), so
+        // alpha = (E_in - E_out)/(E_in - 2kT_s) (Hunten, Morgan & Shemansky 1988, in Mercury,
+        // Univ. Arizona Press; from memory), so
         // <E_out> = E_in - alpha (E_in - 2kT_s). Test a fast atom on a cool surface and a
         // slow atom on a hot one, for alpha within the 0.2-0.6 range quoted there.
         let n = 100_000;
         let nf = n as f64;
         for (alpha, t_s, v_in) in [(0.4, 300.0, 2000.0), (0.2, 600.0, 300.0), (0.6, 450.0, 1000.0)]
         {
-            let mut law = law_with(&[("sticking", num(0.0)), ("accommodation", num(alpha))]);
+            let mut law = law_with(&[
+                ("sticking", Value::Number(0.0)),
+                ("accommodation", Value::Number(alpha)),
+            ]);
             let out = land_all(&mut law, &impacts(n, t_s, v_in));
             let e: Vec<f64> = bounce_speeds(&out).iter().map(|v| 0.5 * NA_MASS * v * v).collect();
             assert_eq!(e.len() as u64, n);
@@ -538,7 +507,7 @@ mod tests {
             let expected = e_in - alpha * (e_in - e_th);
             let mean = e.iter().sum::<f64>() / nf;
             // E_out = alpha E_th + const, and Var(E_th) = 2 (kT)^2 for the Maxwellian flux
-            // (Gamma(2, kT) energy, C): sd(E_out) = alpha sqrt(2) kT_s.
+            // (Gamma(2, kT) energy): sd(E_out) = alpha sqrt(2) kT_s.
             let sd = alpha * core::f64::consts::SQRT_2 * BOLTZMANN * t_s;
             assert!(
                 (mean - expected).abs() < 3.0 * sd / nf.sqrt(),
@@ -554,9 +523,10 @@ mod tests {
 
     #[test]
     fn elastic_limit_keeps_the_speed() {
-        // alpha = 0: E_out = E_in exactly (check-values §7 definition); only the direction
+        // alpha = 0: E_out = E_in exactly (definition of alpha); only the direction
         // is redrawn from the cosine law.
-        let mut law = law_with(&[("sticking", num(0.0)), ("accommodation", num(0.0))]);
+        let mut law =
+            law_with(&[("sticking", Value::Number(0.0)), ("accommodation", Value::Number(0.0))]);
         let hits = impacts(1000, 400.0, 1700.0);
         let out = land_all(&mut law, &hits);
         for s in bounce_speeds(&out) {
@@ -565,82 +535,47 @@ mod tests {
     }
 
     /// Runs every manifest reference point the way the host's `module check`
-    /// would: parameters through the schema, the input record by field name.
+    /// does: parameters through the schema, the input record by field name,
+    /// 100 000 landings with the host's keys for each stick fraction.
     #[test]
     fn manifest_reference_points_hold() {
-        for point in SurfaceAccommodation::MANIFEST.reference_points {
-            assert_eq!(point.check, Check::StickFraction);
-            let given: Vec<(&str, ParamValue)> = point
-                .parameters
-                .iter()
-                .map(|(k, v)| match v {
-                    Value::Number(x) => (*k, ParamValue::Number(*x)),
-                    Value::Text(s) => (*k, ParamValue::Text(s.to_string())),
-                })
-                .collect();
-            let mut law = law_with(&given);
-            let mut hit = Impact::default();
-            for (k, v) in point.input {
-                assert!(hit.set_field(k, *v), "unknown field {k}");
-            }
-            // 200 000 landings: the binomial standard error sqrt(0.21/N) =
-            // 0.001 is a sixth of the tolerance 0.02 * 0.3 = 0.006 (and
-            // sqrt(0.1875/N) = 0.001 a fifteenth of 0.015 at S = 0.75).
-            let n = 200_000;
-            let hits: Vec<Impact> = (0..n)
-                .map(|i| Impact {
-                    key: RngKey { seed: 5, particle: i, event: 2, stream: stream::SURFACE },
-                    ..hit
-                })
-                .collect();
-            let got = stick_fraction(&land_all(&mut law, &hits));
-            // Sticking fractions from the definition of the law or from memory of Yakshinskiy
-            // & Madey 2005, as each point states, within its relative tolerance (absolute for
-            // an expected 0, as the host judges it).
-            let scale = if point.expected == 0.0 { 1.0 } else { point.expected };
-            assert!(
-                (got - point.expected).abs() <= point.tolerance * scale,
-                "{}: got {got}",
-                point.description
-            );
-        }
+        testing::assert_reference_points(
+            &Roles::<SurfaceAccommodation>::new().surface_interaction(),
+        );
     }
 
     #[test]
     fn outcomes_depend_only_on_the_key() {
         let mut law = law_with(&[]);
-        let hits = impacts(2, 350.0, 1200.0);
-        let forward = land_all(&mut law, &hits);
-        let backward = land_all(&mut law, &[hits[1], hits[0]]);
-        // Counter-based streams: the batch order does not matter.
-        assert_eq!(forward[0], backward[1]);
-        assert_eq!(forward[1], backward[0]);
+        let hits = impacts(8, 350.0, 1200.0);
+        // Counter-based streams: the batch's order and cuts do not matter.
+        testing::assert_batch_invariant("land", &hits, |h, o| law.land(h, o));
     }
 
     #[test]
     fn refuses_nonsense_inputs() {
-        let mut linear = law_with(&[("sticking_model", text("linear"))]);
-        let mut out = [Outcome::LOST];
-        let cold = impacts(1, 0.0, 1000.0);
-        let err = linear.land(&cold, &mut out).unwrap_err();
+        let linear = law_with(&[("sticking_model", Value::Text("linear"))]);
+        let err = linear.land_one(&impacts(1, 0.0, 1000.0)[0]).unwrap_err();
         assert_eq!(err.code, ErrorCode::OutsideValidity);
         assert!(err.message.contains("cell 42") && err.message.contains("0 K"), "{err}");
         // Constant law, thermal re-emission at an unusable surface temperature.
-        let mut bouncy = law_with(&[("sticking", num(0.0))]);
-        let err = bouncy.land(&impacts(1, f64::NAN, 1000.0), &mut out).unwrap_err();
+        let bouncy = law_with(&[("sticking", Value::Number(0.0))]);
+        let err = bouncy.land_one(&impacts(1, f64::NAN, 1000.0)[0]).unwrap_err();
         assert_eq!(err.code, ErrorCode::OutsideValidity);
         // ... which a fixed re-emission temperature makes usable.
-        let mut fixed = law_with(&[("sticking", num(0.0)), ("reemit_temperature", num(500.0))]);
-        fixed.land(&impacts(1, f64::NAN, 1000.0), &mut out).unwrap();
-        assert_eq!(out[0].kind, OutcomeKind::Bounce as u32);
+        let fixed = law_with(&[
+            ("sticking", Value::Number(0.0)),
+            ("reemit_temperature", Value::Number(500.0)),
+        ]);
+        let out = fixed.land_one(&impacts(1, f64::NAN, 1000.0)[0]).unwrap();
+        assert_eq!(out.kind, OutcomeKind::Bounce as u32);
         // A zero impact speed cannot be partially accommodated.
-        let err = bouncy.land(&impacts(1, 300.0, 0.0), &mut out).unwrap_err();
+        let err = bouncy.land_one(&impacts(1, 300.0, 0.0)[0]).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
         // Out-of-range parameters are refused by the schema with name and range.
-        let map: BTreeMap<String, ParamValue> =
-            [("accommodation".to_string(), num(1.5))].into_iter().collect();
-        let err = Params::validate(&map, &SurfaceAccommodation::MANIFEST.to_info().parameters)
-            .unwrap_err();
+        let err =
+            testing::validate::<SurfaceAccommodation>(&[("accommodation", Value::Number(1.5))])
+                .unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidParameter);
         assert!(err.message.contains("accommodation") && err.message.contains("[0, 1]"), "{err}");
     }

@@ -62,11 +62,13 @@
 
 use exobound_sdk::constants::{BOLTZMANN, ELECTRON_VOLT};
 use exobound_sdk::{
-    CellState, Check, ErrorCode, Input, LaunchRequest, Manifest, Origin, ParamKind, ParamSpec,
-    Params, Pool, Process, ProcessError, ReferencePoint, Rng, Role, Source, Value, Velocity, math,
+    CellState, Check, DirectionLaw, ErrorCode, Input, LaunchLaw, LaunchRequest, Manifest, Origin,
+    ParamKind, ParamSpec, Params, Pool, Process, ProcessError, Quantity, ReferencePoint, Rng, Role,
+    Source, SpeedLaw, Value, Velocity, math,
 };
 
-/// Mass of one Na atom, kg (22.98976928 u, IUPAC; check-values §2), used by
+/// Mass of one Na atom, kg (22.98976928 u, the IUPAC standard atomic weight;
+/// Prohaska et al. 2022, Pure Appl. Chem. 94, 573), used by
 /// the launch-speed reference point.
 const NA_MASS: f64 = 22.989_769_28 * exobound_sdk::constants::ATOMIC_MASS;
 
@@ -307,7 +309,9 @@ impl Process for ThermalDesorption {
                 input: &[("temperature", 600.0), ("adsorbed", 1.0e10)],
                 expected: 2.889e7,
                 tolerance: 1.0e-3,
-                source: "check-values §7, thermal desorption (M: Hunten & Sprague 2002; C)",
+                source: "nu exp(-U/kT) with nu = 1e13 s^-1 and U for Na (Hunten & Sprague 2002, \
+                         Meteoritics & Planet. Sci. 37, 1191, from memory), evaluated in \
+                         tests/python/module_reference_values.py",
             },
             ReferencePoint {
                 description: "U = 1.85 eV, T = 400 K, N_s = 1e10 cm^-2: 4.91e-11 s^-1 per atom",
@@ -316,7 +320,9 @@ impl Process for ThermalDesorption {
                 input: &[("temperature", 400.0), ("adsorbed", 1.0e10)],
                 expected: 4.91e-1,
                 tolerance: 1.0e-3,
-                source: "check-values §7, thermal desorption (M: Hunten & Sprague 2002; C)",
+                source: "nu exp(-U/kT) with nu = 1e13 s^-1 and U for Na (Hunten & Sprague 2002, \
+                         Meteoritics & Planet. Sci. 37, 1191, from memory), evaluated in \
+                         tests/python/module_reference_values.py",
             },
             ReferencePoint {
                 description: "U = 1.4 eV, T = 400 K, N_s = 1e10 cm^-2: 2.295e-5 s^-1 per atom",
@@ -325,7 +331,9 @@ impl Process for ThermalDesorption {
                 input: &[("temperature", 400.0), ("adsorbed", 1.0e10)],
                 expected: 2.295e5,
                 tolerance: 1.0e-3,
-                source: "check-values §7, thermal desorption (M: Hunten & Sprague 2002; C)",
+                source: "nu exp(-U/kT) with nu = 1e13 s^-1 and U for Na (Hunten & Sprague 2002, \
+                         Meteoritics & Planet. Sci. 37, 1191, from memory), evaluated in \
+                         tests/python/module_reference_values.py",
             },
             ReferencePoint {
                 description: "U = 2.0 eV, T = 700 K, N_s = 1e10 cm^-2: 3.987e-2 s^-1 per atom",
@@ -334,7 +342,9 @@ impl Process for ThermalDesorption {
                 input: &[("temperature", 700.0), ("adsorbed", 1.0e10)],
                 expected: 3.987e8,
                 tolerance: 1.0e-3,
-                source: "check-values §7, thermal desorption (M: Hunten & Sprague 2002; C)",
+                source: "nu exp(-U/kT) with nu = 1e13 s^-1 and U for Na (Hunten & Sprague 2002, \
+                         Meteoritics & Planet. Sci. 37, 1191, from memory), evaluated in \
+                         tests/python/module_reference_values.py",
             },
             ReferencePoint {
                 description: "Uniform spread 1.85 +- 0.2 eV, T = 600 K, N_s = 1e10 cm^-2: \
@@ -345,11 +355,13 @@ impl Process for ThermalDesorption {
                     ("binding_half_width", Value::Number(0.2)),
                 ],
                 input: &[("temperature", 600.0), ("adsorbed", 1.0e10)],
-                // Closed form, CODATA 2022 constants, mpmath at 30 digits.
+                // Closed form, SI-exact k_B and e, mpmath at 40 digits
+                // (tests/python/module_reference_values.py).
                 expected: 178_601_234.296_213_6,
                 tolerance: 1.0e-9,
-                source: "closed form of the uniform average of exp(-U/kT) (C), on the law of \
-                         check-values §7 (M: Hunten & Sprague 2002)",
+                source: "closed form of the uniform average of exp(-U/kT) \
+                         (tests/python/module_reference_values.py), on the law of Hunten & \
+                         Sprague 2002, Meteoritics & Planet. Sci. 37, 1191 (from memory)",
             },
             ReferencePoint {
                 description: "Gaussian spread about 1.85 eV, sigma 0.1 eV cut at 3 sigma, \
@@ -361,11 +373,13 @@ impl Process for ThermalDesorption {
                 ],
                 input: &[("temperature", 600.0), ("adsorbed", 1.0e10)],
                 // nu exp(-U0/kT + r^2/2) [Phi(3 - r) - Phi(-3 - r)] / [Phi(3) - Phi(-3)] N_s,
-                // r = sigma/kT, mpmath at 30 digits (and its quad agrees to 1e-20).
+                // r = sigma/kT, mpmath at 40 digits, and its quadrature agrees to 1e-20
+                // (tests/python/module_reference_values.py).
                 expected: 161_065_270.543_741_06,
                 tolerance: 1.0e-9,
-                source: "closed form of the truncated-Gaussian average of exp(-U/kT) (C), on \
-                         the law of check-values §7 (M: Hunten & Sprague 2002)",
+                source: "closed form of the truncated-Gaussian average of exp(-U/kT) \
+                         (tests/python/module_reference_values.py), on the law of Hunten & \
+                         Sprague 2002, Meteoritics & Planet. Sci. 37, 1191 (from memory)",
             },
             ReferencePoint {
                 description: "Na launched from a 1200 K surface: mean Maxwellian-flux speed \
@@ -375,7 +389,8 @@ impl Process for ThermalDesorption {
                 input: &[("temperature", 1200.0), ("mass", NA_MASS)],
                 expected: 1238.49,
                 tolerance: 0.01,
-                source: "check-values §6, Maxwellian flux, Na 1200 K (C)",
+                source: "mean of the Maxwellian flux (3 sqrt(pi)/4) sqrt(2kT/m), Na at 1200 K \
+                         (closed form; tests/python/sampler_reference_values.py)",
             },
         ],
     };
@@ -432,86 +447,67 @@ impl Process for ThermalDesorption {
 }
 
 impl Source for ThermalDesorption {
-    fn release_rate(&mut self, cells: &[CellState], rates: &mut [f64]) -> Result<(), ProcessError> {
-        if cells.len() != rates.len() {
-            return Err(ProcessError::new(
-                ErrorCode::InvalidInput,
-                format!("{} cells but {} rate slots", cells.len(), rates.len()),
-            ));
-        }
-        for (cell, rate) in cells.iter().zip(rates.iter_mut()) {
-            if !usable_temperature(cell.temperature) {
-                return Err(ProcessError::outside_validity(format!(
-                    "cell {}: surface temperature {} K; thermal desorption needs a finite \
-                     temperature above 0 K",
-                    cell.cell, cell.temperature
-                )));
-            }
-            if !(cell.adsorbed.is_finite() && cell.adsorbed >= 0.0) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: adsorbed surface density {} atoms cm^-2; it must be finite \
-                         and >= 0",
-                        cell.cell, cell.adsorbed
-                    ),
-                ));
-            }
-            // First order in the coverage: every adsorbed atom leaves
-            // independently at the Arrhenius rate of its site. The host, not
-            // the law, caps the release of a step by the pool it holds, so a
-            // rate far above N_s / dt (Mercury's subsolar point) is correct
-            // here and simply empties the cell.
-            *rate = cell.adsorbed * self.rate_per_atom(cell.temperature);
-        }
-        Ok(())
-    }
+    /// Maxwellian-flux speeds at the surface temperature of the launch,
+    /// cosine-law directions (see `launch_one`).
+    const LAUNCH_LAWS: &'static [LaunchLaw] = &[LaunchLaw {
+        when: &[],
+        speed: SpeedLaw::MaxwellianFlux { temperature: Quantity::Input("temperature") },
+        direction: DirectionLaw::Cosine,
+    }];
 
-    fn launch(
-        &mut self,
-        requests: &[LaunchRequest],
-        velocities: &mut [Velocity],
-    ) -> Result<(), ProcessError> {
-        if requests.len() != velocities.len() {
+    fn release_rate_one(&self, cell: &CellState) -> Result<f64, ProcessError> {
+        if !usable_temperature(cell.temperature) {
+            return Err(ProcessError::outside_validity(format!(
+                "cell {}: surface temperature {} K; thermal desorption needs a finite \
+                 temperature above 0 K",
+                cell.cell, cell.temperature
+            )));
+        }
+        if !(cell.adsorbed.is_finite() && cell.adsorbed >= 0.0) {
             return Err(ProcessError::new(
                 ErrorCode::InvalidInput,
                 format!(
-                    "{} launch requests but {} velocity slots",
-                    requests.len(),
-                    velocities.len()
+                    "cell {}: adsorbed surface density {} atoms cm^-2; it must be finite and >= 0",
+                    cell.cell, cell.adsorbed
                 ),
             ));
         }
-        for (req, v) in requests.iter().zip(velocities.iter_mut()) {
-            if !usable_temperature(req.temperature) {
-                return Err(ProcessError::outside_validity(format!(
-                    "cell {}: surface temperature {} K at launch; a thermal launch needs a \
-                     finite temperature above 0 K",
-                    req.cell, req.temperature
-                )));
-            }
-            if !(req.mass.is_finite() && req.mass > 0.0) {
-                return Err(ProcessError::new(
-                    ErrorCode::InvalidInput,
-                    format!(
-                        "cell {}: atomic mass {} kg; it must be finite and > 0",
-                        req.cell, req.mass
-                    ),
-                ));
-            }
-            // An atom that desorbs from a surface in equilibrium at T leaves
-            // with the distribution of atoms crossing a plane, the Maxwellian
-            // *flux* (weighted by v cos theta), not the Maxwellian of the gas
-            // itself: hence v^3 exp(-v^2/a^2) and the cosine law, mean energy
-            // 2kT rather than 3kT/2.
-            //
-            // One stream per record: the draw depends only on the key, never
-            // on the record's place in the batch. Speed first, then direction.
-            let mut rng = Rng::new(req.key);
-            let speed = rng.maxwellian_flux_speed(req.temperature, req.mass);
-            *v = rng.cosine_direction().times(speed);
+        // First order in the coverage: every adsorbed atom leaves
+        // independently at the Arrhenius rate of its site. The host, not the
+        // law, caps the release of a step by the pool it holds, so a rate far
+        // above N_s / dt (Mercury's subsolar point) is correct here and
+        // simply empties the cell.
+        Ok(cell.adsorbed * self.rate_per_atom(cell.temperature))
+    }
+
+    fn launch_one(&self, req: &LaunchRequest) -> Result<Velocity, ProcessError> {
+        if !usable_temperature(req.temperature) {
+            return Err(ProcessError::outside_validity(format!(
+                "cell {}: surface temperature {} K at launch; a thermal launch needs a finite \
+                 temperature above 0 K",
+                req.cell, req.temperature
+            )));
         }
-        Ok(())
+        if !(req.mass.is_finite() && req.mass > 0.0) {
+            return Err(ProcessError::new(
+                ErrorCode::InvalidInput,
+                format!(
+                    "cell {}: atomic mass {} kg; it must be finite and > 0",
+                    req.cell, req.mass
+                ),
+            ));
+        }
+        // An atom that desorbs from a surface in equilibrium at T leaves with
+        // the distribution of atoms crossing a plane, the Maxwellian *flux*
+        // (weighted by v cos theta), not the Maxwellian of the gas itself:
+        // hence v^3 exp(-v^2/a^2) and the cosine law, mean energy 2kT rather
+        // than 3kT/2.
+        //
+        // One stream per record: the draw depends only on the key, never on
+        // the record's place in the batch. Speed first, then direction.
+        let mut rng = Rng::new(req.key);
+        let speed = rng.maxwellian_flux_speed(req.temperature, req.mass);
+        Ok(rng.cosine_direction().times(speed))
     }
 }
 
@@ -519,24 +515,16 @@ exobound_sdk::export_process!(ThermalDesorption: Source);
 
 #[cfg(test)]
 mod tests {
-    use std::collections::BTreeMap;
-
     use exobound_sdk::constants::ATOMIC_MASS;
-    use exobound_sdk::{NamedFields, ParamValue, RngKey, stream};
+    use exobound_sdk::testing::{self, Roles};
+    use exobound_sdk::{RngKey, stream};
 
     use super::*;
 
-    /// The parameter schema exactly as the host decodes it from the manifest.
-    fn schema() -> Vec<exobound_sdk::ParamInfo> {
-        ThermalDesorption::MANIFEST.to_info().parameters
-    }
-
-    /// The law built from `given` through the same decode/validate path as `init`.
-    fn law_with(given: &[(&str, ParamValue)]) -> ThermalDesorption {
-        let map: BTreeMap<String, ParamValue> =
-            given.iter().map(|(k, v)| (k.to_string(), v.clone())).collect();
-        let params = Params::decode(&Params::encode(&map), &schema()).expect("valid parameters");
-        ThermalDesorption::new(&params).expect("law builds")
+    /// The law with the parameters `given` (others at their defaults), built
+    /// as the module's `init` builds it.
+    fn law_with(given: &[(&str, Value)]) -> ThermalDesorption {
+        testing::law(given)
     }
 
     /// A cell (index 17) at `temperature` K holding `adsorbed` atoms cm^-2.
@@ -557,18 +545,18 @@ mod tests {
     }
 
     /// |got - stated| within half a unit of the stated value's last digit,
-    /// i.e. `got` rounds to the value as printed in check-values.
+    /// i.e. `got` rounds to the value as printed in its source.
     fn assert_rounds_to(got: f64, stated: f64, last_digit: f64) {
         assert!((got - stated).abs() <= 0.5 * last_digit, "got {got:e}, stated {stated:e}");
     }
 
     #[test]
     fn defaults_come_from_the_manifest() {
-        let params = Params::decode(&[], &schema()).expect("defaults validate");
-        let law = ThermalDesorption::new(&params).unwrap();
-        // nu = 1e13 s^-1: common practice (check-values §7).
+        let law = law_with(&[]);
+        // nu = 1e13 s^-1: common practice.
         assert_eq!(law.vibrational_frequency, 1.0e13);
-        // U = 1.85 eV for Na: from memory, Hunten & Sprague 2002 (check-values §7).
+        // U = 1.85 eV for Na: from memory, Hunten & Sprague 2002 (Meteoritics & Planet. Sci.
+        // 37, 1191).
         assert_eq!(law.binding_energy, 1.85);
         let info = ThermalDesorption::MANIFEST.to_info();
         assert_eq!(info.draws_on.as_deref(), Some("adsorbed"));
@@ -576,18 +564,18 @@ mod tests {
     }
 
     #[test]
-    fn per_atom_rates_match_check_values() {
+    fn per_atom_rates_match_the_arrhenius_values() {
         let law = law_with(&[]);
-        // check-values §7, thermal desorption, U = 1.85 eV, T = 600 K: 2.889e-3 s^-1
-        // (M: Hunten & Sprague 2002; C).
+        // nu exp(-U/kT), U = 1.85 eV (Hunten & Sprague 2002, Meteoritics & Planet. Sci. 37,
+        // 1191, from memory), T = 600 K: 2.889e-3 s^-1 (tests/python/module_reference_values.py).
         assert_rounds_to(law.rate_per_atom(600.0), 2.889e-3, 1e-6);
-        // check-values §7, U = 1.85 eV, T = 400 K: 4.91e-11 s^-1 (M: Hunten & Sprague 2002; C).
+        // U = 1.85 eV, T = 400 K: 4.91e-11 s^-1 (same law and script).
         assert_rounds_to(law.rate_per_atom(400.0), 4.91e-11, 1e-13);
-        let law = law_with(&[("binding_energy", ParamValue::Number(1.4))]);
-        // check-values §7, U = 1.4 eV, T = 400 K: 2.295e-5 s^-1 (M: Hunten & Sprague 2002; C).
+        let law = law_with(&[("binding_energy", Value::Number(1.4))]);
+        // U = 1.4 eV, T = 400 K: 2.295e-5 s^-1 (same law and script).
         assert_rounds_to(law.rate_per_atom(400.0), 2.295e-5, 1e-8);
-        let law = law_with(&[("binding_energy", ParamValue::Number(2.0))]);
-        // check-values §7, U = 2.0 eV, T = 700 K: 3.987e-2 s^-1 (M: Hunten & Sprague 2002; C).
+        let law = law_with(&[("binding_energy", Value::Number(2.0))]);
+        // U = 2.0 eV, T = 700 K: 3.987e-2 s^-1 (same law and script).
         assert_rounds_to(law.rate_per_atom(700.0), 3.987e-2, 1e-5);
     }
 
@@ -597,8 +585,8 @@ mod tests {
         let cells = [cell(600.0, 1.0e10), cell(600.0, 3.0e10), cell(600.0, 0.0)];
         let mut rates = [f64::NAN; 3];
         law.release_rate(&cells, &mut rates).unwrap();
-        // check-values §7: 2.889e-3 s^-1 per atom at 600 K, times N_s = 1e10 cm^-2
-        // (M: Hunten & Sprague 2002; C).
+        // 2.889e-3 s^-1 per atom at 600 K (Hunten & Sprague 2002 law, from memory;
+        // tests/python/module_reference_values.py), times N_s = 1e10 cm^-2.
         assert_rounds_to(rates[0], 2.889e7, 1e4);
         // First-order kinetics (Polanyi-Wigner, order 1, common practice): Phi ~ N_s.
         assert!((rates[1] / rates[0] - 3.0).abs() < 1e-15);
@@ -608,7 +596,7 @@ mod tests {
     #[test]
     fn residence_time_at_mercury_subsolar_is_short() {
         let law = law_with(&[]);
-        // 1/(2.889e-3 s^-1) = 346 s at 600 K (check-values §7, C): adsorbed Na
+        // 1/(2.889e-3 s^-1) = 346 s at 600 K (the value above): adsorbed Na
         // cannot survive a Mercury dayside at perihelion.
         let tau = law.residence_time(600.0);
         assert!((tau - 1.0 / 2.889e-3).abs() < 0.1, "tau {tau}");
@@ -617,60 +605,20 @@ mod tests {
     /// The manifest's promises are tested here and not only by the host:
     /// a wrong `expected`, a field name the records do not know or a
     /// parameter outside the schema fails this test before any module is
-    /// shipped.
+    /// shipped. The stochastic point is averaged exactly as the host does.
     #[test]
     fn manifest_reference_points_hold() {
-        // Each reference point run the way the host's `module check` would:
-        // parameters through the manifest schema, input record by field name.
-        for point in ThermalDesorption::MANIFEST.reference_points {
-            let given: Vec<(&str, ParamValue)> = point
-                .parameters
-                .iter()
-                .map(|(k, v)| match v {
-                    Value::Number(x) => (*k, ParamValue::Number(*x)),
-                    Value::Text(s) => (*k, ParamValue::Text(s.to_string())),
-                })
-                .collect();
-            let mut law = law_with(&given);
-            let got = match point.check {
-                Check::ReleaseRate => {
-                    let mut c = CellState::default();
-                    for (k, v) in point.input {
-                        assert!(c.set_field(k, *v), "unknown field {k}");
-                    }
-                    let mut out = [0.0];
-                    law.release_rate(&[c], &mut out).unwrap();
-                    out[0]
-                }
-                Check::MeanLaunchSpeed => {
-                    let mut r = LaunchRequest::default();
-                    for (k, v) in point.input {
-                        assert!(r.set_field(k, *v), "unknown field {k}");
-                    }
-                    // 20 000 draws: the standard error of the mean speed is
-                    // 0.36 <v> / sqrt(N) = 0.26% of <v>, a quarter of the
-                    // 1% tolerance.
-                    let n = 20_000;
-                    let reqs: Vec<LaunchRequest> = (0..n)
-                        .map(|i| LaunchRequest {
-                            key: RngKey { seed: 11, particle: i, event: 0, stream: stream::LAUNCH },
-                            ..r
-                        })
-                        .collect();
-                    let mut vs = vec![Velocity::ZERO; reqs.len()];
-                    law.launch(&reqs, &mut vs).unwrap();
-                    vs.iter().map(Velocity::speed).sum::<f64>() / n as f64
-                }
-                other => panic!("unexpected check {other:?}"),
-            };
-            // Expected values and sources are stated in each point (check-values §6, §7).
-            assert!(
-                (got - point.expected).abs() <= point.tolerance * point.expected.abs(),
-                "{}: got {got}, expected {}",
-                point.description,
-                point.expected
-            );
-        }
+        testing::assert_reference_points(&Roles::<ThermalDesorption>::new().source());
+    }
+
+    /// The launches against the laws declared in `LAUNCH_LAWS`, as `vet`
+    /// tests them (one-sample KS tests at p = 0.01 of speeds or energies and
+    /// of directions; the distribution functions and their sources are in
+    /// `exobound_sdk::launch_law`).
+    #[test]
+    fn launches_follow_the_declared_laws() {
+        let base = LaunchRequest { temperature: 600.0, mass: NA_MASS, ..LaunchRequest::default() };
+        testing::assert_launch_laws::<ThermalDesorption>(base, 20_000, 3);
     }
 
     #[test]
@@ -685,16 +633,19 @@ mod tests {
         let nf = n as f64;
         let speeds: Vec<f64> = vs.iter().map(Velocity::speed).collect();
         let mean = speeds.iter().sum::<f64>() / nf;
-        // check-values §6: Maxwellian flux, Na 1200 K, a = 931.66 m/s,
-        // <v> = 1238.49 m/s (C); the standard deviation of the flux speed is
-        // a sqrt(2 - 9 pi/16) (moments of chi with 4 degrees of freedom, C).
+        // Maxwellian flux, Na 1200 K, a = 931.66 m/s, <v> = 1238.49 m/s
+        // (tests/python/sampler_reference_values.py, scipy.stats.chi(df=4)); the standard
+        // deviation of the flux speed is a sqrt(2 - 9 pi/16) (moments of chi with 4 degrees
+        // of freedom).
         let a = 931.66;
         let sd = a * (2.0 - 9.0 * core::f64::consts::PI / 16.0).sqrt();
         assert!((mean - 1238.49).abs() < 3.0 * sd / nf.sqrt(), "mean speed {mean}");
-        // check-values §6: <E> = 2kT = 0.20682 eV for Na at 1200 K (C).
+        // <E> = 2kT = 0.20682 eV at 1200 K (mean of the flux energy distribution, a
+        // Gamma(2, kT); tests/python/module_reference_values.py).
         let mean_e = speeds.iter().map(|v| 0.5 * m * v * v).sum::<f64>() / nf / ELECTRON_VOLT;
-        // Var(E) = 2 (kT)^2 for a Gamma(2) energy, so sd(E) = sqrt(2) kT = 0.0731 eV (C).
-        assert!((mean_e - 0.20682).abs() < 3.0 * 0.0731 / nf.sqrt(), "mean energy {mean_e}");
+        // Var(E) = 2 (kT)^2 for a Gamma(2) energy, so sd(E) = sqrt(2) kT = 0.1462 eV
+        // (tests/python/module_reference_values.py).
+        assert!((mean_e - 0.20682).abs() < 3.0 * 0.1462 / nf.sqrt(), "mean energy {mean_e}");
         // Cosine law: <cos theta> = 2/3, Var = 1/2 - 4/9 = 1/18 (common practice derivation
         // from f(theta) ~ cos theta sin theta).
         let mean_cos = vs.iter().map(|v| v.up / v.speed()).sum::<f64>() / nf;
@@ -707,50 +658,47 @@ mod tests {
     #[test]
     fn launch_depends_only_on_the_key() {
         let mut law = law_with(&[]);
-        // K, 39.0983 u (check-values §2, F: IUPAC).
+        // K, 39.0983 u (IUPAC standard atomic weight; Prohaska et al. 2022, Pure Appl. Chem.
+        // 94, 573).
         let m = 39.0983 * ATOMIC_MASS;
-        let a = request(5, 500.0, m);
-        let b = request(6, 500.0, m);
-        let mut pair = [Velocity::ZERO; 2];
-        law.launch(&[a, b], &mut pair).unwrap();
-        let mut swapped = [Velocity::ZERO; 2];
-        law.launch(&[b, a], &mut swapped).unwrap();
-        // Counter-based streams: order in the batch is irrelevant, keys differ.
-        assert_eq!(pair[0], swapped[1]);
-        assert_eq!(pair[1], swapped[0]);
-        assert_ne!(pair[0], pair[1]);
+        let reqs: Vec<LaunchRequest> = (5..9).map(|i| request(i, 500.0 + i as f64, m)).collect();
+        // Counter-based streams: the batch's order and cuts are irrelevant, keys differ.
+        testing::assert_batch_invariant("launch", &reqs, |r, v| law.launch(r, v));
+        let (a, b) = (law.launch_one(&reqs[0]).unwrap(), law.launch_one(&reqs[1]).unwrap());
+        assert_ne!(a, b);
+        let cells = [cell(600.0, 1.0e10), cell(400.0, 3.0e12), cell(100.0, 0.0)];
+        testing::assert_batch_invariant("release_rate", &cells, |c, r| law.release_rate(c, r));
     }
 
     #[test]
     fn refuses_nonsense_inputs() {
-        let mut law = law_with(&[]);
-        let mut out = [0.0];
-        let err = law.release_rate(&[cell(0.0, 1.0e10)], &mut out).unwrap_err();
+        let law = law_with(&[]);
+        let err = law.release_rate_one(&cell(0.0, 1.0e10)).unwrap_err();
         assert_eq!(err.code, ErrorCode::OutsideValidity);
         assert!(err.message.contains("cell 17") && err.message.contains("0 K"), "{err}");
-        let err = law.release_rate(&[cell(f64::NAN, 1.0e10)], &mut out).unwrap_err();
+        let err = law.release_rate_one(&cell(f64::NAN, 1.0e10)).unwrap_err();
         assert_eq!(err.code, ErrorCode::OutsideValidity);
-        let err = law.release_rate(&[cell(300.0, -1.0)], &mut out).unwrap_err();
+        let err = law.release_rate_one(&cell(300.0, -1.0)).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
-        let mut v = [Velocity::ZERO];
-        let err = law.launch(&[request(1, -5.0, 1e-26)], &mut v).unwrap_err();
+        let err = law.launch_one(&request(1, -5.0, 1e-26)).unwrap_err();
         assert_eq!(err.code, ErrorCode::OutsideValidity);
         assert!(err.message.contains("cell 3"), "{err}");
-        let err = law.launch(&[request(1, 300.0, 0.0)], &mut v).unwrap_err();
+        let err = law.launch_one(&request(1, 300.0, 0.0)).unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidInput);
     }
 
     #[test]
     fn out_of_range_parameters_are_refused_by_the_schema() {
-        let map: BTreeMap<String, ParamValue> =
-            [("binding_energy".to_string(), ParamValue::Number(-1.0))].into_iter().collect();
-        let err = Params::validate(&map, &schema()).unwrap_err();
+        let err =
+            testing::validate::<ThermalDesorption>(&[("binding_energy", Value::Number(-1.0))])
+                .unwrap_err();
         assert_eq!(err.code, ErrorCode::InvalidParameter);
         assert!(err.message.contains("binding_energy") && err.message.contains("eV"), "{err}");
     }
 
     /// Closed form of the uniform average of exp(-U/kT) over [lo, hi] eV at
-    /// `t` K, dimensionless: (kT / (hi - lo)) (e^(-lo/kT) - e^(-hi/kT)) (C).
+    /// `t` K, dimensionless: (kT / (hi - lo)) (e^(-lo/kT) - e^(-hi/kT)) (integral of
+    /// an exponential).
     fn uniform_closed_form(lo: f64, hi: f64, t: f64) -> f64 {
         let kt = BOLTZMANN * t / ELECTRON_VOLT;
         kt / (hi - lo) * (-lo / kt).exp() * -(-(hi - lo) / kt).exp_m1()
@@ -773,7 +721,7 @@ mod tests {
 
     /// Closed form of the average of exp(-U/kT) over a normal spread about
     /// `u0` eV with standard deviation `s` eV truncated at +-3 s, at `t` K,
-    /// dimensionless (C): e^(-u0/kT + r^2/2) [Phi(3 - r) - Phi(-3 - r)] /
+    /// dimensionless (completing the square): e^(-u0/kT + r^2/2) [Phi(3 - r) - Phi(-3 - r)] /
     /// [Phi(3) - Phi(-3)], r = s/kT. With Phi(a) - Phi(b) =
     /// (erfc(x1) - erfc(x2)) / 2, x1 = (r - 3)/sqrt 2, x2 = (r + 3)/sqrt 2, and
     /// r^2/2 - x1^2 = 3r - 9/2, x1^2 - x2^2 = -6r, it is written through erfcx
@@ -813,9 +761,9 @@ mod tests {
         for t in [60.0, 100.0, 200.0, 400.0, 600.0, 700.0, 1000.0, 2000.0] {
             for (u0, w) in [(1.85, 0.2), (1.85, 1.0), (1.4, 0.05), (0.8, 0.75)] {
                 let law = law_with(&[
-                    ("binding_energy", ParamValue::Number(u0)),
-                    ("binding_spread", ParamValue::Text("uniform".into())),
-                    ("binding_half_width", ParamValue::Number(w)),
+                    ("binding_energy", Value::Number(u0)),
+                    ("binding_spread", Value::Text("uniform")),
+                    ("binding_half_width", Value::Number(w)),
                 ]);
                 let want = 1.0e13 * uniform_closed_form(u0 - w, u0 + w, t);
                 let got = law.rate_per_atom(t);
@@ -826,9 +774,9 @@ mod tests {
             }
             for (u0, s) in [(1.85, 0.1), (1.85, 0.5), (2.0, 0.02), (1.6, 0.25)] {
                 let law = law_with(&[
-                    ("binding_energy", ParamValue::Number(u0)),
-                    ("binding_spread", ParamValue::Text("gaussian".into())),
-                    ("binding_sigma", ParamValue::Number(s)),
+                    ("binding_energy", Value::Number(u0)),
+                    ("binding_spread", Value::Text("gaussian")),
+                    ("binding_sigma", Value::Number(s)),
                 ]);
                 let want = 1.0e13 * gaussian_closed_form(u0, s, t);
                 let got = law.rate_per_atom(t);
@@ -842,20 +790,21 @@ mod tests {
 
     #[test]
     fn spread_rate_worked_points() {
-        // Closed forms evaluated with mpmath at 30 digits (C): uniform 1.85 +- 0.2 eV at
-        // 600 K gives 1.786012343e-2 s^-1, 400 K gives 1.4005025747e-9 s^-1; the Gaussian
-        // (sigma 0.1 eV) gives 1.6106527054e-2 and 1.7853589223e-9 s^-1.
+        // Closed forms evaluated with mpmath at 40 digits
+        // (tests/python/module_reference_values.py): uniform 1.85 +- 0.2 eV at 600 K gives
+        // 1.786012343e-2 s^-1, 400 K gives 1.4005025747e-9 s^-1; the Gaussian (sigma 0.1 eV)
+        // gives 1.6106527054e-2 and 1.7853589223e-9 s^-1.
         let uni = law_with(&[
-            ("binding_spread", ParamValue::Text("uniform".into())),
-            ("binding_half_width", ParamValue::Number(0.2)),
+            ("binding_spread", Value::Text("uniform")),
+            ("binding_half_width", Value::Number(0.2)),
         ]);
         assert!((uni.rate_per_atom(600.0) / 1.786_012_342_962_136e-2 - 1.0).abs() < 1e-9);
         assert!((uni.rate_per_atom(400.0) / 1.400_502_574_724_996e-9 - 1.0).abs() < 1e-9);
-        let gau = law_with(&[("binding_spread", ParamValue::Text("gaussian".into()))]);
+        let gau = law_with(&[("binding_spread", Value::Text("gaussian"))]);
         assert!((gau.rate_per_atom(600.0) / 1.610_652_705_437_411e-2 - 1.0).abs() < 1e-9);
         assert!((gau.rate_per_atom(400.0) / 1.785_358_922_265_082e-9 - 1.0).abs() < 1e-9);
         // A spread raises the rate above the single-U value at the same centre (Jensen's
-        // inequality, exp convex): check-values §7 single value 2.889e-3 s^-1 at 600 K.
+        // inequality, exp convex): single value 2.889e-3 s^-1 at 600 K.
         let single = law_with(&[]).rate_per_atom(600.0);
         assert!(uni.rate_per_atom(600.0) > single && gau.rate_per_atom(600.0) > single);
     }
@@ -865,10 +814,8 @@ mod tests {
         // The limit of a spread of zero width is the single binding energy (definition).
         let single = law_with(&[]);
         for (spread, width) in [("uniform", "binding_half_width"), ("gaussian", "binding_sigma")] {
-            let law = law_with(&[
-                ("binding_spread", ParamValue::Text(spread.into())),
-                (width, ParamValue::Number(0.0)),
-            ]);
+            let law =
+                law_with(&[("binding_spread", Value::Text(spread)), (width, Value::Number(0.0))]);
             assert_eq!(law.spread, BindingSpread::Single);
             assert_eq!(law.rate_per_atom(500.0), single.rate_per_atom(500.0));
         }
@@ -877,31 +824,27 @@ mod tests {
             ("uniform", "binding_half_width", 0.6, "[0, 0.5)"),
             ("gaussian", "binding_sigma", 0.2, "[0, 0.16666"),
         ] {
-            let map: BTreeMap<String, ParamValue> = [
-                ("binding_energy".to_string(), ParamValue::Number(0.5)),
-                ("binding_spread".to_string(), ParamValue::Text(spread.into())),
-                (width.to_string(), ParamValue::Number(value)),
-            ]
-            .into();
-            let params = Params::validate(&map, &schema()).unwrap();
-            let err = ThermalDesorption::new(&params).unwrap_err();
+            let err = testing::try_law::<ThermalDesorption>(&[
+                ("binding_energy", Value::Number(0.5)),
+                ("binding_spread", Value::Text(spread)),
+                (width, Value::Number(value)),
+            ])
+            .unwrap_err();
             assert_eq!(err.code, ErrorCode::InvalidParameter);
             assert!(err.message.contains(width) && err.message.contains(range), "{err}");
         }
         // Out-of-range widths are refused by the schema itself.
-        let map: BTreeMap<String, ParamValue> =
-            [("binding_sigma".to_string(), ParamValue::Number(0.6))].into();
-        let err = Params::validate(&map, &schema()).unwrap_err();
+        let err = testing::validate::<ThermalDesorption>(&[("binding_sigma", Value::Number(0.6))])
+            .unwrap_err();
         assert!(err.message.contains("binding_sigma") && err.message.contains("[0, 0.5]"));
     }
 
     #[test]
     fn cold_night_surface_releases_nothing_measurable() {
-        let mut law = law_with(&[]);
-        let mut out = [f64::NAN];
-        // At 100 K, U/kT = 214.7, so nu exp(-U/kT) ~ 1e13 * 6e-94 (C): effectively zero,
+        let law = law_with(&[]);
+        // At 100 K, U/kT = 214.7, so nu exp(-U/kT) ~ 1e13 * 6e-94: effectively zero,
         // and the exponential must not produce NaN or a negative rate.
-        law.release_rate(&[cell(100.0, 1.0e14)], &mut out).unwrap();
-        assert!(out[0] >= 0.0 && out[0] < 1e-60, "rate {}", out[0]);
+        let rate = law.release_rate_one(&cell(100.0, 1.0e14)).unwrap();
+        assert!((0.0..1e-60).contains(&rate), "rate {rate}");
     }
 }
