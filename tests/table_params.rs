@@ -417,8 +417,8 @@ struct V10Manifest {
     /// declares some: the one optional key. The 1.0 host's decoder (serde's
     /// default) skips keys it does not know, so it does not stop a 1.0
     /// host loading the module; everything else must keep the 1.0 layout.
-    #[serde(default, skip_serializing)]
-    launch_laws: Option<serde::de::IgnoredAny>,
+    #[serde(default, skip_serializing, rename = "launch_laws")]
+    _launch_laws: Option<serde::de::IgnoredAny>,
 }
 
 /// A loss module as an ABI 1.0 host knows it: stamped 1.0.0, a manifest of
@@ -467,7 +467,7 @@ fn abi_1_0_module() -> Vec<u8> {
             tolerance: 1e-12,
             source: "the fixture's constant".into(),
         }],
-        launch_laws: None,
+        _launch_laws: None,
     };
     let bytes = rmp_serde::to_vec_named(&m).unwrap();
     wat(Some("1.0.0"), Some(&bytes), "", &loss_export("(local.get $n)"))

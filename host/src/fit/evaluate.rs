@@ -34,6 +34,13 @@ use crate::driver::{self, Outcome, Session};
 use crate::output::results::{MEASURES, RunResult};
 use crate::runtime::Runtime;
 
+/// One run's model values and its own standard errors, per observation,
+/// in the observations' units.
+type RunValues = (Vec<f64>, Vec<f64>);
+
+/// Image points per view file: (observation index, (x km, y km)).
+type SkyPoints<'a> = HashMap<&'a PathBuf, Vec<(usize, (f64, f64))>>;
+
 /// The model at one parameter point.
 #[derive(Clone, Debug)]
 pub struct Point {
@@ -242,7 +249,7 @@ fn run_values(
 ) -> Result<(Vec<f64>, Vec<f64>), String> {
     let mut views: HashMap<&PathBuf, Vec<(f64, f64)>> = HashMap::new();
     // Image points: each view's points computed together, from one density field.
-    let mut sky: HashMap<&PathBuf, Vec<(usize, (f64, f64))>> = HashMap::new();
+    let mut sky: SkyPoints = HashMap::new();
     for (i, o) in obs.iter().enumerate() {
         if let Observable::ImagePoint(v, x, y) = &o.what {
             sky.entry(v).or_default().push((i, (*x, *y)));
@@ -492,8 +499,8 @@ impl<'a> Evaluator<'a> {
     }
 
     /// Run every (point, seed) of `runs`, `jobs` at a time; the answers in order.
-    fn run_all(&self, runs: &[(Vec<f64>, u64)]) -> Result<Vec<(Vec<f64>, Vec<f64>)>, String> {
-        let results: Vec<Mutex<Option<Result<(Vec<f64>, Vec<f64>), String>>>> =
+    fn run_all(&self, runs: &[(Vec<f64>, u64)]) -> Result<Vec<RunValues>, String> {
+        let results: Vec<Mutex<Option<Result<RunValues, String>>>> =
             runs.iter().map(|_| Mutex::new(None)).collect();
         let next = AtomicUsize::new(0);
         let failed = AtomicBool::new(false);
