@@ -309,6 +309,11 @@ fn fit_to_a_slit_profile_and_image_points_recovers_the_flux() {
         r.interval_2sigma,
         r.notes
     );
+    // Every row of residuals.csv has the header's seven cells (an image
+    // point's label has no comma).
+    let res = std::fs::read_to_string(tmp.path().join("fit/residuals.csv")).unwrap();
+    assert!(res.lines().all(|l| l.split(',').count() == 7), "{res}");
+    assert_eq!(res.lines().filter(|l| l.starts_with("image:slit.toml at ")).count(), 5);
     // Brightness grows with the flux: the fitted model reproduces the
     // observed slit and pixels to their errors (common practice: chi2/dof 0.3-3).
     assert!(r.chi2_per_dof > 0.2 && r.chi2_per_dof < 3.0, "{}", r.chi2_per_dof);

@@ -142,7 +142,8 @@ pub fn parse(text: &str, file: &str, base: &std::path::Path) -> Result<Vec<Obser
                     return Err(format!("{at}: brightness is in `R` (rayleigh), not `{unit}`"));
                 }
                 let (x, y) = sky_point(c[1]).map_err(|e| format!("{at}: coordinate: {e}"))?;
-                (Observable::ImagePoint(view, x, y), format!("{k} at ({x}, {y}) km"))
+                // No comma in the label: it is a cell of residuals.csv.
+                (Observable::ImagePoint(view, x, y), format!("{k} at {x} {y} km"))
             }
             k if k.starts_with("brightness:") => {
                 let view = view_file(&k["brightness:".len()..], k, base, &at)?;
