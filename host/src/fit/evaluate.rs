@@ -22,7 +22,7 @@
 //! Statist. 21, 124). A point evaluated before (the same parameter values
 //! to the bit) is not run again.
 
-use std::collections::HashMap;
+use std::collections::{BTreeMap, HashMap};
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 use std::sync::{Arc, Mutex};
@@ -358,7 +358,11 @@ const LATTICE: f64 = (1u64 << 30) as f64;
 /// The evaluations of a fit so far, in order, and the points by their bits.
 #[derive(Default)]
 struct Record {
-    points: HashMap<Vec<u64>, Point>,
+    /// Ordered by the bits of z (a map whose order is fixed: the noise and
+    /// the surrogate sum over these points, and a sum's last bits depend on
+    /// its order, so a hashed order would change them from one process to
+    /// the next).
+    points: BTreeMap<Vec<u64>, Point>,
     evaluations: Vec<Evaluation>,
     reused: usize,
     runs: usize,
@@ -694,7 +698,7 @@ impl<'a> Evaluator<'a> {
         out
     }
 
-    /// Every point evaluated so far.
+    /// Every point evaluated so far, in a fixed order (by the bits of z).
     pub fn points(&self) -> Vec<Point> {
         self.record.lock().map(|r| r.points.values().cloned().collect()).unwrap_or_default()
     }
