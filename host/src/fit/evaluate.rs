@@ -235,6 +235,10 @@ fn relative_noise(members: &[usize], points: &[&Point], mean_of: usize) -> Famil
     }
 }
 
+/// One run's value of each observation, in its unit, and the run's own
+/// standard error of it (NaN where it has none).
+type RunValues = (Vec<f64>, Vec<f64>);
+
 /// What a run gives a fit: its summary and its two column profiles.
 struct RunView<'r> {
     summary: &'r Summary,
@@ -244,11 +248,7 @@ struct RunView<'r> {
 
 /// One run's values for the observations, and its own error estimates
 /// (NaN where it has none).
-fn run_values(
-    r: RunView,
-    dir: &std::path::Path,
-    obs: &[Observation],
-) -> Result<(Vec<f64>, Vec<f64>), String> {
+fn run_values(r: RunView, dir: &std::path::Path, obs: &[Observation]) -> Result<RunValues, String> {
     let mut views: HashMap<&PathBuf, Vec<(f64, f64)>> = HashMap::new();
     let mut values = Vec::with_capacity(obs.len());
     let mut errors = Vec::with_capacity(obs.len());
@@ -307,7 +307,7 @@ fn run_values(
 /// observation is a column profile. The files hold the numbers the run
 /// computed, bit for bit (shortest round-trip text), so this gives what
 /// [`run_values`] gives for the same run in memory.
-fn read_run(dir: &Path, obs: &[Observation]) -> Result<(Vec<f64>, Vec<f64>), String> {
+fn read_run(dir: &Path, obs: &[Observation]) -> Result<RunValues, String> {
     let summary = Summary::read(&dir.join("summary.json"))?;
     let wants = |f: fn(&Observable) -> bool| obs.iter().any(|o| f(&o.what));
     let equator = if wants(|w| matches!(w, Observable::EquatorColumn(_))) {
@@ -425,18 +425,16 @@ impl<'a> Evaluator<'a> {
         self
     }
 
-    /// The scenario at `z` with `seed`. With more than one job at a time,
-    /// each run gets its share of the cores, and on Slurm the CPUs of its
-    /// task (results do not depend on it).
+    /// The scenario at `z` with `seed`. With more than one job at a time
+    /// here, each run gets its share of the cores (results do not depend
+    /// on it; a Slurm task's run gets its task's CPUs instead).
     pub fn source(&self, z: &[f64], seed: u64) -> ScenarioSource {
         let mut s = self.base.clone();
         for (p, &zi) in self.params.iter().zip(z) {
             s.overrides.push(p.setting(p.at(zi)));
         }
         s.overrides.push(format!("run.seed={seed}"));
-        if let Some(slurm) = self.slurm {
-            s.overrides.push(format!("run.threads={}", slurm.options.cpus_per_task.max(1)));
-        } else if self.jobs > 1 {
+        if self.slurm.is_none() && self.jobs > 1 {
             let cores = std::thread::available_parallelism().map_or(1, |n| n.get());
             s.overrides.push(format!("run.threads={}", (cores / self.jobs).max(1)));
         }
@@ -472,7 +470,7 @@ impl<'a> Evaluator<'a> {
         let runs: Vec<(Vec<f64>, u64)> =
             todo.iter().flat_map(|z| self.seeds.iter().map(move |&s| (z.clone(), s))).collect();
         let mut done = self.run_all(&runs, stage, log)?.into_iter();
-        let per_point: Vec<Vec<(Vec<f64>, Vec<f64>)>> =
+        let per_point: Vec<Vec<RunValues>> =
             todo.iter().map(|_| done.by_ref().take(self.seeds.len()).collect()).collect();
         let mut rec = self.record.lock().map_err(|_| "a fit worker failed")?;
         rec.runs += runs.len();
@@ -543,11 +541,11 @@ impl<'a> Evaluator<'a> {
         runs: &[(Vec<f64>, u64)],
         stage: &str,
         log: &(dyn Fn(&str) + Sync),
-    ) -> Result<Vec<(Vec<f64>, Vec<f64>)>, String> {
+    ) -> Result<Vec<RunValues>, String> {
         if let Some(slurm) = self.slurm {
             return self.run_on_slurm(slurm, runs, stage, log);
         }
-        let results: Vec<Mutex<Option<Result<(Vec<f64>, Vec<f64>), String>>>> =
+        let results: Vec<Mutex<Option<Result<RunValues, String>>>> =
             runs.iter().map(|_| Mutex::new(None)).collect();
         let next = AtomicUsize::new(0);
         let failed = AtomicBool::new(false);
@@ -582,7 +580,7 @@ impl<'a> Evaluator<'a> {
     }
 
     /// Run `runs` as one Slurm job array (one task per run, each the
-    /// `exobound run` of [`Evaluator::source`]), wait for it, and read every
+    /// `exobound run` of [`Evaluator::source`] on the task's CPUs), wait for it, and read every
     /// run's directory as [`read_run`] does; then remove the runs.
     fn run_on_slurm(
         &self,
@@ -590,7 +588,7 @@ impl<'a> Evaluator<'a> {
         runs: &[(Vec<f64>, u64)],
         stage: &str,
         log: &(dyn Fn(&str) + Sync),
-    ) -> Result<Vec<(Vec<f64>, Vec<f64>)>, String> {
+    ) -> Result<Vec<RunValues>, String> {
         if runs.is_empty() {
             return Ok(Vec::new());
         }
@@ -602,10 +600,10 @@ impl<'a> Evaluator<'a> {
         };
         let tasks: Vec<Task> = runs
             .iter()
-            .map(|(z, seed)| Task {
-                overrides: self.source(z, *seed).overrides,
-                point: self.describe(z),
-                seed: *seed,
+            .map(|(z, seed)| {
+                let mut overrides = self.source(z, *seed).overrides;
+                overrides.push(format!("run.threads={}", slurm.options.cpus_per_task.max(1)));
+                Task { overrides, point: self.describe(z), seed: *seed }
             })
             .collect();
         let batch = slurm.write_batch(number, stage, &tasks)?;
@@ -677,7 +675,7 @@ impl<'a> Evaluator<'a> {
     }
 
     /// One run at `z` with `seed`, into its own scratch directory.
-    fn run(&self, z: &[f64], seed: u64, k: usize) -> Result<(Vec<f64>, Vec<f64>), String> {
+    fn run(&self, z: &[f64], seed: u64, k: usize) -> Result<RunValues, String> {
         let source = self.source(z, seed);
         let scenario = source.load(self.runtime).map_err(|e| e.to_string())?;
         let dir = self.work.join(format!("run-{k}-seed-{seed}"));

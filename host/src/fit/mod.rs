@@ -485,7 +485,8 @@ pub fn fit(
         let (model, model_se) = s.model_at(&zbest);
         let chi2 = s.chi2(&zbest);
         let dof = obs.len() as i64 - d as i64;
-        // 4. Keep the best-fit run (first seed) for inspection.
+        // 4. Keep the best-fit run (first seed) for inspection; it is made
+        // here, also when the batches went to Slurm.
         let source = ev.source(&zbest, settings.seeds[0]);
         let scenario = source.load(runtime).map_err(|e| e.to_string())?;
         let session = Session { stop: Arc::new(AtomicBool::new(false)), progress: None };
@@ -538,6 +539,13 @@ pub fn fit(
             "free": params,
             "seeds": settings.seeds,
             "best_run": "best/ holds the run at the best fit (first seed) with its own provenance",
+            "runs_made": match &settings.slurm {
+                Some(s) => format!(
+                    "as Slurm job arrays, one per batch; scripts and logs in {}",
+                    s.job_dir.display()
+                ),
+                None => format!("here, {} at a time", settings.jobs.max(1)),
+            },
         });
         let json = serde_json::to_vec_pretty(&prov).map_err(|e| e.to_string())?;
         atomic_write(&dir.join(PROVENANCE_FILE), &json).map_err(|e| e.to_string())?;

@@ -31,6 +31,8 @@ pub const MARKER: &str = "exobound-fit-jobs.txt";
 pub const ARRAY_SCRIPT: &str = "runs.sbatch";
 /// Lines of a failed task's log quoted in the error, dimensionless count.
 const LOG_TAIL: usize = 6;
+/// Failed tasks described in full in the error (the others by number), dimensionless count.
+const SHOWN_FAILURES: usize = 5;
 
 /// Where and how a fit's batches run on Slurm.
 #[derive(Clone, Debug)]
@@ -122,10 +124,12 @@ impl Batch {
         format!("  task {k} ({}, seed {}): {why}; log `{}`{tail}", t.point, t.seed, log.display())
     }
 
-    /// The error of a batch whose tasks `failed` left no finished run.
+    /// The error of a batch whose tasks `failed` left no finished run:
+    /// the first few described in full, the rest by number.
     pub fn failure(&self, failed: &[usize], job: &str) -> String {
-        let lines: Vec<String> = failed
+        let mut lines: Vec<String> = failed
             .iter()
+            .take(SHOWN_FAILURES)
             .map(|&k| {
                 self.describe_failure(
                     k,
@@ -133,6 +137,15 @@ impl Batch {
                 )
             })
             .collect();
+        if failed.len() > SHOWN_FAILURES {
+            let rest: Vec<String> =
+                failed[SHOWN_FAILURES..].iter().map(|k| k.to_string()).collect();
+            lines.push(format!(
+                "  and tasks {} (logs `{}`)",
+                rest.join(", "),
+                self.dir.join("logs").join("task-K.log").display()
+            ));
+        }
         format!(
             "batch {} ({}), {job}: {} of {} runs did not finish:\n{}\nThe fit stopped and wrote \
              no output. The scripts and logs stay in `{}`; fix the cause and run the fit again \
@@ -433,6 +446,14 @@ mod tests {
         std::fs::create_dir_all(b.dir.join("runs/task-1.partial")).unwrap();
         std::fs::write(b.log(1), "running\n\nerror: module trapped\n").unwrap();
         assert_eq!(b.unfinished(), vec![1]);
+        // Many failures: the first five in full, the rest by number.
+        let many = s
+            .write_batch(2, "design 1", &(0..8).map(|_| tasks[0].clone()).collect::<Vec<_>>())
+            .unwrap();
+        let e = many.failure(&many.unfinished(), "Slurm job 43");
+        assert!(e.contains("8 of 8 runs did not finish"), "{e}");
+        assert!(e.contains("  task 4 (") && !e.contains("  task 5 ("), "{e}");
+        assert!(e.contains("  and tasks 5, 6, 7 (logs `"), "{e}");
         let e = b.failure(&b.unfinished(), "Slurm job 42");
         assert!(e.starts_with("batch 1 (grid), Slurm job 42: 1 of 3 runs did not finish:"), "{e}");
         assert!(e.contains("task 1 (flux = 1e5 cm^-2 s^-1, seed 11)"), "{e}");
