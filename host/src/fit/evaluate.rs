@@ -580,8 +580,9 @@ impl<'a> Evaluator<'a> {
     }
 
     /// Run `runs` as one Slurm job array (one task per run, each the
-    /// `exobound run` of [`Evaluator::source`] on the task's CPUs), wait for it, and read every
-    /// run's directory as [`read_run`] does; then remove the runs.
+    /// `exobound run` of [`Evaluator::source`] on the task's CPUs), wait
+    /// for it, and read every run's directory as [`read_run`] does; then
+    /// remove the runs.
     fn run_on_slurm(
         &self,
         slurm: &FitSlurm,
