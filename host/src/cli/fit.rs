@@ -1,15 +1,19 @@
 //! `exobound fit`: tune free parameters of a scenario to observations.
 //!
-//! Why this exists: the command-line side of [`exobound::fit`].
+//! Why this exists: the command-line side of [`exobound::fit`], including
+//! `--slurm JOBDIR`, which sends each batch of runs to Slurm
+//! ([`exobound::fit::slurm`]) with the sweep's Slurm options.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
 use anyhow::{Context, Result, anyhow, bail};
 use clap::Args;
 use exobound::checkpoint::ScenarioSource;
+use exobound::fit::slurm::FitSlurm;
 use exobound::fit::{self, FitSettings, FreeParam};
 use exobound::runtime::{Runtime, RuntimeConfig};
+use exobound::sweep::slurm::SlurmOptions;
 
 /// Arguments of `exobound fit`.
 #[derive(Args)]
@@ -36,8 +40,22 @@ pub struct FitArgs {
     #[arg(long, default_value_t = 8)]
     max_rounds: usize,
     /// Model runs at once (each gets its share of the cores; results do not depend on it).
-    #[arg(long, default_value_t = 1)]
+    #[arg(long, default_value_t = 1, conflicts_with = "slurm")]
     jobs: usize,
+    /// Run each batch of model runs as a Slurm job array (one task per run,
+    /// submitted with sbatch --wait); scripts, logs and the runs until read go
+    /// into JOBDIR, which every node must see. Same result as a local fit.
+    #[arg(long, value_name = "JOBDIR")]
+    slurm: Option<PathBuf>,
+    /// With --slurm: CPUs per array task (each run's run.threads).
+    #[arg(long, default_value_t = 1, requires = "slurm")]
+    cpus_per_task: usize,
+    /// With --slurm: wall-time limit per task, in Slurm's form (e.g. 2:00:00).
+    #[arg(long, requires = "slurm")]
+    time: Option<String>,
+    /// With --slurm: partition.
+    #[arg(long, requires = "slurm")]
+    partition: Option<String>,
     /// Override a scenario key (repeatable).
     #[arg(long = "set", value_name = "KEY=VALUE")]
     set: Vec<String>,
@@ -80,11 +98,32 @@ pub fn run(mut args: FitArgs) -> Result<()> {
     super::check_locks(&[(&base, &scenario.modules)], args.update_lock)?;
     let seed0 = scenario.config.seed;
     drop(scenario);
+    let slurm = match &args.slurm {
+        Some(dir) => {
+            let absolute = |p: &Path| {
+                std::path::absolute(p).with_context(|| format!("resolving {}", p.display()))
+            };
+            Some(FitSlurm {
+                job_dir: absolute(dir)?,
+                options: SlurmOptions {
+                    shards: 1,
+                    cpus_per_task: args.cpus_per_task.max(1),
+                    time_limit: args.time.clone(),
+                    partition: args.partition.clone(),
+                },
+                exe: std::env::current_exe().context("locating the exobound binary")?,
+                scenario: args.scenario.as_deref().map(absolute).transpose()?,
+                quick: args.quick,
+            })
+        }
+        None => None,
+    };
     let settings = FitSettings {
         seeds: (0..args.seeds.max(1)).map(|k| seed0.wrapping_add(k)).collect(),
         grid: args.grid,
         max_rounds: args.max_rounds,
         jobs: args.jobs.max(1),
+        slurm,
     };
     let log = |l: &str| eprintln!("{l}");
     let r = fit::fit(&base, &params, &obs, &settings, &args.out, &runtime, &log)

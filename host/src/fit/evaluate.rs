@@ -22,21 +22,19 @@
 //! Statist. 21, 124). A point evaluated before (the same parameter values
 //! to the bit) is not run again.
 
-use std::collections::HashMap;
-use std::path::PathBuf;
+use std::collections::{BTreeMap, HashMap};
+use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 use std::sync::{Arc, Mutex};
 
 use super::observed::{Observable, Observation};
+use super::slurm::{FitSlurm, Task};
 use super::{Evaluation, FreeParam};
 use crate::checkpoint::ScenarioSource;
 use crate::driver::{self, Outcome, Session};
-use crate::output::results::{MEASURES, RunResult};
+use crate::output::results::{self, MEASURES, Profile};
+use crate::output::summary::Summary;
 use crate::runtime::Runtime;
-
-/// One run's model values and its own standard errors, per observation,
-/// in the observations' units.
-type RunValues = (Vec<f64>, Vec<f64>);
 
 /// Image points per view file: (observation index, (x km, y km)).
 type SkyPoints<'a> = HashMap<&'a PathBuf, Vec<(usize, (f64, f64))>>;
@@ -240,13 +238,20 @@ fn relative_noise(members: &[usize], points: &[&Point], mean_of: usize) -> Famil
     }
 }
 
+/// One run's value of each observation, in its unit, and the run's own
+/// standard error of it (NaN where it has none).
+type RunValues = (Vec<f64>, Vec<f64>);
+
+/// What a run gives a fit: its summary and its two column profiles.
+struct RunView<'r> {
+    summary: &'r Summary,
+    equator: &'r Profile,
+    latitude: &'r Profile,
+}
+
 /// One run's values for the observations, and its own error estimates
 /// (NaN where it has none).
-fn run_values(
-    r: &RunResult,
-    dir: &std::path::Path,
-    obs: &[Observation],
-) -> Result<(Vec<f64>, Vec<f64>), String> {
+fn run_values(r: RunView, dir: &std::path::Path, obs: &[Observation]) -> Result<RunValues, String> {
     let mut views: HashMap<&PathBuf, Vec<(f64, f64)>> = HashMap::new();
     // Image points: each view's points computed together, from one density field.
     let mut sky: SkyPoints = HashMap::new();
@@ -275,7 +280,7 @@ fn run_values(
                 (r.latitude.at(*l, None), r.latitude.error_at(*l, None))
             }
             Observable::Summary(m) => {
-                let s = &r.summary;
+                let s = r.summary;
                 let e = match MEASURES[*m].name {
                     "equatorial_peak_shift" => s.equatorial_column_peak.uncertainty_deg,
                     "latitude_cos_power_n" => s.latitude_profile_fit.uncertainty,
@@ -317,6 +322,35 @@ fn run_values(
     Ok((values, errors))
 }
 
+/// One run's values read back from its finished output directory:
+/// `summary.json`, and the profile tables (`profiles/*.csv`) when an
+/// observation is a column profile. The files hold the numbers the run
+/// computed, bit for bit (shortest round-trip text), so this gives what
+/// [`run_values`] gives for the same run in memory.
+fn read_run(dir: &Path, obs: &[Observation]) -> Result<RunValues, String> {
+    let summary = Summary::read(&dir.join("summary.json"))?;
+    let wants = |f: fn(&Observable) -> bool| obs.iter().any(|o| f(&o.what));
+    let equator = if wants(|w| matches!(w, Observable::EquatorColumn(_))) {
+        results::read_profile(&dir.join(results::EQUATOR_FILE), "local_time_h")?
+    } else {
+        Profile::default()
+    };
+    let latitude = if wants(|w| matches!(w, Observable::LatitudeColumn(_))) {
+        results::read_profile(&dir.join(results::LATITUDE_FILE), "latitude_deg")?
+    } else {
+        Profile::default()
+    };
+    run_values(RunView { summary: &summary, equator: &equator, latitude: &latitude }, dir, obs)
+}
+
+/// Whether the observations include a column profile, which a run
+/// elsewhere hands back only through its CSV tables (`outputs.products`
+/// must hold `csv`).
+pub fn needs_profiles(obs: &[Observation]) -> bool {
+    obs.iter()
+        .any(|o| matches!(o.what, Observable::EquatorColumn(_) | Observable::LatitudeColumn(_)))
+}
+
 /// Which families have no estimate of the model's noise with these seeds.
 pub fn unknown_noise(obs: &[Observation], seeds: usize) -> Vec<String> {
     if seeds >= 2 {
@@ -344,10 +378,16 @@ const LATTICE: f64 = (1u64 << 30) as f64;
 /// The evaluations of a fit so far, in order, and the points by their bits.
 #[derive(Default)]
 struct Record {
-    points: HashMap<Vec<u64>, Point>,
+    /// Ordered by the bits of z (a map whose order is fixed: the noise and
+    /// the surrogate sum over these points, and a sum's last bits depend on
+    /// its order, so a hashed order would change them from one process to
+    /// the next).
+    points: BTreeMap<Vec<u64>, Point>,
     evaluations: Vec<Evaluation>,
     reused: usize,
     runs: usize,
+    /// Batches sent to Slurm so far.
+    batches: usize,
 }
 
 /// Runs the scenario at parameter points and remembers the answers.
@@ -366,6 +406,9 @@ pub struct Evaluator<'a> {
     pub runtime: &'a Arc<Runtime>,
     /// Scratch directory for the runs.
     pub work: PathBuf,
+    /// Where the runs go as Slurm job arrays, one per batch; `None` to run
+    /// them here.
+    slurm: Option<&'a FitSlurm>,
     record: Mutex<Record>,
     /// The noise measured by [`Evaluator::calibrate`], once it has run.
     noise: Mutex<Option<Noise>>,
@@ -390,20 +433,28 @@ impl<'a> Evaluator<'a> {
             jobs: jobs.max(1),
             runtime,
             work,
+            slurm: None,
             record: Mutex::default(),
             noise: Mutex::default(),
         }
     }
 
-    /// The scenario at `z` with `seed`. With more than one job at a time,
-    /// each run gets its share of the cores (results do not depend on it).
+    /// Run every batch on Slurm as `slurm` says (`None`: here, `jobs` at a time).
+    pub fn on_slurm(mut self, slurm: Option<&'a FitSlurm>) -> Evaluator<'a> {
+        self.slurm = slurm;
+        self
+    }
+
+    /// The scenario at `z` with `seed`. With more than one job at a time
+    /// here, each run gets its share of the cores (results do not depend
+    /// on it; a Slurm task's run gets its task's CPUs instead).
     pub fn source(&self, z: &[f64], seed: u64) -> ScenarioSource {
         let mut s = self.base.clone();
         for (p, &zi) in self.params.iter().zip(z) {
             s.overrides.push(p.setting(p.at(zi)));
         }
         s.overrides.push(format!("run.seed={seed}"));
-        if self.jobs > 1 {
+        if self.slurm.is_none() && self.jobs > 1 {
             let cores = std::thread::available_parallelism().map_or(1, |n| n.get());
             s.overrides.push(format!("run.threads={}", (cores / self.jobs).max(1)));
         }
@@ -438,8 +489,8 @@ impl<'a> Evaluator<'a> {
         }
         let runs: Vec<(Vec<f64>, u64)> =
             todo.iter().flat_map(|z| self.seeds.iter().map(move |&s| (z.clone(), s))).collect();
-        let mut done = self.run_all(&runs)?.into_iter();
-        let per_point: Vec<Vec<(Vec<f64>, Vec<f64>)>> =
+        let mut done = self.run_all(&runs, stage, log)?.into_iter();
+        let per_point: Vec<Vec<RunValues>> =
             todo.iter().map(|_| done.by_ref().take(self.seeds.len()).collect()).collect();
         let mut rec = self.record.lock().map_err(|_| "a fit worker failed")?;
         rec.runs += runs.len();
@@ -466,19 +517,10 @@ impl<'a> Evaluator<'a> {
         for z in &todo {
             let chi2 = noise.chi_square(self.obs, &rec.points[&key(z)].model);
             let values: Vec<f64> = self.params.iter().zip(z).map(|(p, &zi)| p.at(zi)).collect();
-            let shown: Vec<String> = self
-                .params
-                .iter()
-                .zip(&values)
-                .map(|(p, v)| {
-                    let gap = if p.unit.is_empty() { "" } else { " " };
-                    format!("{} = {v:.5e}{gap}{}", short(&p.key), p.unit)
-                })
-                .collect();
             lines.push(format!(
                 "evaluation {} ({stage}): {}: chi2 = {chi2:.3} ({} run(s))",
                 rec.evaluations.len() + 1,
-                shown.join(", "),
+                self.describe(z),
                 self.seeds.len()
             ));
             rec.evaluations.push(Evaluation { values, chi2, stage: stage.to_string() });
@@ -498,8 +540,31 @@ impl<'a> Evaluator<'a> {
         Ok(out)
     }
 
-    /// Run every (point, seed) of `runs`, `jobs` at a time; the answers in order.
-    fn run_all(&self, runs: &[(Vec<f64>, u64)]) -> Result<Vec<RunValues>, String> {
+    /// The parameter values at `z`, in their units, for log lines and messages.
+    fn describe(&self, z: &[f64]) -> String {
+        let shown: Vec<String> = self
+            .params
+            .iter()
+            .zip(z)
+            .map(|(p, &zi)| {
+                let gap = if p.unit.is_empty() { "" } else { " " };
+                format!("{} = {:.5e}{gap}{}", short(&p.key), p.at(zi), p.unit)
+            })
+            .collect();
+        shown.join(", ")
+    }
+
+    /// Run every (point, seed) of `runs` for `stage`, `jobs` at a time, or
+    /// as one Slurm job array; the answers in order.
+    fn run_all(
+        &self,
+        runs: &[(Vec<f64>, u64)],
+        stage: &str,
+        log: &(dyn Fn(&str) + Sync),
+    ) -> Result<Vec<RunValues>, String> {
+        if let Some(slurm) = self.slurm {
+            return self.run_on_slurm(slurm, runs, stage, log);
+        }
         let results: Vec<Mutex<Option<Result<RunValues, String>>>> =
             runs.iter().map(|_| Mutex::new(None)).collect();
         let next = AtomicUsize::new(0);
@@ -534,6 +599,57 @@ impl<'a> Evaluator<'a> {
             .collect()
     }
 
+    /// Run `runs` as one Slurm job array (one task per run, each the
+    /// `exobound run` of [`Evaluator::source`] on the task's CPUs), wait
+    /// for it, and read every run's directory as [`read_run`] does; then
+    /// remove the runs.
+    fn run_on_slurm(
+        &self,
+        slurm: &FitSlurm,
+        runs: &[(Vec<f64>, u64)],
+        stage: &str,
+        log: &(dyn Fn(&str) + Sync),
+    ) -> Result<Vec<RunValues>, String> {
+        if runs.is_empty() {
+            return Ok(Vec::new());
+        }
+        slurm.check_source(self.base)?;
+        let number = {
+            let mut rec = self.record.lock().map_err(|_| "a fit worker failed")?;
+            rec.batches += 1;
+            rec.batches
+        };
+        let tasks: Vec<Task> = runs
+            .iter()
+            .map(|(z, seed)| {
+                let mut overrides = self.source(z, *seed).overrides;
+                overrides.push(format!("run.threads={}", slurm.options.cpus_per_task.max(1)));
+                Task { overrides, point: self.describe(z), seed: *seed }
+            })
+            .collect();
+        let batch = slurm.write_batch(number, stage, &tasks)?;
+        log(&format!(
+            "batch {number} ({stage}): {} run(s) as a Slurm job array, `{}`; waiting for it",
+            tasks.len(),
+            batch.script().display()
+        ));
+        slurm.run(&batch)?;
+        let mut out = Vec::with_capacity(runs.len());
+        for k in 0..tasks.len() {
+            let dir = batch.run_dir(k);
+            let values = read_run(&dir, self.obs).map_err(|e| {
+                format!(
+                    "batch {number} ({stage}): the run of a task cannot be read:\n{}\nThe fit \
+                     stopped and wrote no output.",
+                    batch.describe_failure(k, &e)
+                )
+            })?;
+            out.push(values);
+        }
+        batch.remove_runs()?;
+        Ok(out)
+    }
+
     /// Measure the model's noise at `z` (a point already evaluated) from
     /// its seeds and `extra` seeds more, and use it from now on: with the
     /// fit's own few seeds alone, the common part of the noise would rest
@@ -554,7 +670,7 @@ impl<'a> Evaluator<'a> {
             .cloned()
             .ok_or("calibrate: the point was not evaluated")?;
         let runs: Vec<(Vec<f64>, u64)> = extra.iter().map(|&s| (z.to_vec(), s)).collect();
-        let more = self.run_all(&runs)?;
+        let more = self.run_all(&runs, "noise calibration", log)?;
         let mut per_seed = point.per_seed.clone();
         per_seed.extend(more.into_iter().map(|m| m.0));
         let n = per_seed.len() as f64;
@@ -580,21 +696,28 @@ impl<'a> Evaluator<'a> {
     }
 
     /// One run at `z` with `seed`, into its own scratch directory.
-    fn run(&self, z: &[f64], seed: u64, k: usize) -> Result<(Vec<f64>, Vec<f64>), String> {
+    fn run(&self, z: &[f64], seed: u64, k: usize) -> Result<RunValues, String> {
         let source = self.source(z, seed);
         let scenario = source.load(self.runtime).map_err(|e| e.to_string())?;
         let dir = self.work.join(format!("run-{k}-seed-{seed}"));
         let _ = std::fs::remove_dir_all(&dir);
         let session = Session { stop: Arc::new(AtomicBool::new(false)), progress: None };
         let out = match driver::start(scenario, source, &dir, session).map_err(|e| e.to_string())? {
-            Outcome::Finished { result, .. } => run_values(&result, &dir, self.obs),
+            Outcome::Finished { result, .. } => {
+                let view = RunView {
+                    summary: &result.summary,
+                    equator: &result.equator,
+                    latitude: &result.latitude,
+                };
+                run_values(view, &dir, self.obs)
+            }
             Outcome::Interrupted { .. } => Err("interrupted".into()),
         };
         let _ = std::fs::remove_dir_all(&dir);
         out
     }
 
-    /// Every point evaluated so far.
+    /// Every point evaluated so far, in a fixed order (by the bits of z).
     pub fn points(&self) -> Vec<Point> {
         self.record.lock().map(|r| r.points.values().cloned().collect()).unwrap_or_default()
     }

@@ -13,10 +13,13 @@
 //! current best point, a quadratic surrogate of each model value fitted to
 //! them, and the exact minimum and profile-likelihood intervals of the
 //! surrogate's chi-square ([`surrogate`]) move and shrink the design until
-//! it matches the interval. `docs/fit.md` states the method.
+//! it matches the interval. `docs/fit.md` states the method. The runs of
+//! each batch go to this machine's cores or, with `--slurm`, to a Slurm
+//! job array ([`slurm`]), with the same result.
 
 pub mod evaluate;
 pub mod observed;
+pub mod slurm;
 pub mod surrogate;
 
 use std::path::Path;
@@ -119,13 +122,15 @@ pub struct FitSettings {
     pub grid: usize,
     /// Design rounds at most after the grid.
     pub max_rounds: usize,
-    /// Runs at once.
+    /// Runs at once (on this machine).
     pub jobs: usize,
+    /// Run each batch as a Slurm job array instead; `None` to run here.
+    pub slurm: Option<slurm::FitSlurm>,
 }
 
 impl Default for FitSettings {
     fn default() -> Self {
-        FitSettings { seeds: vec![1, 2], grid: 3, max_rounds: 8, jobs: 1 }
+        FitSettings { seeds: vec![1, 2], grid: 3, max_rounds: 8, jobs: 1, slurm: None }
     }
 }
 
@@ -272,6 +277,35 @@ pub fn check_free(
     s.load(runtime).map(|_| ()).map_err(|e| format!("--free: the parameters together: {e}"))
 }
 
+/// Check, before any run, that the fit can run on Slurm as `s` says: the
+/// tasks rebuild the fit's scenario, the runs write the profile tables the
+/// observations need, and the job directory is ready.
+fn check_slurm(
+    s: &slurm::FitSlurm,
+    base: &ScenarioSource,
+    params: &[FreeParam],
+    obs: &[Observation],
+    runtime: &Arc<Runtime>,
+) -> Result<(), String> {
+    s.check_source(base)?;
+    if evaluate::needs_profiles(obs) {
+        let mut mid = base.clone();
+        for p in params {
+            mid.overrides.push(p.setting(p.at(0.5)));
+        }
+        let scenario = mid.load(runtime).map_err(|e| e.to_string())?;
+        if !scenario.plan.products.csv {
+            return Err(format!(
+                "--slurm: the fit reads column profiles from each run's `profiles/*.csv`, but \
+                 `outputs.products` of {} has no \"csv\"; add it to the scenario, or give \
+                 --set 'outputs.products=[\"netcdf\", \"csv\"]'",
+                base.origin
+            ));
+        }
+    }
+    s.prepare()
+}
+
 /// Fit `params` of the scenario `base` to `obs`, writing into `out`
 /// (staged; renamed when complete). `log` hears a line per evaluation.
 pub fn fit(
@@ -294,6 +328,9 @@ pub fn fit(
         return Err("give at least one seed".into());
     }
     check_free(base, params, runtime)?;
+    if let Some(s) = &settings.slurm {
+        check_slurm(s, base, params, obs, runtime)?;
+    }
     staged(out, |dir| {
         let ev = evaluate::Evaluator::new(
             base,
@@ -303,7 +340,8 @@ pub fn fit(
             settings.jobs,
             runtime,
             dir.join("work"),
-        );
+        )
+        .on_slurm(settings.slurm.as_ref());
         std::fs::create_dir_all(&ev.work).map_err(|e| e.to_string())?;
         let mut notes = Vec::new();
         for fam in evaluate::unknown_noise(obs, settings.seeds.len()) {
@@ -447,7 +485,8 @@ pub fn fit(
         let (model, model_se) = s.model_at(&zbest);
         let chi2 = s.chi2(&zbest);
         let dof = obs.len() as i64 - d as i64;
-        // 4. Keep the best-fit run (first seed) for inspection.
+        // 4. Keep the best-fit run (first seed) for inspection; it is made
+        // here, also when the batches went to Slurm.
         let source = ev.source(&zbest, settings.seeds[0]);
         let scenario = source.load(runtime).map_err(|e| e.to_string())?;
         let session = Session { stop: Arc::new(AtomicBool::new(false)), progress: None };
@@ -500,6 +539,13 @@ pub fn fit(
             "free": params,
             "seeds": settings.seeds,
             "best_run": "best/ holds the run at the best fit (first seed) with its own provenance",
+            "runs_made": match &settings.slurm {
+                Some(s) => format!(
+                    "as Slurm job arrays, one per batch; scripts and logs in {}",
+                    s.job_dir.display()
+                ),
+                None => format!("here, {} at a time", settings.jobs.max(1)),
+            },
         });
         let json = serde_json::to_vec_pretty(&prov).map_err(|e| e.to_string())?;
         atomic_write(&dir.join(PROVENANCE_FILE), &json).map_err(|e| e.to_string())?;

@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# A throw-away single-node Slurm cluster on loopback, for the sweep test.
+# A throw-away single-node Slurm cluster on loopback, for the Slurm tests.
 #
 #   cluster.sh start DIR   start munged, slurmctld and slurmd with their
 #                          config, sockets, state and logs all inside DIR;
