@@ -365,7 +365,7 @@ fn a_bad_free_parameter_is_refused_before_any_run() {
 /// About 600 quick runs: run it with
 /// `cargo test --release -p exobound-tests --test tests -- --ignored fit_intervals_cover_the_truth --nocapture`.
 #[test]
-#[ignore = "a validation of about 600 quick runs (10-20 minutes); docs/fit.md reports its counts"]
+#[ignore = "a validation of about 900 quick runs (20-40 minutes on 2 cores); docs/fit.md reports its counts"]
 fn fit_intervals_cover_the_truth() {
     let tmp = TempDir::new("fit-coverage");
     let rt = runtime();
