@@ -52,24 +52,9 @@ pub struct Inspection {
 /// `path` is `standard:NAME` (the copy embedded in this binary, or the one
 /// `$EXOBOUND_MODULE_DIR` holds).
 pub fn inspect(path: &Path) -> Result<Inspection, HostError> {
-    if let Some(name) = path.to_str().and_then(|p| p.strip_prefix("standard:")) {
-        let bytes = match crate::standard::find(name) {
-            Ok(crate::standard::Found::Embedded(b)) => b.to_vec(),
-            Ok(crate::standard::Found::File(p)) => return inspect(&p),
-            Err(detail) => {
-                return Err(HostError::Read {
-                    path: path.to_path_buf(),
-                    source: std::io::Error::new(std::io::ErrorKind::NotFound, detail),
-                });
-            }
-        };
-        let header = module::read_header(&format!("{name}.wasm"), &bytes, MAX_MANIFEST)?;
-        let build = crate::modbuild::read_build_section(&bytes);
-        return Ok(from_header(Path::new(&format!("embedded:{name}")), header, build));
-    }
-    let bytes = module::read_file(path)?;
-    let header = module::read_header(&module::label_of(path), &bytes, MAX_MANIFEST)?;
-    Ok(from_header(path, header, crate::modbuild::read_build_section(&bytes)))
+    let (shown, bytes) = crate::standard::read_module(path)?;
+    let header = module::read_header(&module::label_of(&shown), &bytes, MAX_MANIFEST)?;
+    Ok(from_header(&shown, header, crate::modbuild::read_build_section(&bytes)))
 }
 
 fn from_header(path: &Path, h: ModuleHeader, build: Option<String>) -> Inspection {

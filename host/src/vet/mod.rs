@@ -247,11 +247,12 @@ pub fn vet_file(path: &Path) -> Result<VetReport, HostError> {
     vet_file_with(path, &VetOptions::default())
 }
 
-/// Vet the module file at `path`; only an unreadable file is an error,
-/// every finding about the module is a check in the report.
+/// Vet the module file at `path` (or the standard module `standard:NAME`);
+/// only an unreadable file is an error, every finding about the module is a
+/// check in the report.
 pub fn vet_file_with(path: &Path, options: &VetOptions) -> Result<VetReport, HostError> {
-    let bytes = module::read_file(path)?;
-    Ok(vet_bytes(&path.display().to_string(), &bytes, options))
+    let (shown, bytes) = crate::standard::read_module(path)?;
+    Ok(vet_bytes(&shown.display().to_string(), &bytes, options))
 }
 
 /// Vet a module given as bytes; `file` names it in the report.
