@@ -81,6 +81,26 @@ pub fn find(name: &str) -> Result<Found, String> {
     ))
 }
 
+/// The bytes of the module that `path` names for `inspect` and `vet`: the
+/// standard module `standard:NAME` (see [`find`]) or a file; with the path
+/// to show for it (`embedded:NAME` for bytes embedded in this binary).
+pub fn read_module(path: &Path) -> Result<(PathBuf, Vec<u8>), HostError> {
+    let Some(name) = path.to_str().and_then(|p| p.strip_prefix("standard:")) else {
+        return Ok((path.to_path_buf(), crate::runtime::module::read_file(path)?));
+    };
+    match find(name) {
+        Ok(Found::Embedded(b)) => Ok((PathBuf::from(format!("embedded:{name}")), b.to_vec())),
+        Ok(Found::File(p)) => {
+            let bytes = crate::runtime::module::read_file(&p)?;
+            Ok((p, bytes))
+        }
+        Err(detail) => Err(HostError::Read {
+            path: path.to_path_buf(),
+            source: std::io::Error::new(std::io::ErrorKind::NotFound, detail),
+        }),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -101,25 +121,5 @@ mod tests {
         }
         let e = find("no-such-law").unwrap_err();
         assert!(e.contains("no-such-law") && e.contains("photoionization"), "{e}");
-    }
-}
-
-/// The bytes of the module that `path` names for `inspect` and `vet`: the
-/// standard module `standard:NAME` (see [`find`]) or a file; with the path
-/// to show for it (`embedded:NAME` for bytes embedded in this binary).
-pub fn read_module(path: &Path) -> Result<(PathBuf, Vec<u8>), HostError> {
-    let Some(name) = path.to_str().and_then(|p| p.strip_prefix("standard:")) else {
-        return Ok((path.to_path_buf(), crate::runtime::module::read_file(path)?));
-    };
-    match find(name) {
-        Ok(Found::Embedded(b)) => Ok((PathBuf::from(format!("embedded:{name}")), b.to_vec())),
-        Ok(Found::File(p)) => {
-            let bytes = crate::runtime::module::read_file(&p)?;
-            Ok((p, bytes))
-        }
-        Err(detail) => Err(HostError::Read {
-            path: path.to_path_buf(),
-            source: std::io::Error::new(std::io::ErrorKind::NotFound, detail),
-        }),
     }
 }
