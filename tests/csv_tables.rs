@@ -162,7 +162,7 @@ fn every_csv_reads_as_numbers_in_rust_and_pandas() {
         &[
             &["fit", "--quick", "--observed", &t("observed.csv"), "--out", &t("fit")][..],
             &["--free", "processes.impact-vapor.parameters.flux=5e4..5e5 cm^-2 s^-1"],
-            &["--grid", "2", "--max-iterations", "2", "--set", "run.particles=1500"],
+            &["--grid", "2", "--max-rounds", "1", "--set", "run.particles=1500"],
             &short,
         ]
         .concat(),
